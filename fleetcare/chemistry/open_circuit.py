@@ -11,11 +11,13 @@ _SEALED_12V = ((11.80, 0.0), (12.00, 25.0), (12.30, 50.0), (12.60, 75.0), (12.85
 REST_VOLTS_12V = {"flooded": _FLOODED_12V, "agm": _SEALED_12V, "gel": _SEALED_12V}
 TECHNOLOGIES = tuple(REST_VOLTS_12V)
 
-# Per-cell volts a typed reading may plausibly show, rested or on charge (low, high).
+# Per-cell volts a typed reading may plausibly show, rested or on charge (low, high). The low end is
+# well under the 1.75 V/cell end of discharge so that a flat or shorted block can still be recorded;
+# anything lower is a meter, lead or typing fault (or a dead block that should be taken out of use).
 PLAUSIBLE_VOLTS_PER_CELL = {
-    "flooded": (1.75, 2.65),
-    "agm": (1.75, 2.50),
-    "gel": (1.75, 2.50),
+    "flooded": (1.0, 2.65),
+    "agm": (1.0, 2.50),
+    "gel": (1.0, 2.50),
 }
 
 
@@ -61,7 +63,7 @@ def soc_from_ocv(volts, cells, technology):
 def plausible_volts_range(cells, technology):
     """(low, high) volts a rested or charging reading across `cells` cells can plausibly show.
 
-    Source: 1.75 V/cell end of discharge; on charge up to about 2.65 flooded (equalizing), 2.50 sealed (common practice).
+    Source: 1.0 V/cell floor (well below the 1.75 V/cell end of discharge, to record flat blocks); on charge up to about 2.65 flooded (equalizing), 2.50 sealed (common practice).
     """
     _check(cells, technology)
     low, high = PLAUSIBLE_VOLTS_PER_CELL[technology]

@@ -178,11 +178,11 @@ def test_soc_from_ocv_is_monotone_and_clamped(technology, cells, volts_a, volts_
 
 
 def test_plausible_range_scales_with_cells():
-    # 1.75 V/cell end of discharge; up to about 2.65 V/cell flooded on equalize,
-    # 2.50 sealed (common practice).
-    assert plausible_volts_range(6, "flooded") == pytest.approx((10.5, 15.9))
-    assert plausible_volts_range(24, "flooded") == pytest.approx((42.0, 63.6))
-    assert plausible_volts_range(12, "agm") == pytest.approx((21.0, 30.0))
+    # Floor 1.0 V/cell (below the 1.75 V/cell end of discharge, so flat blocks can be recorded);
+    # up to about 2.65 V/cell flooded on equalize, 2.50 sealed (common practice).
+    assert plausible_volts_range(6, "flooded") == pytest.approx((6.0, 15.9))
+    assert plausible_volts_range(24, "flooded") == pytest.approx((24.0, 63.6))
+    assert plausible_volts_range(12, "agm") == pytest.approx((12.0, 30.0))
 
 
 def test_plausible_range_holds_every_rest_table_point():

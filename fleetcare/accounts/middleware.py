@@ -1,0 +1,21 @@
+from django.utils import timezone
+
+
+class SiteTimezoneMiddleware:
+    """Show times in the signed-in user's (first) site's local time."""
+
+    def __init__(self, get_response):
+        self.get_response = get_response
+
+    def __call__(self, request):
+        tz = None
+        user = getattr(request, "user", None)
+        if user is not None and user.is_authenticated:
+            site = user.sites.order_by("name").only("timezone").first()
+            if site is not None:
+                tz = site.tzinfo
+        if tz is not None:
+            timezone.activate(tz)
+        else:
+            timezone.deactivate()
+        return self.get_response(request)

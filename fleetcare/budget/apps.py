@@ -1,0 +1,6 @@
+from django.apps import AppConfig
+
+
+class BudgetConfig(AppConfig):
+    name = "fleetcare.budget"
+    label = "budget"

@@ -1,0 +1,37 @@
+from django import template
+from django.utils.html import format_html
+from django.utils.safestring import mark_safe
+
+from fleetcare.charts import to_json
+
+register = template.Library()
+
+_JSON_ESCAPES = {ord(">"): "\\u003E", ord("<"): "\\u003C", ord("&"): "\\u0026"}
+
+
+@register.simple_tag
+def chart(fig, element_id, label=""):
+    """A plotly figure as a div plus its JSON; static/js/charts.js draws it (no inline script, CSP-safe)."""
+    if fig is None:
+        return ""
+    payload = to_json(fig).translate(_JSON_ESCAPES)
+    return format_html(
+        '<div class="fc-chart" id="{}" data-figure="{}-data" role="img" aria-label="{}"></div>'
+        '<script type="application/json" id="{}-data">{}</script>',
+        element_id, element_id, label, element_id, mark_safe(payload),
+    )
+
+
+@register.filter
+def points(sg):
+    """1.265 -> '1.265' with three decimals; None -> an en dash."""
+    if sg is None or sg == "":
+        return "–"
+    return f"{float(sg):.3f}"
+
+
+@register.filter
+def pct(value):
+    if value is None or value == "":
+        return "–"
+    return f"{float(value):.0f} %"

@@ -1,0 +1,6 @@
+from django.urls import path
+
+from fleetcare.dashboard import views
+
+app_name = "dashboard"
+urlpatterns = [path("", views.home, name="home")]

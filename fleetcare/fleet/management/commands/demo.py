@@ -1,0 +1,24 @@
+from django.core.management import call_command
+from django.core.management.base import BaseCommand
+
+from fleetcare.fleet import demo
+
+
+class Command(BaseCommand):
+    help = "Migrate, load the invented demo fleet (once), print the demo logins, then serve like runserver."
+
+    def add_arguments(self, parser):
+        parser.add_argument("addrport", nargs="?", default="127.0.0.1:8000")
+        parser.add_argument("--no-serve", action="store_true", help="Load the demo and stop; do not start the server.")
+
+    def handle(self, *args, addrport, no_serve, **options):
+        call_command("migrate", interactive=False, verbosity=0)
+        if demo.load():
+            self.stdout.write(self.style.SUCCESS("Demo fleet loaded: two warehouses and a care residence, a year of readings."))
+        else:
+            self.stdout.write("Demo fleet already loaded; nothing added.")
+        self.stdout.write("Sign in at http://%s/accounts/login/ as:" % addrport)
+        for username, first, last, role in demo.DEMO_USERS:
+            self.stdout.write(f"  {role:<14} {username:<17} password {demo.DEMO_PASSWORD}")
+        if not no_serve:
+            call_command("runserver", addrport, use_reloader=False)

@@ -1,0 +1,6 @@
+from django.apps import AppConfig
+
+
+class ReadingsConfig(AppConfig):
+    name = "fleetcare.readings"
+    label = "readings"

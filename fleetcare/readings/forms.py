@@ -1,0 +1,227 @@
+"""Entry forms for the battery room: every bad value gets its message beside the box it came from."""
+import uuid
+from decimal import Decimal, InvalidOperation
+
+from django import forms
+from django.utils import timezone
+
+from fleetcare import chemistry
+from fleetcare.fleet.models import Site
+from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
+from fleetcare.readings.services import CellEntry
+
+SG_LOW, SG_HIGH = Decimal("1.000"), Decimal("1.350")
+TEMP_LOW_C, TEMP_HIGH_C = Decimal("-30"), Decimal("70")
+
+
+def to_celsius(value, site):
+    if value is None:
+        return None
+    if site.temp_unit == Site.TempUnit.FAHRENHEIT:
+        return Decimal(str(round(chemistry.f_to_c(float(value)), 1)))
+    return value
+
+
+def temp_label(site):
+    return "°F" if site.temp_unit == Site.TempUnit.FAHRENHEIT else "°C"
+
+
+def check_temp_c(temp_c, site):
+    if temp_c is not None and not TEMP_LOW_C <= temp_c <= TEMP_HIGH_C:
+        if site.temp_unit == Site.TempUnit.FAHRENHEIT:
+            return "Electrolyte temperature must be between −22 and 158 °F."
+        return "Electrolyte temperature must be between −30 and 70 °C."
+    return None
+
+
+class SGField(forms.CharField):
+    """Takes SG as the crew says it: '265' or '1265' or '1.265' all mean 1.265."""
+
+    def to_python(self, value):
+        value = super().to_python(value)
+        if value in self.empty_values:
+            return None
+        try:
+            sg = Decimal(str(chemistry.parse_sg(value))).quantize(Decimal("0.001"))
+        except ValueError as exc:
+            raise forms.ValidationError(str(exc)) from exc
+        if not SG_LOW <= sg <= SG_HIGH:
+            raise forms.ValidationError(f"{sg} is outside 1.000–1.350. Check the hydrometer reading.")
+        return sg
+
+
+def _widget_attrs(**extra):
+    attrs = {"autocomplete": "off", "class": "form-control form-control-lg"}
+    attrs.update(extra)
+    return attrs
+
+
+class InspectionForm(forms.Form):
+    """Header fields plus one box per cell (flooded) or per block (sealed), laid out like the tray."""
+
+    situation = forms.ChoiceField(choices=Inspection.Situation.choices, initial=Inspection.Situation.JUST_CHARGED)
+    scope = forms.ChoiceField(choices=Inspection.Scope.choices, initial=Inspection.Scope.ALL_CELLS, widget=forms.HiddenInput)
+    taken_at = forms.DateTimeField(
+        label="Taken at", widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M")
+    )
+    temp = forms.DecimalField(label="Electrolyte temperature", required=False, max_digits=5, decimal_places=1,
+                              widget=forms.TextInput(attrs=_widget_attrs(inputmode="decimal")))
+    hydrometer_compensated = forms.BooleanField(
+        label="My hydrometer corrects for temperature itself", required=False
+    )
+    hours_since_charge = forms.DecimalField(
+        label="Hours since charge or load ended", required=False, min_value=0, max_value=9999, decimal_places=1,
+        widget=forms.TextInput(attrs=_widget_attrs(inputmode="decimal")),
+    )
+    notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
+    client_uuid = forms.UUIDField(widget=forms.HiddenInput)
+
+    def __init__(self, *args, battery, **kwargs):
+        self.battery = battery
+        self.profile = battery.profile
+        self.site = battery.site
+        initial = kwargs.setdefault("initial", {})
+        initial.setdefault("client_uuid", uuid.uuid4())
+        initial.setdefault("taken_at", timezone.localtime().replace(second=0, microsecond=0))
+        super().__init__(*args, **kwargs)
+        self.fields["temp"].label = f"Electrolyte temperature ({temp_label(self.site)})"
+        self.fields["temp"].widget.attrs["autofocus"] = True
+        if not self.profile.is_flooded:
+            del self.fields["hydrometer_compensated"]
+            self.fields["situation"].initial = Inspection.Situation.RESTED
+        for position in range(1, self.profile.positions + 1):
+            if self.profile.reads_by_block:
+                self.fields[f"volts_{position}"] = forms.DecimalField(
+                    label=f"Block {position} V", required=False, max_digits=6, decimal_places=3,
+                    widget=forms.TextInput(attrs=_widget_attrs(inputmode="decimal", **{"data-position": position})),
+                )
+            else:
+                self.fields[f"sg_{position}"] = SGField(
+                    label=f"Cell {position}", required=False,
+                    widget=forms.TextInput(attrs=_widget_attrs(inputmode="numeric", pattern="[0-9.]*", maxlength="6",
+                                                                **{"data-position": position, "data-autoadvance": "sg"})),
+                )
+                self.fields[f"low_{position}"] = forms.BooleanField(label="low", required=False)
+
+    def cell_rows(self):
+        """Bound fields per position, for the tray grid template."""
+        for position in range(1, self.profile.positions + 1):
+            if self.profile.reads_by_block:
+                yield position, self[f"volts_{position}"], None
+            else:
+                yield position, self[f"sg_{position}"], self[f"low_{position}"]
+
+    def header_fields(self):
+        return [self[name] for name in ("situation", "taken_at", "temp", "hydrometer_compensated", "hours_since_charge") if name in self.fields]
+
+    def clean_temp(self):
+        temp_c = to_celsius(self.cleaned_data.get("temp"), self.site)
+        message = check_temp_c(temp_c, self.site)
+        if message:
+            raise forms.ValidationError(message)
+        return temp_c
+
+    def clean(self):
+        data = super().clean()
+        scope = data.get("scope") or Inspection.Scope.ALL_CELLS
+        if self.profile.reads_by_block:
+            self._clean_blocks(data, scope)
+        else:
+            self._clean_cells(data, scope)
+        return data
+
+    def _clean_cells(self, data, scope):
+        filled = [p for p in range(1, self.profile.positions + 1) if data.get(f"sg_{p}") is not None]
+        if scope == Inspection.Scope.ALL_CELLS:
+            for p in range(1, self.profile.positions + 1):
+                if f"sg_{p}" in data and data[f"sg_{p}"] is None and f"sg_{p}" not in self.errors:
+                    self.add_error(f"sg_{p}", f"Cell {p} is empty: an all-cell reading needs all {self.profile.positions} cells.")
+        elif len(filled) != 1:
+            self.add_error(None, "A pilot-cell reading has exactly one cell filled in.")
+        if filled and data.get("temp") is None and not data.get("hydrometer_compensated"):
+            self.add_error("temp", "Enter the electrolyte temperature, or tick that your hydrometer corrects for it.")
+
+    def _clean_blocks(self, data, scope):
+        low, high = chemistry.plausible_volts_range(self.profile.cells_per_block, self.profile.technology)
+        for p in range(1, self.profile.positions + 1):
+            name = f"volts_{p}"
+            value = data.get(name)
+            if value is None:
+                if name not in self.errors and scope == Inspection.Scope.ALL_CELLS:
+                    self.add_error(name, f"Block {p} is empty: read every block.")
+            elif not Decimal(str(low)) <= value <= Decimal(str(high)):
+                self.add_error(
+                    name,
+                    f"{value} V is not plausible for a {self.profile.cells_per_block}-cell block "
+                    f"(expected {low:.2f}–{high:.2f} V). Check the meter and its leads.",
+                )
+
+    def cell_entries(self):
+        data = self.cleaned_data
+        entries = []
+        for p in range(1, self.profile.positions + 1):
+            if self.profile.reads_by_block:
+                if data.get(f"volts_{p}") is not None:
+                    entries.append(CellEntry(position=p, volts=data[f"volts_{p}"]))
+            elif data.get(f"sg_{p}") is not None:
+                level = CellReading.Level.LOW if data.get(f"low_{p}") else CellReading.Level.OK
+                entries.append(CellEntry(position=p, sg=data[f"sg_{p}"], level=level))
+        return entries
+
+    def record_kwargs(self):
+        data = self.cleaned_data
+        return {
+            "taken_at": data["taken_at"],
+            "situation": data["situation"],
+            "scope": data.get("scope") or Inspection.Scope.ALL_CELLS,
+            "temp_c": data.get("temp"),
+            "hydrometer_compensated": bool(data.get("hydrometer_compensated")),
+            "hours_since_charge": data.get("hours_since_charge"),
+            "notes": data.get("notes", ""),
+            "client_uuid": data["client_uuid"],
+            "cells": self.cell_entries(),
+        }
+
+
+class TopUpForm(forms.Form):
+    done_at = forms.DateTimeField(label="Done at", widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M"))
+    volume = forms.DecimalField(min_value=Decimal("0.001"), max_digits=8, decimal_places=3,
+                                widget=forms.TextInput(attrs=_widget_attrs(inputmode="decimal", autofocus=True)))
+    per_cell = forms.BooleanField(label="That amount went into each cell (not the whole battery)", required=False)
+    before_charge = forms.BooleanField(label="Added before charging (plates were exposed)", required=False)
+    water_type = forms.ChoiceField(choices=WaterTopUp.WaterType.choices, initial=WaterTopUp.WaterType.DISTILLED)
+    notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
+    client_uuid = forms.UUIDField(widget=forms.HiddenInput)
+
+    MAX_ML_PER_CELL = Decimal("2000")
+
+    def __init__(self, *args, battery, **kwargs):
+        self.battery = battery
+        self.site = battery.site
+        initial = kwargs.setdefault("initial", {})
+        initial.setdefault("client_uuid", uuid.uuid4())
+        initial.setdefault("done_at", timezone.localtime().replace(second=0, microsecond=0))
+        super().__init__(*args, **kwargs)
+        unit = "US fl oz" if self.site.volume_unit == Site.VolumeUnit.US_FL_OZ else "litres"
+        self.fields["volume"].label = f"Water added ({unit})"
+
+    def clean(self):
+        data = super().clean()
+        if not self.battery.profile.watering_allowed:
+            raise forms.ValidationError("This battery is sealed: it must not be watered.")
+        volume = data.get("volume")
+        if volume is None:
+            return data
+        if self.site.volume_unit == Site.VolumeUnit.US_FL_OZ:
+            ml = Decimal(str(chemistry.us_fl_oz_to_litres(float(volume)) * 1000))
+            unit = "US fl oz"
+        else:
+            ml = volume * 1000
+            unit = "L"
+        cells = self.battery.profile.cell_count
+        whole_ml = ml * cells if data.get("per_cell") else ml
+        if whole_ml / cells > self.MAX_ML_PER_CELL:
+            self.add_error("volume", f"That is over {self.MAX_ML_PER_CELL / 1000:.0f} L a cell: check the amount and its unit.")
+        data["volume_ml"] = whole_ml.quantize(Decimal("0.1"))
+        data["volume_entered"] = f"{volume} {unit}{' per cell' if data.get('per_cell') else ''}"
+        return data

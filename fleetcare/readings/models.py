@@ -1,0 +1,143 @@
+"""What the crew records: inspections with their cell readings, and water top-ups.
+
+An inspection is never edited in place: a correction stores a new revision that supersedes the
+old one, and a deletion only marks the row. Findings, charts and budgets read current revisions.
+"""
+import uuid
+
+from django.conf import settings
+from django.db import models
+
+from fleetcare.fleet.models import Battery
+
+
+class InspectionQuerySet(models.QuerySet):
+    def current(self):
+        return self.filter(is_current=True, deleted_at__isnull=True)
+
+    def visible_to(self, user):
+        return self.filter(battery__in=Battery.objects.visible_to(user))
+
+    def post_charge(self):
+        return self.filter(situation__in=Inspection.POST_CHARGE)
+
+
+class Inspection(models.Model):
+    class Situation(models.TextChoices):
+        JUST_CHARGED = "charged", "Just charged"
+        JUST_EQUALIZED = "equalized", "Just equalized"
+        RESTED = "rested", "Rested (off charge and load)"
+        IN_USE = "in_use", "In use"
+        BEFORE_CHARGE = "before_charge", "Before charge"
+
+    class Scope(models.TextChoices):
+        ALL_CELLS = "all", "All cells"
+        PILOT = "pilot", "Pilot cell"
+
+    POST_CHARGE = (Situation.JUST_CHARGED, Situation.JUST_EQUALIZED)
+
+    battery = models.ForeignKey(Battery, on_delete=models.PROTECT, related_name="inspections")
+    taken_at = models.DateTimeField(db_index=True)
+    taken_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="inspections")
+    situation = models.CharField(max_length=16, choices=Situation.choices)
+    scope = models.CharField(max_length=8, choices=Scope.choices, default=Scope.ALL_CELLS)
+    temp_c = models.DecimalField("electrolyte temperature (°C)", max_digits=4, decimal_places=1, null=True, blank=True)
+    hydrometer_compensated = models.BooleanField(
+        default=False, help_text="The hydrometer corrects for temperature itself: no correction is applied."
+    )
+    hours_since_charge = models.DecimalField(max_digits=6, decimal_places=1, null=True, blank=True)
+    notes = models.TextField(blank=True)
+    client_uuid = models.UUIDField(default=uuid.uuid4, unique=True, help_text="Set by the tablet; a resend stores nothing new.")
+
+    # Summary computed by fleetcare.chemistry when the inspection is saved.
+    sg_mean = models.DecimalField(max_digits=5, decimal_places=3, null=True, blank=True)
+    sg_min = models.DecimalField(max_digits=5, decimal_places=3, null=True, blank=True)
+    sg_max = models.DecimalField(max_digits=5, decimal_places=3, null=True, blank=True)
+    sg_spread = models.DecimalField(max_digits=5, decimal_places=3, null=True, blank=True)
+    lowest_position = models.PositiveSmallIntegerField(null=True, blank=True)
+    volts_total = models.DecimalField(max_digits=6, decimal_places=2, null=True, blank=True)
+    soc_percent = models.DecimalField("state of charge (%)", max_digits=5, decimal_places=1, null=True, blank=True)
+    soc_basis = models.CharField(max_length=8, blank=True, help_text="sg or ocv: which reading the state of charge came from.")
+
+    # Revisions and soft delete.
+    is_current = models.BooleanField(default=True)
+    supersedes = models.OneToOneField("self", on_delete=models.PROTECT, null=True, blank=True, related_name="superseded_by")
+    revision_reason = models.CharField(max_length=200, blank=True)
+    recorded_at = models.DateTimeField(auto_now_add=True)
+    deleted_at = models.DateTimeField(null=True, blank=True)
+    deleted_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
+
+    objects = InspectionQuerySet.as_manager()
+
+    class Meta:
+        ordering = ["-taken_at"]
+        indexes = [models.Index(fields=["battery", "-taken_at"], name="inspection_battery_time")]
+
+    def __str__(self):
+        return f"{self.battery} {self.taken_at:%Y-%m-%d %H:%M} {self.get_situation_display()}"
+
+    @property
+    def is_post_charge(self):
+        return self.situation in self.POST_CHARGE
+
+
+class CellReading(models.Model):
+    """One box of the tray grid: a cell (flooded) or a monoblock (sealed, voltage only)."""
+
+    class Level(models.TextChoices):
+        OK = "ok", "OK"
+        LOW = "low", "Low"
+
+    inspection = models.ForeignKey(Inspection, on_delete=models.CASCADE, related_name="cells")
+    position = models.PositiveSmallIntegerField(help_text="Cell number, or block number for sealed blocks.")
+    sg = models.DecimalField("observed SG", max_digits=5, decimal_places=3, null=True, blank=True)
+    sg_corrected = models.DecimalField("corrected SG", max_digits=5, decimal_places=3, null=True, blank=True)
+    temp_c = models.DecimalField(max_digits=4, decimal_places=1, null=True, blank=True)
+    volts = models.DecimalField(max_digits=6, decimal_places=3, null=True, blank=True)
+    level = models.CharField(max_length=3, choices=Level.choices, blank=True)
+
+    class Meta:
+        ordering = ["inspection", "position"]
+        constraints = [models.UniqueConstraint(fields=["inspection", "position"], name="one_reading_per_position")]
+
+    def __str__(self):
+        return f"{self.inspection_id}#{self.position}"
+
+
+class WaterTopUpQuerySet(models.QuerySet):
+    def current(self):
+        return self.filter(deleted_at__isnull=True)
+
+    def visible_to(self, user):
+        return self.filter(battery__in=Battery.objects.visible_to(user))
+
+
+class WaterTopUp(models.Model):
+    class WaterType(models.TextChoices):
+        DISTILLED = "distilled", "Distilled"
+        DEIONISED = "deionised", "Deionised"
+        OTHER = "other", "Other (say which in the notes)"
+
+    battery = models.ForeignKey(Battery, on_delete=models.PROTECT, related_name="top_ups")
+    done_at = models.DateTimeField(db_index=True)
+    done_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="top_ups")
+    volume_ml = models.DecimalField("water added for the whole battery (mL)", max_digits=8, decimal_places=1)
+    volume_entered = models.CharField(max_length=40, blank=True, help_text="What the crew typed, with its unit, kept as entered.")
+    before_charge = models.BooleanField(default=False, help_text="Water added before charging rather than after.")
+    water_type = models.CharField(max_length=10, choices=WaterType.choices, default=WaterType.DISTILLED)
+    notes = models.TextField(blank=True)
+    client_uuid = models.UUIDField(default=uuid.uuid4, unique=True)
+    recorded_at = models.DateTimeField(auto_now_add=True)
+    deleted_at = models.DateTimeField(null=True, blank=True)
+
+    objects = WaterTopUpQuerySet.as_manager()
+
+    class Meta:
+        ordering = ["-done_at"]
+
+    def __str__(self):
+        return f"{self.battery} {self.done_at:%Y-%m-%d} {self.volume_ml} mL"
+
+    @property
+    def volume_ml_per_cell(self):
+        return self.volume_ml / self.battery.profile.cell_count

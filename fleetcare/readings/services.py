@@ -1,0 +1,160 @@
+"""Writes that store a whole inspection or top-up at once, computing its figures with fleetcare.chemistry."""
+from dataclasses import dataclass
+from decimal import ROUND_HALF_UP, Decimal
+
+from django.db import IntegrityError, transaction
+
+from fleetcare import chemistry
+from fleetcare.readings import signals
+from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
+
+SG_PLACES = Decimal("0.001")
+SOC_PLACES = Decimal("0.1")
+
+
+@dataclass(frozen=True)
+class CellEntry:
+    position: int
+    sg: Decimal | None = None
+    volts: Decimal | None = None
+    level: str = ""
+    temp_c: Decimal | None = None
+
+
+def _q(value, places):
+    return None if value is None else Decimal(str(value)).quantize(places, rounding=ROUND_HALF_UP)
+
+
+def corrected_cell_sg(profile, sg, temp_c, compensated):
+    """The SG a cell would read at the profile's reference temperature."""
+    if sg is None:
+        return None
+    if compensated or temp_c is None:
+        return float(sg)
+    return chemistry.corrected_sg(
+        float(sg), float(temp_c),
+        reference_temp_c=float(profile.sg_reference_temp_c),
+        coefficient_per_c=float(profile.sg_coefficient_per_c),
+    )
+
+
+def is_rested(inspection, profile):
+    """Open-circuit voltage means something only after the battery rested off charge and load."""
+    if inspection.situation == Inspection.Situation.IN_USE:
+        return False
+    if inspection.hours_since_charge is not None:
+        return inspection.hours_since_charge >= profile.ocv_rest_hours
+    return inspection.situation == Inspection.Situation.RESTED
+
+
+def summarise(inspection, cells):
+    """Fill the inspection's summary fields from its cells (not saved here)."""
+    profile = inspection.battery.profile
+    corrected = [c.sg_corrected for c in cells if c.sg_corrected is not None]
+    inspection.sg_mean = inspection.sg_min = inspection.sg_max = inspection.sg_spread = None
+    inspection.lowest_position = inspection.volts_total = inspection.soc_percent = None
+    inspection.soc_basis = ""
+    if corrected:
+        stats = chemistry.sg_stats([float(v) for v in corrected])
+        positions = [c.position for c in cells if c.sg_corrected is not None]
+        inspection.sg_mean = _q(stats.mean, SG_PLACES)
+        inspection.sg_min = _q(stats.lowest, SG_PLACES)
+        inspection.sg_max = _q(stats.highest, SG_PLACES)
+        inspection.sg_spread = _q(stats.spread, SG_PLACES)
+        inspection.lowest_position = positions[stats.lowest_index]
+        if profile.full_charge_sg is not None and profile.discharged_sg is not None:
+            inspection.soc_percent = _q(
+                chemistry.soc_from_sg(stats.mean, float(profile.full_charge_sg), float(profile.discharged_sg)), SOC_PLACES
+            )
+            inspection.soc_basis = "sg"
+    volts = [c.volts for c in cells if c.volts is not None]
+    if volts and len(volts) == (profile.positions if inspection.scope == Inspection.Scope.ALL_CELLS else 1):
+        inspection.volts_total = _q(sum(volts), Decimal("0.01"))
+        if inspection.soc_percent is None and is_rested(inspection, profile):
+            cells_read = profile.cells_per_block * len(volts) if profile.reads_by_block else len(volts)
+            inspection.soc_percent = _q(
+                chemistry.soc_from_ocv(float(inspection.volts_total), cells_read, profile.technology), SOC_PLACES
+            )
+            inspection.soc_basis = "ocv"
+    return inspection
+
+
+def build_cells(inspection, entries):
+    profile = inspection.battery.profile
+    cells = []
+    for entry in entries:
+        temp = entry.temp_c if entry.temp_c is not None else inspection.temp_c
+        cells.append(
+            CellReading(
+                inspection=inspection,
+                position=entry.position,
+                sg=entry.sg,
+                sg_corrected=_q(corrected_cell_sg(profile, entry.sg, temp, inspection.hydrometer_compensated), SG_PLACES),
+                temp_c=entry.temp_c,
+                volts=entry.volts,
+                level=entry.level,
+            )
+        )
+    return cells
+
+
+def record_inspection(*, battery, user, taken_at, situation, cells, scope=Inspection.Scope.ALL_CELLS,
+                      temp_c=None, hydrometer_compensated=False, hours_since_charge=None, notes="",
+                      client_uuid=None, supersedes=None, revision_reason=""):
+    """Store one inspection and all its cell readings, or nothing. Returns (inspection, created).
+
+    A client UUID seen before returns the stored inspection untouched, so a tablet may resend freely.
+    """
+    if client_uuid is not None:
+        existing = Inspection.objects.filter(client_uuid=client_uuid).first()
+        if existing is not None:
+            return existing, False
+    inspection = Inspection(
+        battery=battery, taken_by=user, taken_at=taken_at, situation=situation, scope=scope,
+        temp_c=temp_c, hydrometer_compensated=hydrometer_compensated, hours_since_charge=hours_since_charge,
+        notes=notes, supersedes=supersedes, revision_reason=revision_reason,
+    )
+    if client_uuid is not None:
+        inspection.client_uuid = client_uuid
+    rows = build_cells(inspection, cells)
+    summarise(inspection, rows)
+    try:
+        with transaction.atomic():
+            if supersedes is not None:
+                Inspection.objects.filter(pk=supersedes.pk).update(is_current=False)
+            inspection.save()
+            for row in rows:
+                row.inspection = inspection
+            CellReading.objects.bulk_create(rows)
+            transaction.on_commit(lambda: signals.inspection_recorded.send(Inspection, inspection=inspection))
+    except IntegrityError:
+        existing = Inspection.objects.filter(client_uuid=inspection.client_uuid).first()
+        if existing is None:
+            raise
+        return existing, False
+    return inspection, True
+
+
+def record_top_up(*, battery, user, done_at, volume_ml, volume_entered="", before_charge=False,
+                  water_type=WaterTopUp.WaterType.DISTILLED, notes="", client_uuid=None):
+    """Store one water top-up. Returns (top_up, created); a repeated client UUID stores nothing new."""
+    if client_uuid is not None:
+        existing = WaterTopUp.objects.filter(client_uuid=client_uuid).first()
+        if existing is not None:
+            return existing, False
+    top_up = WaterTopUp(
+        battery=battery, done_by=user, done_at=done_at, volume_ml=volume_ml, volume_entered=volume_entered,
+        before_charge=before_charge, water_type=water_type, notes=notes,
+    )
+    if client_uuid is not None:
+        top_up.client_uuid = client_uuid
+    try:
+        with transaction.atomic():
+            top_up.save()
+            transaction.on_commit(lambda: signals.top_up_recorded.send(WaterTopUp, top_up=top_up))
+    except IntegrityError:
+        existing = WaterTopUp.objects.filter(client_uuid=top_up.client_uuid).first()
+        if existing is None:
+            raise
+        return existing, False
+    return top_up, True

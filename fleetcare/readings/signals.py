@@ -1,0 +1,5 @@
+"""Sent once a record is committed; findings detection listens."""
+from django.dispatch import Signal
+
+inspection_recorded = Signal()  # kwargs: inspection
+top_up_recorded = Signal()  # kwargs: top_up

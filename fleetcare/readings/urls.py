@@ -1,0 +1,13 @@
+from django.urls import path
+
+from fleetcare.readings import views
+
+app_name = "readings"
+urlpatterns = [
+    path("find/", views.find_battery, name="find"),
+    path("battery/<int:pk>/inspect/", views.inspect, name="inspect"),
+    path("battery/<int:pk>/water/", views.top_up, name="top_up"),
+    path("battery/<int:pk>/readings.csv", views.export_csv, name="export_csv"),
+    path("inspection/<int:pk>/", views.inspection_detail, name="inspection"),
+    path("import/", views.import_csv, name="import"),
+]

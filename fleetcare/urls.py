@@ -1,0 +1,12 @@
+from django.contrib import admin
+from django.urls import include, path
+
+urlpatterns = [
+    path("", include("fleetcare.dashboard.urls")),
+    path("accounts/", include("django.contrib.auth.urls")),
+    path("batteries/", include("fleetcare.fleet.urls")),
+    path("readings/", include("fleetcare.readings.urls")),
+    path("care/", include("fleetcare.care.urls")),
+    path("budget/", include("fleetcare.budget.urls")),
+    path("admin/", admin.site.urls),
+]

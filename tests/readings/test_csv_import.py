@@ -1,0 +1,113 @@
+import io
+from decimal import Decimal
+
+import pytest
+from django.core.management import CommandError, call_command
+from django.urls import reverse
+
+from fleetcare.fleet.models import Battery
+from fleetcare.readings.csv_io import import_readings
+from fleetcare.readings.models import CellReading, Inspection
+
+HEADER = "serial,taken_at,situation,cell,sg,temp,volts,level\n"
+
+
+def inspection_rows(serial="TW-001", taken="2026-11-02T06:00", situation="charged", cells=24, sg="1.280", temp="25"):
+    return "".join(f"{serial},{taken},{situation},{n},{sg},{temp},,ok\n" for n in range(1, cells + 1))
+
+
+def run(text, user, **kwargs):
+    return import_readings(text, user=user, batteries=Battery.objects.all(), **kwargs)
+
+
+def test_a_good_file_imports_every_inspection(battery, crew):
+    text = HEADER + inspection_rows() + inspection_rows(taken="2026-11-09T06:00", sg="265")
+    report = run(text, crew)
+    assert report.ok and report.imported
+    assert Inspection.objects.count() == 2
+    assert CellReading.objects.count() == 48
+    first = Inspection.objects.order_by("taken_at").first()
+    assert first.sg_mean == Decimal("1.280")
+    # SOC = (1.280 - 1.140) / (1.290 - 1.140) = 93.3 %
+    assert first.soc_percent == Decimal("93.3")
+    # a time without an offset is the site's local time (Europe/London, GMT in November)
+    assert first.taken_at.isoformat() == "2026-11-02T06:00:00+00:00"
+
+
+def test_one_bad_row_imports_nothing_and_names_the_line(battery, crew):
+    rows = inspection_rows().splitlines(keepends=True)
+    rows[6] = rows[6].replace("1.280", "1.480")
+    report = run(HEADER + "".join(rows), crew)
+    assert not report.imported
+    assert report.errors == [(8, "sg 1.480 is outside 1.000–1.350.")]
+    assert Inspection.objects.count() == 0
+
+
+def test_good_rows_only_imports_the_good_inspections(battery, crew):
+    bad = inspection_rows(taken="2026-11-09T06:00").replace("9,1.280", "9,abc")
+    report = run(HEADER + inspection_rows() + bad, crew, good_rows_only=True)
+    assert report.imported
+    assert Inspection.objects.count() == 1
+    assert any("sg" in message for _, message in report.errors)
+
+
+@pytest.mark.parametrize("change,message", [
+    (("TW-001,", "XX-999,"), "no battery with serial"),
+    (("charged", "sideways"), "situation"),
+    ((",25,", ",95,"), "temp 95"),
+    (("2026-11-02T06:00", "yesterday"), "taken_at"),
+])
+def test_each_kind_of_bad_value_is_reported(battery, crew, change, message):
+    report = run(HEADER + inspection_rows().replace(*change, 1), crew)
+    assert not report.imported
+    assert message in report.errors[0][1]
+    assert report.errors[0][0] == 2
+
+
+def test_the_wrong_number_of_cells_for_the_profile_is_reported(battery, crew):
+    report = run(HEADER + inspection_rows(cells=20), crew)
+    assert report.errors == [(2, "TW-001 at 2026-11-02 06:00: 20 cells read; the profile has 24 (give all of them, or one for a pilot-cell reading).")]
+
+
+def test_importing_the_same_file_twice_stores_it_once(battery, crew):
+    text = HEADER + inspection_rows()
+    run(text, crew)
+    second = run(text, crew)
+    assert Inspection.objects.count() == 1
+    assert second.inspections_already_stored == 1
+
+
+def test_a_dry_run_stores_nothing(battery, crew):
+    report = run(HEADER + inspection_rows(), crew, dry_run=True)
+    assert report.ok and report.inspections_created == 1
+    assert Inspection.objects.count() == 0
+
+
+def test_another_sites_battery_is_unknown_to_the_upload_page(crew_client, other_battery):
+    upload = io.BytesIO((HEADER + inspection_rows(serial="OT-001")).encode())
+    upload.name = "readings.csv"
+    response = crew_client.post(reverse("readings:import"), {"file": upload})
+    assert "no battery with serial “OT-001” at your sites" in response.content.decode()
+    assert Inspection.objects.count() == 0
+
+
+def test_the_command_imports_and_refuses_bad_files(battery, crew, tmp_path):
+    good = tmp_path / "good.csv"
+    good.write_text(HEADER + inspection_rows())
+    call_command("import_readings", str(good), "--user", crew.username)
+    assert Inspection.objects.count() == 1
+    bad = tmp_path / "bad.csv"
+    bad.write_text(HEADER + inspection_rows(taken="2026-11-09T06:00", cells=3))
+    with pytest.raises(CommandError, match="Nothing imported"):
+        call_command("import_readings", str(bad), "--user", crew.username)
+    assert Inspection.objects.count() == 1
+
+
+def test_the_export_reimports_to_the_same_readings(crew_client, battery, crew):
+    run(HEADER + inspection_rows(temp="31"), crew)
+    exported = crew_client.get(reverse("readings:export_csv", args=[battery.pk])).content.decode()
+    assert exported.splitlines()[0] == "serial,taken_at,situation,cell,sg,temp,volts,level,sg_corrected,inspection_soc_percent"
+    Inspection.objects.all().delete()
+    report = run(exported, crew)
+    assert report.ok
+    assert set(CellReading.objects.values_list("sg_corrected", flat=True)) == {Decimal("1.284")}
