@@ -1,11 +1,11 @@
-from django.contrib.auth.decorators import login_required
 from django.shortcuts import render
 
-from fleetcare.accounts.access import visible_batteries, visible_sites
+from fleetcare.accounts.access import role_required, visible_batteries, visible_sites
+from fleetcare.accounts.roles import CREW
 from fleetcare.fleet import selectors
 
 
-@login_required
+@role_required(CREW)
 def home(request):
     batteries = list(selectors.with_latest_reading(visible_batteries(request.user).active().select_related("profile", "site")))
     return render(request, "dashboard/home.html", {

@@ -4,7 +4,7 @@ from collections import defaultdict
 from django.db.models import OuterRef, Subquery
 
 from fleetcare import charts
-from fleetcare.fleet.models import Battery, Fitting
+from fleetcare.fleet.models import Fitting
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 
 HEATMAP_INSPECTIONS = 40

@@ -1,14 +1,14 @@
-from django.contrib.auth.decorators import login_required
 from django.core.paginator import Paginator
 from django.db.models import Q
 from django.shortcuts import render
 
-from fleetcare.accounts.access import battery_or_404, visible_batteries, visible_sites
+from fleetcare.accounts.access import battery_or_404, role_required, visible_batteries, visible_sites
+from fleetcare.accounts.roles import CREW
 from fleetcare.fleet import selectors
 from fleetcare.fleet.models import Battery
 
 
-@login_required
+@role_required(CREW)
 def battery_list(request):
     batteries = visible_batteries(request.user).select_related("profile", "site")
     query = request.GET.get("q", "").strip()
@@ -31,7 +31,7 @@ def battery_list(request):
     })
 
 
-@login_required
+@role_required(CREW)
 def battery_detail(request, pk):
     battery = battery_or_404(request.user, pk)
     return render(request, "fleet/battery_detail.html", selectors.battery_record(battery))

@@ -1,6 +1,6 @@
 """Entry forms for the battery room: every bad value gets its message beside the box it came from."""
 import uuid
-from decimal import Decimal, InvalidOperation
+from decimal import Decimal
 
 from django import forms
 from django.utils import timezone

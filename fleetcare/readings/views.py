@@ -1,18 +1,18 @@
 from django.contrib import messages
-from django.contrib.auth.decorators import login_required
 from django.db.models import Q
 from django.http import HttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.views.decorators.http import require_http_methods
 
-from fleetcare.accounts.access import battery_or_404, visible_batteries
+from fleetcare.accounts.access import battery_or_404, role_required, visible_batteries
+from fleetcare.accounts.roles import CREW
 from fleetcare.readings import csv_io, selectors
 from fleetcare.readings.forms import InspectionForm, TopUpForm
 from fleetcare.readings.models import Inspection
 from fleetcare.readings.services import record_inspection, record_top_up
 
 
-@login_required
+@role_required(CREW)
 def find_battery(request):
     """Find a battery by serial or by the asset number of the truck or chair it is fitted to."""
     query = request.GET.get("q", "").strip()
@@ -31,7 +31,7 @@ def find_battery(request):
     return render(request, "readings/find.html", {"query": query, "matches": matches, "then": action})
 
 
-@login_required
+@role_required(CREW)
 @require_http_methods(["GET", "POST"])
 def inspect(request, pk):
     battery = battery_or_404(request.user, pk)
@@ -58,7 +58,7 @@ def tray_columns(positions):
     return 8 if positions % 8 == 0 and positions % 6 else 6
 
 
-@login_required
+@role_required(CREW)
 def inspection_detail(request, pk):
     inspection = get_object_or_404(
         Inspection.objects.visible_to(request.user).select_related("battery__profile", "battery__site", "taken_by"), pk=pk
@@ -66,7 +66,7 @@ def inspection_detail(request, pk):
     return render(request, "readings/inspection.html", selectors.inspection_page(inspection))
 
 
-@login_required
+@role_required(CREW)
 @require_http_methods(["GET", "POST"])
 def top_up(request, pk):
     battery = battery_or_404(request.user, pk)
@@ -87,7 +87,7 @@ def top_up(request, pk):
     return render(request, "readings/top_up.html", {"battery": battery, "form": form})
 
 
-@login_required
+@role_required(CREW)
 def export_csv(request, pk):
     battery = battery_or_404(request.user, pk)
     response = HttpResponse(content_type="text/csv; charset=utf-8")
@@ -96,7 +96,7 @@ def export_csv(request, pk):
     return response
 
 
-@login_required
+@role_required(CREW)
 @require_http_methods(["GET", "POST"])
 def import_csv(request):
     report = None
