@@ -30,4 +30,5 @@ __all__ = [
     "soc_from_ocv",
     "soc_from_sg",
     "us_fl_oz_to_litres",
+    "ventilation_airflow_m3h",
 ]
