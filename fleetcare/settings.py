@@ -43,6 +43,8 @@ INSTALLED_APPS = [
     "fleetcare.care",
     "fleetcare.budget",
     "fleetcare.dashboard",
+    "fleetcare.planner",
+    "fleetcare.api",
 ]
 
 MIDDLEWARE = [

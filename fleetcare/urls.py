@@ -8,5 +8,7 @@ urlpatterns = [
     path("readings/", include("fleetcare.readings.urls")),
     path("care/", include("fleetcare.care.urls")),
     path("budget/", include("fleetcare.budget.urls")),
+    path("planner/", include("fleetcare.planner.urls")),
+    path("api/", include("fleetcare.api.urls")),
     path("admin/", admin.site.urls),
 ]
