@@ -1,0 +1,136 @@
+"""Findings (what a supervisor acts on) and the policy thresholds they are judged by.
+
+A finding opens when detection sees a fault, stays open (or acknowledged) while later readings still
+show it, and clears itself when they no longer do; cleared rows are kept as history. At most one
+active finding per battery and kind exists (a partial unique constraint guards it).
+"""
+from django.conf import settings
+from django.db import models
+from django.db.models import Q
+
+from fleetcare.care.policy import THRESHOLDS
+from fleetcare.fleet.models import Battery, BatteryProfile, Site
+
+
+class FindingQuerySet(models.QuerySet):
+    def active(self):
+        """Open or acknowledged: still shown by the latest readings."""
+        return self.filter(state__in=Finding.ACTIVE)
+
+    def for_batteries(self, batteries):
+        return self.filter(battery__in=batteries)
+
+    def visible_to(self, user):
+        return self.filter(battery__in=Battery.objects.visible_to(user))
+
+
+class Finding(models.Model):
+    class Kind(models.TextChoices):
+        WEAK_CELL = "weak_cell", "Weak cell"
+        HIGH_SPREAD = "high_spread", "High spread: equalizing charge needed"
+        SULFATION = "sulfation", "Suspected sulfation"
+        DEEP_DISCHARGE = "deep_discharge", "Deep discharge"
+        LOW_LEVEL = "low_level", "Low electrolyte level"
+        WATERING_OVERDUE = "watering_overdue", "Watering overdue"
+        HIGH_WATER_USE = "high_water_use", "High water use (overcharge)"
+        WATER_BEFORE_CHARGE = "water_before_charge", "Water added before charge"
+        WEAK_BLOCK = "weak_block", "Weak block in a pair"
+        AGEING = "ageing", "Past design life"
+
+    class State(models.TextChoices):
+        OPEN = "open", "Open"
+        ACKNOWLEDGED = "acknowledged", "Acknowledged"
+        CLEARED = "cleared", "Cleared"
+
+    class Severity(models.IntegerChoices):
+        INFO = 1, "Note"
+        WARNING = 2, "Warning"
+        URGENT = 3, "Urgent"
+
+    ACTIVE = (State.OPEN, State.ACKNOWLEDGED)
+
+    battery = models.ForeignKey(Battery, on_delete=models.CASCADE, related_name="findings")
+    kind = models.CharField(max_length=24, choices=Kind.choices)
+    state = models.CharField(max_length=12, choices=State.choices, default=State.OPEN)
+    severity = models.PositiveSmallIntegerField(choices=Severity.choices, default=Severity.WARNING)
+    positions = models.JSONField(default=list, blank=True, help_text="Cell or block numbers concerned.")
+    persistent = models.BooleanField(
+        default=False, help_text="Seen on two or more consecutive post-charge inspections."
+    )
+    opened_at = models.DateTimeField()
+    last_seen_at = models.DateTimeField()
+    cleared_at = models.DateTimeField(null=True, blank=True)
+    inspection = models.ForeignKey(
+        "readings.Inspection", on_delete=models.SET_NULL, null=True, blank=True, related_name="findings",
+        help_text="The latest inspection that showed it, if an inspection did.",
+    )
+    evidence = models.JSONField(default=dict, blank=True, help_text="Readings used, threshold and its source.")
+    summary = models.TextField(blank=True)
+    acknowledged_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
+    )
+    acknowledged_at = models.DateTimeField(null=True, blank=True)
+    acknowledged_comment = models.TextField(blank=True)
+
+    objects = FindingQuerySet.as_manager()
+
+    class Meta:
+        ordering = ["-severity", "-opened_at"]
+        constraints = [
+            models.UniqueConstraint(
+                fields=["battery", "kind"], condition=Q(state__in=["open", "acknowledged"]),
+                name="one_active_finding_per_battery_kind",
+            ),
+        ]
+        indexes = [models.Index(fields=["state", "kind"], name="finding_state_kind")]
+
+    def __str__(self):
+        where = f" {self.position_label}" if self.positions else ""
+        return f"{self.battery} {self.get_kind_display()}{where} ({self.get_state_display()})"
+
+    @property
+    def is_active(self):
+        return self.state in self.ACTIVE
+
+    @property
+    def position_label(self):
+        if not self.positions:
+            return ""
+        word = "block" if self.kind == self.Kind.WEAK_BLOCK else "cell"
+        plural = "s" if len(self.positions) > 1 else ""
+        return f"{word}{plural} " + ", ".join(str(p) for p in self.positions)
+
+
+def _threshold_field(threshold):
+    help_text = f"Default {threshold.default} {threshold.unit}. Source: {threshold.source}. Blank uses the level above."
+    if threshold.integer:
+        return models.PositiveIntegerField(threshold.label, null=True, blank=True, help_text=help_text)
+    return models.DecimalField(threshold.label, max_digits=8, decimal_places=3, null=True, blank=True, help_text=help_text)
+
+
+class Policy(models.Model):
+    """Threshold overrides. Order of precedence: built-in default, then the battery profile's row,
+    then the site's row (no profile), then a row for that site and profile. Blank means 'inherit'."""
+
+    profile = models.ForeignKey(BatteryProfile, on_delete=models.CASCADE, null=True, blank=True, related_name="care_policies")
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, null=True, blank=True, related_name="care_policies")
+    note = models.CharField(max_length=200, blank=True, help_text="Why these values (maker's letter, site rule, ...).")
+
+    class Meta:
+        verbose_name = "findings policy"
+        verbose_name_plural = "findings policies"
+        constraints = [
+            models.CheckConstraint(condition=Q(profile__isnull=False) | Q(site__isnull=False), name="policy_has_scope"),
+            models.UniqueConstraint(fields=["profile"], condition=Q(site__isnull=True), name="one_policy_per_profile"),
+            models.UniqueConstraint(fields=["site"], condition=Q(profile__isnull=True), name="one_policy_per_site"),
+            models.UniqueConstraint(fields=["site", "profile"], name="one_policy_per_site_profile"),
+        ]
+
+    def __str__(self):
+        if self.site_id and self.profile_id:
+            return f"{self.site} · {self.profile}"
+        return str(self.site or self.profile)
+
+
+for _threshold in THRESHOLDS:
+    Policy.add_to_class(_threshold.name, _threshold_field(_threshold))

@@ -1,0 +1,120 @@
+"""The thresholds findings are judged by: built-in defaults with their sources, and how overrides apply.
+
+Every threshold is data. A `Policy` row for a battery profile overrides the default; a row for a
+site overrides the profile's; a row for that site and profile overrides both. Blank fields inherit.
+"""
+from dataclasses import dataclass
+from decimal import Decimal
+
+
+@dataclass(frozen=True)
+class Threshold:
+    name: str
+    label: str
+    default: Decimal
+    unit: str
+    source: str
+    integer: bool = False
+
+
+COMMON = "common practice (field notes)"
+
+THRESHOLDS = (
+    Threshold("weak_cell_below_mean_sg", "weak cell: below the other cells' mean after a charge", Decimal("0.030"),
+              "SG", COMMON),
+    Threshold("failing_cell_after_equalize_sg", "failing cell: below the other cells' mean after equalizing",
+              Decimal("0.050"), "SG", COMMON),
+    Threshold("unserviceable_cell_gap_sg", "unserviceable: any two cells apart on a fully charged battery",
+              Decimal("0.025"), "SG", "US Army TM 9-6140-200-14 (from memory of its text)"),
+    Threshold("equalize_spread_sg", "equalizing needed: post-charge spread over", Decimal("0.020"), "SG", COMMON),
+    Threshold("sulfation_below_full_sg", "sulfation: mean below the full-charge SG by more than", Decimal("0.030"),
+              "SG", "FleetCare default from the field notes' failing-cell band (common practice)"),
+    Threshold("sulfation_inspections", "sulfation: consecutive post-charge inspections short", Decimal("2"),
+              "inspections", "FleetCare default: two in a row, so one poor charge is not a finding", integer=True),
+    Threshold("partial_charge_soc_percent", "sulfation: standing below this state of charge", Decimal("50"), "%",
+              COMMON),
+    Threshold("partial_charge_days", "sulfation: days standing below that state of charge", Decimal("3"), "days",
+              "FleetCare default (issue 3); set from the maker's advice"),
+    Threshold("storage_charge_days", "storage: longest a spare may go without a charge", Decimal("30"), "days",
+              "US Army TM 5-1185 series: stored wet batteries need a charge every 30 days (from memory)"),
+    Threshold("deep_discharge_soc_percent", "deep discharge: state of charge under", Decimal("20"), "%",
+              "common practice: no more than 80 % depth of discharge (field notes)"),
+    Threshold("watering_interval_days", "watering: longest interval between top-ups", Decimal("14"), "days",
+              "FleetCare default, not a published figure; set the maker's watering interval"),
+    Threshold("water_use_window_days", "water use: window it is measured over", Decimal("30"), "days",
+              "FleetCare default: water use is judged per cell per month", integer=True),
+    Threshold("max_overcharge_percent", "water use: most overcharge per charge, % of rated capacity", Decimal("16"),
+              "% of rated Ah", "common practice: chargers return 110–120 % of the Ah taken out; 20 % extra on an "
+              "80 % discharge is 16 % of rating. Water per Ah by Faraday's law (scipy.constants)"),
+    Threshold("block_ocv_gap_v", "weak block: rested block voltages apart by more than", Decimal("0.10"), "V",
+              COMMON),
+)
+BY_NAME = {t.name: t for t in THRESHOLDS}
+
+
+@dataclass(frozen=True)
+class Value:
+    """A threshold as applied to one battery: the number and where it came from."""
+
+    name: str
+    value: Decimal
+    source: str
+    overridden_by: str = ""
+
+    def as_evidence(self):
+        threshold = BY_NAME[self.name]
+        return {
+            "name": self.name,
+            "label": threshold.label,
+            "value": str(self.value),
+            "unit": threshold.unit,
+            "source": self.overridden_by or self.source,
+            "default": str(threshold.default),
+            "default_source": threshold.source,
+        }
+
+
+class Resolved:
+    """All thresholds for one battery; attribute access gives the Decimal value."""
+
+    def __init__(self, values):
+        self.values = values
+
+    def __getattr__(self, name):
+        try:
+            return self.__dict__["values"][name].value
+        except KeyError:
+            raise AttributeError(name) from None
+
+    def evidence(self, name):
+        return self.values[name].as_evidence()
+
+
+def defaults():
+    return Resolved({t.name: Value(t.name, t.default, t.source) for t in THRESHOLDS})
+
+
+def resolve(battery, policies):
+    """Thresholds for `battery` from a list of Policy rows (the caller loads them once for the fleet)."""
+    values = {t.name: Value(t.name, t.default, t.source) for t in THRESHOLDS}
+    layers = [
+        p for p in policies
+        if (p.profile_id == battery.profile_id and p.site_id is None)
+        or (p.site_id == battery.site_id and p.profile_id is None)
+        or (p.site_id == battery.site_id and p.profile_id == battery.profile_id)
+    ]
+    layers.sort(key=lambda p: (p.site_id is not None, p.profile_id is not None and p.site_id is not None))
+    for policy in layers:
+        for t in THRESHOLDS:
+            value = getattr(policy, t.name)
+            if value is not None:
+                values[t.name] = Value(t.name, Decimal(value), t.source, overridden_by=f"policy for {_scope(policy)}")
+    return Resolved(values)
+
+
+def _scope(policy):
+    if policy.site_id and policy.profile_id:
+        return f"site {policy.site.code} and profile {policy.profile.name}"
+    if policy.site_id:
+        return f"site {policy.site.code}"
+    return f"profile {policy.profile.name}"
