@@ -1,0 +1,61 @@
+"""The crew's round on a tablet: sign in, find the battery, key in 24 cells with the keyboard alone, read the result."""
+import re
+from decimal import Decimal
+
+import pytest
+
+from fleetcare.readings.models import CellReading, Inspection
+from tests.browser.pages import screenshot, sign_in
+
+pytestmark = pytest.mark.browser
+
+# Observed SG in points, cells 1-24: a healthy tray with a weak cell 9 and a slightly low cell 17.
+POINTS = ["280"] * 24
+POINTS[8] = "250"
+POINTS[16] = "275"
+
+
+def test_it_logs_a_24_cell_inspection_from_the_keyboard_alone(tablet, crew, battery):
+    page = tablet
+    sign_in(page, "crew1")
+    page.get_by_role("heading", name="Fleet overview").wait_for()
+    assert page.get_by_role("cell", name="TW-001").count() or page.get_by_text("TW-001").count()
+    screenshot(page, "crew-1-overview")
+
+    page.get_by_role("link", name="Log a reading").first.click()
+    page.wait_for_url(re.compile(r"/readings/find/"))
+    page.keyboard.type("FL-01")  # the finder box has the focus: the truck's number, as painted on it
+    page.keyboard.press("Enter")
+    page.wait_for_url(re.compile(rf"/readings/battery/{battery.pk}/inspect/"))
+    screenshot(page, "crew-2-entry")
+
+    assert page.evaluate("document.activeElement.name") == "temp"
+    page.keyboard.type("27")
+    page.keyboard.press("Enter")
+    assert page.evaluate("document.activeElement.name") == "sg_1"
+    for points in POINTS:
+        page.keyboard.type(points)
+    # three digits not starting with 1 are a whole reading: after cell 24 the cursor sits on Save
+    assert page.evaluate("document.activeElement.id") == "save-inspection"
+    screenshot(page, "crew-3-filled")
+    page.keyboard.press("Enter")
+
+    page.wait_for_url(re.compile(r"/readings/inspection/\d+/"))
+    screenshot(page, "crew-4-result")
+    # 27 °C is 2 °C above the profile's 25 °C: +0.0014 on every cell (0.0007 per °C, common practice),
+    # each corrected cell kept to 0.001: 22 x 1.281, 1.251 (cell 9), 1.276 (cell 17).
+    # Mean 30.709 / 24 = 1.27954 -> 1.280; spread 1.281 - 1.251 = 0.030;
+    # SOC = (1.27954 - 1.140) / (1.290 - 1.140) = 93.0 %, shown as 93 %.
+    assert page.locator("#soc").inner_text().strip() == "93 %"
+    assert page.locator("#spread").inner_text().strip() == "0.030"
+    assert "cell 9" in page.locator("#inspection-summary").inner_text()
+
+    inspection = Inspection.objects.current().get(battery=battery)
+    assert inspection.taken_by.username == "crew1"
+    assert inspection.temp_c == Decimal("27.0")
+    assert inspection.sg_mean == Decimal("1.280")
+    assert inspection.sg_spread == Decimal("0.030")
+    assert inspection.soc_percent == Decimal("93.0")
+    assert inspection.lowest_position == 9
+    observed = list(CellReading.objects.filter(inspection=inspection).order_by("position").values_list("sg", flat=True))
+    assert observed == [Decimal("1." + p) for p in POINTS]
