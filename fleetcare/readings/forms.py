@@ -67,13 +67,14 @@ class InspectionForm(forms.Form):
     temp = forms.DecimalField(label="Electrolyte temperature", required=False, max_digits=5, decimal_places=1,
                               widget=forms.TextInput(attrs=_widget_attrs(inputmode="decimal")))
     hydrometer_compensated = forms.BooleanField(
-        label="My hydrometer corrects for temperature itself", required=False
+        label="My hydrometer corrects for temperature itself", required=False,
+        widget=forms.CheckboxInput(attrs={"class": "form-check-input"}),
     )
     hours_since_charge = forms.DecimalField(
         label="Hours since charge or load ended", required=False, min_value=0, max_value=9999, decimal_places=1,
         widget=forms.TextInput(attrs=_widget_attrs(inputmode="decimal")),
     )
-    notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
+    notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2, "class": "form-control"}))
     client_uuid = forms.UUIDField(widget=forms.HiddenInput)
 
     def __init__(self, *args, battery, **kwargs):
@@ -101,7 +102,9 @@ class InspectionForm(forms.Form):
                     widget=forms.TextInput(attrs=_widget_attrs(inputmode="numeric", pattern="[0-9.]*", maxlength="6",
                                                                 **{"data-position": position, "data-autoadvance": "sg"})),
                 )
-                self.fields[f"low_{position}"] = forms.BooleanField(label="low", required=False)
+                self.fields[f"low_{position}"] = forms.BooleanField(
+                    label="low", required=False, widget=forms.CheckboxInput(attrs={"class": "form-check-input"})
+                )
 
     def cell_rows(self):
         """Bound fields per position, for the tray grid template."""

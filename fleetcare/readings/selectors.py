@@ -2,15 +2,22 @@
 from fleetcare.readings.models import Inspection
 
 
+def tray_columns(positions):
+    """Rows of six suit 12-36 cell trays; 32 and 40 cells read better in rows of eight."""
+    if positions <= 6:
+        return positions
+    return 8 if positions % 8 == 0 and positions % 6 else 6
+
+
 def inspection_page(inspection):
     cells = list(inspection.cells.all())
     mean = inspection.sg_mean
     rows = []
     for cell in cells:
-        below = None
+        vs_mean = None
         if mean is not None and cell.sg_corrected is not None:
-            below = mean - cell.sg_corrected
-        rows.append({"cell": cell, "below_mean": below, "is_lowest": cell.position == inspection.lowest_position})
+            vs_mean = int((cell.sg_corrected - mean) * 1000)
+        rows.append({"cell": cell, "vs_mean": vs_mean, "is_lowest": cell.position == inspection.lowest_position})
     revisions = []
     older = inspection.supersedes
     while older is not None:
@@ -24,4 +31,5 @@ def inspection_page(inspection):
         "low_levels": [c.position for c in cells if c.level == "low"],
         "revisions": revisions,
         "superseded_by": Inspection.objects.filter(supersedes=inspection).first(),
+        "tray_columns": tray_columns(inspection.battery.profile.positions),
     }

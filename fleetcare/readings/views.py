@@ -47,15 +47,8 @@ def inspect(request, pk):
         form = InspectionForm(battery=battery, initial={"scope": scope})
     return render(request, "readings/inspect.html", {
         "battery": battery, "profile": battery.profile, "form": form, "scope": scope,
-        "tray_columns": tray_columns(battery.profile.positions),
+        "tray_columns": selectors.tray_columns(battery.profile.positions),
     })
-
-
-def tray_columns(positions):
-    """Rows of six suit 12-36 cell trays; 32 and 40 cells read better in rows of eight."""
-    if positions <= 6:
-        return positions
-    return 8 if positions % 8 == 0 and positions % 6 else 6
 
 
 @role_required(CREW)
