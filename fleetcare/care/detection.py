@@ -1,0 +1,253 @@
+"""Run the finding rules over a set of batteries and store the result.
+
+Loading is done in a fixed number of queries whatever the number of batteries (window functions
+pick each battery's latest readings), then every rule runs in Python, then findings are opened,
+refreshed or cleared in a few bulk statements. An active finding is never duplicated: the
+database holds at most one open-or-acknowledged finding per battery and kind.
+"""
+import logging
+from collections import defaultdict
+from dataclasses import dataclass, field
+from datetime import timedelta
+
+from django.db import transaction
+from django.db.models import Count, Exists, F, Max, OuterRef, Prefetch
+from django.db.models.functions import RowNumber
+from django.db.models.expressions import Window
+from django.utils import timezone
+
+from fleetcare.care import policy as care_policy
+from fleetcare.care import rules
+from fleetcare.care.models import Finding, Policy
+from fleetcare.fleet.models import Battery, Fitting
+from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
+
+log = logging.getLogger(__name__)
+
+MIN_LOOKBACK_DAYS = 60
+BLOCK_READINGS = 4
+UPDATED_FIELDS = ["severity", "positions", "persistent", "evidence", "summary", "inspection"]
+
+
+def _battery_ids(batteries):
+    return batteries.values("pk")
+
+
+def _ranked(queryset, depth, partition):
+    return queryset.annotate(
+        rank=Window(RowNumber(), partition_by=partition, order_by=[F("taken_at").desc(), F("pk").desc()])
+    ).filter(rank__lte=depth)
+
+
+def _cells_prefetch():
+    return Prefetch("cells", queryset=CellReading.objects.order_by("position"))
+
+
+def load(batteries, now):
+    """BatteryData for every battery in the queryset, in a fixed number of queries."""
+    battery_list = list(batteries.select_related("profile", "site").order_by("pk"))
+    if not battery_list:
+        return []
+    ids = _battery_ids(batteries)
+    policies = list(Policy.objects.select_related("site", "profile"))
+    data = {
+        b.pk: rules.BatteryData(battery=b, policy=care_policy.resolve(b, policies), now=now) for b in battery_list
+    }
+    depth = max(2, max(int(d.policy.sulfation_inspections) for d in data.values()))
+    lookback_days = max(
+        [MIN_LOOKBACK_DAYS] + [int(getattr(d.policy, name)) for d in data.values()
+                               for name in ("event_window_days", "water_use_window_days")]
+    )
+    since = now - timedelta(days=lookback_days + 1)
+    current = Inspection.objects.current().filter(battery_id__in=ids, taken_at__lte=now)
+
+    post_charge = _ranked(current.post_charge().filter(scope=Inspection.Scope.ALL_CELLS), depth, [F("battery_id")])
+    for inspection in post_charge.prefetch_related(_cells_prefetch()).order_by("battery_id", "-taken_at", "-pk"):
+        data[inspection.battery_id].post_charge.append(inspection)
+
+    block_batteries = [b.pk for b in battery_list if b.profile.reads_by_block and b.profile.monoblocks > 1]
+    if block_batteries:
+        blocks = _ranked(current.filter(scope=Inspection.Scope.ALL_CELLS, battery__profile__technology__in=["agm", "gel"]),
+                         BLOCK_READINGS, [F("battery_id")])
+        for inspection in blocks.prefetch_related(_cells_prefetch()).order_by("battery_id", "-taken_at", "-pk"):
+            data[inspection.battery_id].block_readings.append(inspection)
+
+    low = CellReading.objects.filter(inspection=OuterRef("pk"), level=CellReading.Level.LOW)
+    recent = current.filter(taken_at__gte=since).annotate(has_low_level=Exists(low)).order_by("-taken_at", "-pk")
+    for inspection in recent:
+        data[inspection.battery_id].recent.append(inspection)
+
+    stats = (Inspection.objects.current().post_charge().filter(battery_id__in=ids, taken_at__lte=now)
+             .order_by().values("battery_id").annotate(last=Max("taken_at"), n=Count("id")))
+    for row in stats:
+        data[row["battery_id"]].last_charge_at = row["last"]
+        data[row["battery_id"]].charges_logged = row["n"]
+
+    levels = (
+        CellReading.objects.filter(inspection__in=current).exclude(level="")
+        .annotate(
+            battery=F("inspection__battery_id"), taken_at=F("inspection__taken_at"),
+            rank=Window(RowNumber(), partition_by=[F("inspection__battery_id"), F("position")],
+                        order_by=[F("inspection__taken_at").desc(), F("inspection_id").desc()]),
+        ).filter(rank=1).values("battery", "position", "level", "taken_at")
+    )
+    for row in levels:
+        data[row["battery"]].latest_levels[row["position"]] = (row["level"], row["taken_at"])
+
+    top_ups = WaterTopUp.objects.current().filter(battery_id__in=ids, done_at__lte=now)
+    for top_up in top_ups.filter(done_at__gte=since).order_by("-done_at"):
+        data[top_up.battery_id].top_ups.append(top_up)
+    for row in top_ups.order_by().values("battery_id").annotate(last=Max("done_at")):
+        data[row["battery_id"]].last_top_up_at = row["last"]
+
+    for fitting in Fitting.objects.filter(battery_id__in=ids).select_related("vehicle").order_by("-fitted_at"):
+        data[fitting.battery_id].fittings.append(fitting)
+    return [data[b.pk] for b in battery_list]
+
+
+def _evidence(detected):
+    return detected.evidence()
+
+
+def _store(found, batteries, now):
+    """Open new findings, refresh those still shown, clear those no longer shown."""
+    existing = {(f.battery_id, f.kind): f for f in Finding.objects.active().filter(battery_id__in=_battery_ids(batteries))}
+    to_create, to_update, seen, touched = [], [], [], set()
+    for battery, detections in found:
+        for d in detections:
+            values = {
+                "severity": d.severity, "positions": list(d.positions), "persistent": d.persistent,
+                "evidence": _evidence(d), "summary": d.summary, "inspection": d.inspection,
+            }
+            finding = existing.pop((battery.pk, d.kind), None)
+            if finding is None:
+                to_create.append(Finding(battery=battery, kind=d.kind, state=Finding.State.OPEN,
+                                         opened_at=now, last_seen_at=now, **values))
+                continue
+            seen.append(finding.pk)
+            changed = False
+            for name, value in values.items():
+                old = finding.inspection_id if name == "inspection" else getattr(finding, name)
+                new = (value.pk if value is not None else None) if name == "inspection" else value
+                if old != new:
+                    setattr(finding, name, value)
+                    changed = True
+            if changed:
+                to_update.append(finding)
+            touched.add(finding.pk)
+    gone = [f.pk for f in existing.values()]
+    with transaction.atomic():
+        if to_create:
+            Finding.objects.bulk_create(to_create)
+        if to_update:
+            Finding.objects.bulk_update(to_update, UPDATED_FIELDS)
+        if seen:
+            Finding.objects.filter(pk__in=seen).update(last_seen_at=now)
+        if gone:
+            Finding.objects.filter(pk__in=gone).update(state=Finding.State.CLEARED, cleared_at=now)
+    return len(to_create), len(gone)
+
+
+def detect_for_batteries(batteries, now=None):
+    """Run every rule on the batteries (a queryset) and store the result; returns their active findings."""
+    now = now or timezone.now()
+    found = [(d.battery, rules.detect(d)) for d in load(batteries, now)]
+    _store(found, batteries, now)
+    return list(
+        Finding.objects.active().filter(battery_id__in=_battery_ids(batteries))
+        .select_related("battery", "battery__site").order_by("battery__serial", "kind")
+    )
+
+
+def detect_fleet(now=None, site=None):
+    """The whole fleet (or one site) on demand."""
+    batteries = Battery.objects.all()
+    if site is not None:
+        batteries = batteries.filter(site=site)
+    return detect_for_batteries(batteries, now=now)
+
+
+# --- Deep-discharge counts for the dashboard -----------------------------------------------------
+
+
+@dataclass
+class DeepDischargeCounts:
+    """Deep-discharge events per battery and per truck (the truck the battery was fitted to at the time)."""
+
+    events: list = field(default_factory=list)  # dicts: battery, inspection, taken_at, soc_percent, vehicle, shift
+    by_battery: dict = field(default_factory=dict)  # battery pk -> count
+    by_vehicle: dict = field(default_factory=dict)  # vehicle pk -> count
+    by_vehicle_shift: dict = field(default_factory=dict)  # (vehicle pk, shift) -> count
+    batteries: dict = field(default_factory=dict)  # pk -> Battery
+    vehicles: dict = field(default_factory=dict)  # pk -> Vehicle
+
+    def battery_rows(self):
+        """[(battery, count)], most events first."""
+        return sorted(((self.batteries[pk], n) for pk, n in self.by_battery.items()),
+                      key=lambda row: (-row[1], row[0].serial))
+
+    def vehicle_rows(self):
+        """[(vehicle, shift, count)], most events first; shift is '' where the site does not rotate."""
+        return sorted(((self.vehicles[pk], shift, n) for (pk, shift), n in self.by_vehicle_shift.items()),
+                      key=lambda row: (-row[2], row[0].asset_number, row[1]))
+
+
+def deep_discharge_counts(batteries, since=None, now=None):
+    """Count deep-discharge events (in-use or before-charge readings under the policy's state of charge).
+
+    `since` defaults to each battery's policy event window. Fixed number of queries.
+    """
+    now = now or timezone.now()
+    battery_list = list(batteries.select_related("profile", "site"))
+    counts = DeepDischargeCounts(batteries={b.pk: b for b in battery_list})
+    if not battery_list:
+        return counts
+    policies = list(Policy.objects.select_related("site", "profile"))
+    data = {b.pk: rules.BatteryData(battery=b, policy=care_policy.resolve(b, policies), now=now) for b in battery_list}
+    earliest = since or now - timedelta(days=max(int(d.policy.event_window_days) for d in data.values()) + 1)
+    ids = _battery_ids(batteries)
+    inspections = (
+        Inspection.objects.current()
+        .filter(battery_id__in=ids, taken_at__gte=earliest, taken_at__lte=now,
+                situation__in=[Inspection.Situation.IN_USE, Inspection.Situation.BEFORE_CHARGE],
+                soc_percent__isnull=False)
+        .order_by("-taken_at", "-pk")
+    )
+    for inspection in inspections:
+        data[inspection.battery_id].recent.append(inspection)
+    for fitting in Fitting.objects.filter(battery_id__in=ids).select_related("vehicle").order_by("-fitted_at"):
+        data[fitting.battery_id].fittings.append(fitting)
+    by_battery, by_vehicle, by_shift = defaultdict(int), defaultdict(int), defaultdict(int)
+    for pk, d in data.items():
+        for event in rules.deep_discharge_events(d, since=since):
+            inspection, vehicle = event["inspection"], event["vehicle"]
+            counts.events.append({
+                "battery": d.battery, "inspection": inspection, "taken_at": inspection.taken_at,
+                "soc_percent": inspection.soc_percent, "vehicle": vehicle, "shift": event["shift"],
+            })
+            by_battery[pk] += 1
+            if vehicle is not None:
+                counts.vehicles[vehicle.pk] = vehicle
+                by_vehicle[vehicle.pk] += 1
+                by_shift[(vehicle.pk, event["shift"])] += 1
+    counts.by_battery, counts.by_vehicle, counts.by_vehicle_shift = dict(by_battery), dict(by_vehicle), dict(by_shift)
+    counts.events.sort(key=lambda e: e["taken_at"], reverse=True)
+    return counts
+
+
+# --- Detection on save ---------------------------------------------------------------------------
+
+
+def _detect_one(battery_id):
+    try:
+        detect_for_batteries(Battery.objects.filter(pk=battery_id))
+    except Exception:  # a reading is already committed; a detection fault must not turn its save into an error
+        log.exception("findings detection failed for battery %s", battery_id)
+
+
+def on_inspection_recorded(sender, inspection, **kwargs):
+    _detect_one(inspection.battery_id)
+
+
+def on_top_up_recorded(sender, top_up, **kwargs):
+    _detect_one(top_up.battery_id)

@@ -1,0 +1,585 @@
+"""The finding rules: each is a plain function of one battery's recent data and its thresholds.
+
+A rule returns a `Detected` (what it saw, in plain words, with the readings and thresholds it
+used) or None. Loading the data and storing findings is fleetcare.care.detection's job.
+"""
+from dataclasses import dataclass, field
+from datetime import datetime, timedelta
+
+from fleetcare import chemistry
+from fleetcare.readings.services import is_rested
+
+DAYS_PER_MONTH = 30
+LOW_LEVEL_LOOKBACK = timedelta(hours=24)
+
+EQUALIZE_CAUTION = (
+    "Equalize only in a ventilated charging area: an equalizing charge releases more hydrogen than a normal "
+    "charge. Keep the vent caps in place and check the electrolyte temperature."
+)
+WATER_CAUTION = "Top up with distilled or deionised water only, to the level mark, wearing face shield and gloves."
+REPLACE_CAUTION = (
+    "Replacing cells or blocks means handling acid and heavy parts: use approved lifting equipment; spent cells "
+    "and blocks go to a licensed lead recycler."
+)
+GAS_CAUTION = "Heavy water use means heavy gassing: check that the charging room's ventilation copes."
+
+
+@dataclass
+class Detected:
+    kind: str
+    severity: int
+    summary: str
+    rule: str
+    readings: list
+    thresholds: list
+    next_step: str
+    caution: str = ""
+    positions: list = field(default_factory=list)
+    persistent: bool = False
+    inspection: object = None
+    facts: dict = field(default_factory=dict)
+
+    def evidence(self):
+        data = {
+            "rule": self.rule,
+            "readings": self.readings,
+            "threshold": self.thresholds[0] if self.thresholds else None,
+            "thresholds": self.thresholds,
+            "next_step": self.next_step,
+            "caution": self.caution,
+        }
+        data.update(self.facts)
+        return data
+
+
+@dataclass
+class BatteryData:
+    """Everything the rules may look at for one battery, loaded by detection in a fixed number of queries."""
+
+    battery: object
+    policy: object
+    now: datetime
+    post_charge: list = field(default_factory=list)  # all-cell post-charge inspections, newest first, with cells
+    block_readings: list = field(default_factory=list)  # all-cell inspections of block batteries, newest first
+    recent: list = field(default_factory=list)  # current inspections in the look-back, newest first
+    last_charge_at: datetime | None = None
+    charges_logged: int = 0
+    top_ups: list = field(default_factory=list)  # recent top-ups, newest first
+    last_top_up_at: datetime | None = None
+    latest_levels: dict = field(default_factory=dict)  # position -> (level, taken_at)
+    fittings: list = field(default_factory=list)
+
+    @property
+    def profile(self):
+        return self.battery.profile
+
+    @property
+    def site(self):
+        return self.battery.site
+
+
+def _f(value, places=3):
+    return None if value is None else round(float(value), places)
+
+
+def _when(moment):
+    return moment.isoformat() if moment else None
+
+
+def _points(sg_difference):
+    return int(round(float(sg_difference) * 1000))
+
+
+def _inspection_ref(inspection):
+    return {
+        "inspection_id": inspection.pk,
+        "taken_at": _when(inspection.taken_at),
+        "situation": inspection.situation,
+    }
+
+
+# --- Weak cell and spread ----------------------------------------------------------------------
+
+
+def _cell_values(inspection):
+    return [(c.position, c.sg_corrected) for c in inspection.cells.all() if c.sg_corrected is not None]
+
+
+def weak_cells(inspection, policy):
+    """Cells judged weak on one post-charge inspection: {position: reasons}, plus the figures used."""
+    values = _cell_values(inspection)
+    if len(values) < 2:
+        return {}, []
+    total = sum(sg for _, sg in values)
+    highest = max(sg for _, sg in values)
+    equalized = inspection.situation == "equalized"
+    flagged, rows = {}, []
+    for position, sg in values:
+        others_mean = (total - sg) / (len(values) - 1)
+        below = others_mean - sg
+        below_highest = highest - sg
+        reasons = []
+        if below > policy.weak_cell_below_mean_sg:
+            reasons.append("weak")
+        if equalized and below > policy.failing_cell_after_equalize_sg:
+            reasons.append("failing")
+        if below_highest > policy.unserviceable_cell_gap_sg:
+            reasons.append("apart")
+        if reasons:
+            flagged[position] = reasons
+            rows.append({
+                "position": position, "sg_corrected": _f(sg), "others_mean": _f(others_mean, 4),
+                "below_others_points": _points(below), "below_highest_points": _points(below_highest),
+                "reasons": reasons,
+            })
+    return flagged, rows
+
+
+def weak_cell(data):
+    if not data.profile.is_flooded or not data.post_charge:
+        return None
+    latest = data.post_charge[0]
+    flagged, rows = weak_cells(latest, data.policy)
+    if not flagged:
+        return None
+    previous = weak_cells(data.post_charge[1], data.policy)[0] if len(data.post_charge) > 1 else {}
+    persistent = bool(set(flagged) & set(previous))
+    failing = any("failing" in r for r in flagged.values())
+    positions = sorted(flagged)
+    cells = ", ".join(str(p) for p in positions)
+    worst = max(rows, key=lambda r: r["below_others_points"])
+    situation = "equalizing" if latest.situation == "equalized" else "charging"
+    summary = (f"Cell{'s' if len(positions) > 1 else ''} {cells} read low after {situation}: cell {worst['position']} "
+               f"is {worst['below_others_points']} points below the other cells' mean")
+    if failing:
+        summary += " (failing: still low after equalizing)"
+    if persistent:
+        summary += "; low on consecutive post-charge readings"
+    thresholds = [data.policy.evidence("weak_cell_below_mean_sg"), data.policy.evidence("failing_cell_after_equalize_sg"),
+                  data.policy.evidence("unserviceable_cell_gap_sg")]
+    if failing:
+        next_step = ("The cell is failing: arrange for it to be replaced (a motive tray can take a single new cell) "
+                     "and read all cells again after the next charge.")
+        caution = REPLACE_CAUTION
+    elif data.profile.equalizing_allowed:
+        next_step = ("Give an equalizing charge, then read all cells again. A cell still more than "
+                     f"{_points(data.policy.weak_cell_below_mean_sg)}–{_points(data.policy.failing_cell_after_equalize_sg)} "
+                     "points below the others after equalizing is failing.")
+        caution = EQUALIZE_CAUTION
+    else:
+        next_step = "This profile does not allow equalizing: ask the battery maker how to recover or replace the cell."
+        caution = REPLACE_CAUTION
+    return Detected(
+        kind="weak_cell", severity=3 if failing else 2, summary=summary,
+        rule=("On a just-charged or just-equalized battery, a cell whose corrected SG is below the mean of the "
+              "other cells by more than the weak-cell threshold (more than the failing threshold after equalizing), "
+              "or more than the unserviceable gap below the highest cell."),
+        readings=[dict(_inspection_ref(latest), cells=rows, sg_mean=_f(latest.sg_mean), sg_max=_f(latest.sg_max))],
+        thresholds=thresholds, next_step=next_step, caution=caution, positions=positions,
+        persistent=persistent, inspection=latest,
+    )
+
+
+def high_spread(data):
+    if not data.profile.is_flooded or not data.post_charge:
+        return None
+    latest = data.post_charge[0]
+    limit = data.policy.equalize_spread_sg
+    if latest.sg_spread is None or latest.sg_spread <= limit:
+        return None
+    previous = data.post_charge[1] if len(data.post_charge) > 1 else None
+    persistent = previous is not None and previous.sg_spread is not None and previous.sg_spread > limit
+    readings = [dict(_inspection_ref(i), sg_spread=_f(i.sg_spread), sg_min=_f(i.sg_min), sg_max=_f(i.sg_max),
+                     lowest_cell=i.lowest_position) for i in data.post_charge[:2]]
+    if data.profile.equalizing_allowed:
+        next_step = "Give an equalizing charge (the care planner schedules it), then read all cells again."
+        caution = EQUALIZE_CAUTION
+    else:
+        next_step = "This profile does not allow equalizing: ask the battery maker."
+        caution = ""
+    return Detected(
+        kind="high_spread", severity=2,
+        summary=(f"Spread {_points(latest.sg_spread)} points after charging (limit {_points(limit)}): "
+                 "an equalizing charge is due"),
+        rule="After a charge, the spread between the highest and lowest corrected cell SG is over the equalizing threshold.",
+        readings=readings, thresholds=[data.policy.evidence("equalize_spread_sg")], next_step=next_step,
+        caution=caution, positions=[latest.lowest_position] if latest.lowest_position else [],
+        persistent=persistent, inspection=latest,
+    )
+
+
+# --- Sulfation ---------------------------------------------------------------------------------
+
+
+def _short_of_full(inspection, profile, limit):
+    return inspection.sg_mean is not None and profile.full_charge_sg - inspection.sg_mean > limit
+
+
+def _partial_charge_run(data):
+    """The trailing run of readings below the state-of-charge limit, oldest first."""
+    run = []
+    for inspection in data.recent:
+        if inspection.soc_percent is None:
+            continue
+        if inspection.soc_percent >= data.policy.partial_charge_soc_percent:
+            break
+        run.append(inspection)
+    return list(reversed(run))
+
+
+def sulfation(data):
+    profile, policy = data.profile, data.policy
+    signs, readings, thresholds, latest_inspection = [], [], [], None
+    if profile.full_charge_sg is not None and data.post_charge:
+        limit = policy.sulfation_below_full_sg
+        needed = int(policy.sulfation_inspections)
+        latest = data.post_charge[0]
+        streak = data.post_charge[:needed]
+        short_streak = len(streak) >= needed and all(_short_of_full(i, profile, limit) for i in streak)
+        after_equalizing = latest.situation == "equalized" and _short_of_full(latest, profile, limit)
+        if short_streak or after_equalizing:
+            shown = streak if short_streak else [latest]
+            if short_streak:
+                signs.append(f"mean SG short of the full-charge {profile.full_charge_sg} by more than "
+                             f"{_points(limit)} points on {len(streak)} post-charge readings in a row")
+            if after_equalizing:
+                signs.append("mean SG still short after an equalizing charge")
+            readings += [dict(_inspection_ref(i), sg_mean=_f(i.sg_mean), full_charge_sg=_f(profile.full_charge_sg),
+                              short_points=_points(profile.full_charge_sg - i.sg_mean)) for i in shown]
+            thresholds += [policy.evidence("sulfation_below_full_sg"), policy.evidence("sulfation_inspections")]
+            latest_inspection = latest
+    run = _partial_charge_run(data)
+    if len(run) >= 2 and run[-1].taken_at - run[0].taken_at > timedelta(days=int(policy.partial_charge_days)):
+        days = (run[-1].taken_at - run[0].taken_at).days
+        signs.append(f"below {policy.partial_charge_soc_percent:.0f} % state of charge for {days} days "
+                     f"({len(run)} readings)")
+        readings += [dict(_inspection_ref(i), soc_percent=_f(i.soc_percent, 1)) for i in (run[0], run[-1])]
+        thresholds += [policy.evidence("partial_charge_soc_percent"), policy.evidence("partial_charge_days")]
+        latest_inspection = latest_inspection or run[-1]
+    if data.battery.status == "spare":
+        last_charge = data.last_charge_at
+        since = last_charge or _start_of(data.battery, data.now)
+        idle = data.now - since
+        if idle > timedelta(days=int(policy.storage_charge_days)):
+            signs.append(f"spare battery with no charge logged for {idle.days} days")
+            readings.append({"last_charge_at": _when(last_charge), "in_service_date": str(data.battery.in_service_date),
+                             "days_without_charge": idle.days})
+            thresholds.append(policy.evidence("storage_charge_days"))
+    if not signs:
+        return None
+    if profile.equalizing_allowed:
+        next_step = ("Give a full charge followed by an equalizing charge, then read all cells again. If the mean SG "
+                     "still falls short, book a capacity test.")
+        caution = EQUALIZE_CAUTION
+    else:
+        next_step = "Give a full charge now and read the blocks after the rest time; if they stay low, book a capacity test."
+        caution = ""
+    return Detected(
+        kind="sulfation", severity=2, summary="Suspected sulfation: " + "; ".join(signs),
+        rule=("Sulfate hardens when a battery stands partly discharged: mean SG that stays short of the full-charge "
+              "value after charging (or after equalizing), a battery left below half charge for days, or a spare "
+              "left without a charge."),
+        readings=readings, thresholds=thresholds, next_step=next_step, caution=caution,
+        persistent=len(signs) > 1 or any("in a row" in s for s in signs), inspection=latest_inspection,
+        facts={"signs": signs},
+    )
+
+
+def _start_of(battery, now):
+    start = datetime.combine(battery.in_service_date, datetime.min.time())
+    return start.replace(tzinfo=now.tzinfo)
+
+
+# --- Deep discharge ----------------------------------------------------------------------------
+
+
+def vehicle_at(fittings, moment):
+    """The fitting open at `moment`, or None."""
+    for fitting in fittings:
+        if fitting.fitted_at <= moment and (fitting.removed_at is None or fitting.removed_at > moment):
+            return fitting
+    return None
+
+
+def deep_discharge_events(data, since=None):
+    since = since or data.now - timedelta(days=int(data.policy.event_window_days))
+    events = []
+    for inspection in data.recent:
+        if inspection.taken_at < since:
+            break
+        if (inspection.situation in ("in_use", "before_charge") and inspection.soc_percent is not None
+                and inspection.soc_percent < data.policy.deep_discharge_soc_percent):
+            fitting = vehicle_at(data.fittings, inspection.taken_at)
+            events.append({
+                "inspection": inspection, "fitting": fitting,
+                "vehicle": fitting.vehicle if fitting else None, "shift": fitting.shift if fitting else "",
+            })
+    return events
+
+
+def deep_discharge(data):
+    events = deep_discharge_events(data)
+    if not events:
+        return None
+    by_truck = {}
+    for e in events:
+        key = (e["vehicle"].asset_number if e["vehicle"] else "not fitted", e["shift"])
+        by_truck[key] = by_truck.get(key, 0) + 1
+    trucks = "; ".join(f"{asset}{' ' + shift.lower() + ' shift' if shift else ''}: {n}"
+                       for (asset, shift), n in sorted(by_truck.items(), key=lambda kv: -kv[1]))
+    lowest = min(events, key=lambda e: e["inspection"].soc_percent)["inspection"]
+    window = int(data.policy.event_window_days)
+    return Detected(
+        kind="deep_discharge", severity=2,
+        summary=(f"{len(events)} deep discharge{'s' if len(events) != 1 else ''} in {window} days, lowest "
+                 f"{lowest.soc_percent:.0f} % state of charge ({trucks})"),
+        rule="An in-use or before-charge reading under the deep-discharge state of charge (80 % depth of discharge).",
+        readings=[dict(_inspection_ref(e["inspection"]), soc_percent=_f(e["inspection"].soc_percent, 1),
+                       vehicle=e["vehicle"].asset_number if e["vehicle"] else None, shift=e["shift"]) for e in events],
+        thresholds=[data.policy.evidence("deep_discharge_soc_percent"), data.policy.evidence("event_window_days")],
+        next_step=("Ask the truck's operators to change batteries before the state of charge drops under "
+                   f"{data.policy.deep_discharge_soc_percent:.0f} %; check the battery rotation for that truck and shift. "
+                   "Repeated deep discharge shortens battery life."),
+        inspection=events[0]["inspection"],
+        facts={"event_count": len(events),
+               "by_truck": [{"vehicle": a, "shift": s, "events": n} for (a, s), n in sorted(by_truck.items())]},
+    )
+
+
+# --- Watering ----------------------------------------------------------------------------------
+
+
+def low_level(data):
+    if not data.profile.watering_allowed:
+        return None
+    low = {p: taken for p, (level, taken) in data.latest_levels.items()
+           if level == "low" and (data.last_top_up_at is None or taken > data.last_top_up_at)}
+    if not low:
+        return None
+    positions = sorted(low)
+    return Detected(
+        kind="low_level", severity=2,
+        summary=f"Electrolyte low in cell{'s' if len(positions) > 1 else ''} {', '.join(map(str, positions))}, no top-up since",
+        rule="The latest level reading for a cell says low, and no water has been logged since.",
+        readings=[{"position": p, "reported_at": _when(low[p]), "level": "low"} for p in positions]
+        + [{"last_top_up_at": _when(data.last_top_up_at)}],
+        thresholds=[], next_step=("Top up after the next charge, to the level mark. Water before charging only if "
+                                  "the plates are exposed."),
+        caution=WATER_CAUTION, positions=positions,
+    )
+
+
+def watering_overdue(data):
+    if not data.profile.watering_allowed:
+        return None
+    interval = timedelta(days=int(data.policy.watering_interval_days))
+    since = data.last_top_up_at or _start_of(data.battery, data.now)
+    if data.now - since <= interval:
+        return None
+    days = (data.now - since).days
+    what = f"last top-up {data.last_top_up_at:%d %b %Y}" if data.last_top_up_at else "no top-up logged"
+    return Detected(
+        kind="watering_overdue", severity=2,
+        summary=f"Watering overdue: {what}, {days} days ago (interval {interval.days} days)",
+        rule="A flooded battery with no top-up logged for longer than its watering interval.",
+        readings=[{"last_top_up_at": _when(data.last_top_up_at), "days_since": days}],
+        thresholds=[data.policy.evidence("watering_interval_days")],
+        next_step="Check the levels after the next charge and top up to the level mark; log the top-up.",
+        caution=WATER_CAUTION,
+    )
+
+
+def water_use(data):
+    """Water use per cell per month and the overcharge it implies, or None without two top-ups in the window."""
+    window = timedelta(days=int(data.policy.water_use_window_days))
+    in_window = sorted((t for t in data.top_ups if t.done_at > data.now - window), key=lambda t: t.done_at)
+    if len(in_window) < 2:
+        return None
+    span_days = (in_window[-1].done_at - in_window[0].done_at).total_seconds() / 86400
+    if span_days < 1:
+        return None
+    cells = data.profile.cell_count
+    ml_per_cell = sum(float(t.volume_ml) for t in in_window[1:]) / cells
+    ml_per_cell_month = ml_per_cell / span_days * DAYS_PER_MONTH
+    grams_per_ah = chemistry.electrolysis_water_g(1.0)
+    overcharge_ah_month = ml_per_cell_month / grams_per_ah  # water 1 g per mL
+    charges_month = float(data.site.charges_per_day) * DAYS_PER_MONTH
+    capacity = float(data.profile.capacity_ah)
+    per_charge_pct = overcharge_ah_month / charges_month / capacity * 100 if charges_month else None
+    band_ml = (chemistry.electrolysis_water_g(float(data.policy.max_overcharge_percent) / 100 * capacity * charges_month)
+               if charges_month else None)
+    return {
+        "top_ups": in_window, "span_days": span_days, "ml_per_cell_month": ml_per_cell_month,
+        "overcharge_ah_month": overcharge_ah_month, "charges_month": charges_month,
+        "overcharge_pct_per_charge": per_charge_pct, "band_ml_per_cell_month": band_ml,
+        "grams_per_ah": grams_per_ah,
+    }
+
+
+def high_water_use(data):
+    if not data.profile.watering_allowed:
+        return None
+    use = water_use(data)
+    if use is None or use["overcharge_pct_per_charge"] is None:
+        return None
+    if use["overcharge_pct_per_charge"] <= float(data.policy.max_overcharge_percent):
+        return None
+    per_charge_ah = use["overcharge_ah_month"] / use["charges_month"]
+    return Detected(
+        kind="high_water_use", severity=2,
+        summary=(f"Uses {use['ml_per_cell_month']:.0f} mL of water per cell per month (band up to "
+                 f"{use['band_ml_per_cell_month']:.0f}): about {use['overcharge_ah_month']:.0f} Ah of overcharge a month, "
+                 f"{per_charge_ah:.0f} Ah ({use['overcharge_pct_per_charge']:.0f} % of rating) per charge"),
+        rule=("Water lost per cell is water split by overcharge (Faraday's law: about "
+              f"{use['grams_per_ah']:.3f} g per Ah). Water use above the band means the battery is overcharged: "
+              "a charger setting or an ageing battery."),
+        readings=[{"done_at": _when(t.done_at), "volume_ml": _f(t.volume_ml, 1), "before_charge": t.before_charge}
+                  for t in use["top_ups"]],
+        thresholds=[data.policy.evidence("max_overcharge_percent"), data.policy.evidence("water_use_window_days")],
+        next_step=("Check the charger: its profile for this battery, its end-of-charge current and timer. If the "
+                   "charger is right, the battery may be ageing: book a capacity test."),
+        caution=GAS_CAUTION,
+        facts={
+            "ml_per_cell_month": round(use["ml_per_cell_month"], 1),
+            "band_ml_per_cell_month": round(use["band_ml_per_cell_month"], 1),
+            "estimated_overcharge_ah_per_month": round(use["overcharge_ah_month"], 1),
+            "estimated_overcharge_ah_per_charge": round(per_charge_ah, 1),
+            "overcharge_percent_of_rating_per_charge": round(use["overcharge_pct_per_charge"], 1),
+            "charges_per_month": round(use["charges_month"], 1),
+            "water_g_per_ah": round(use["grams_per_ah"], 4),
+        },
+    )
+
+
+def water_before_charge(data):
+    if not data.profile.watering_allowed:
+        return None
+    since = data.now - timedelta(days=int(data.policy.event_window_days))
+    early = []
+    for top_up in data.top_ups:
+        if top_up.done_at <= since or not top_up.before_charge:
+            continue
+        low_reported = any(
+            i.has_low_level and top_up.done_at - LOW_LEVEL_LOOKBACK <= i.taken_at <= top_up.done_at for i in data.recent
+        )
+        if not low_reported:
+            early.append(top_up)
+    if not early:
+        return None
+    return Detected(
+        kind="water_before_charge", severity=1,
+        summary=(f"Water added before charging {len(early)} time{'s' if len(early) != 1 else ''} with no low level "
+                 "reported"),
+        rule="Water goes in after charging; before charging only when a low level (plates showing) is reported.",
+        readings=[{"done_at": _when(t.done_at), "volume_ml": _f(t.volume_ml, 1)} for t in early],
+        thresholds=[data.policy.evidence("event_window_days")],
+        next_step=("Water after charging, to the level mark: electrolyte rises on charge and can overflow if "
+                   "topped up before. Remind the crew; water before charging only if the plates are exposed."),
+        caution=WATER_CAUTION,
+    )
+
+
+# --- Sealed blocks -----------------------------------------------------------------------------
+
+
+def _block_volts(inspection, blocks):
+    volts = {c.position: c.volts for c in inspection.cells.all() if c.volts is not None}
+    return volts if len(volts) == blocks else None
+
+
+def _block_gap(volts):
+    return max(volts.values()) - min(volts.values())
+
+
+def weak_block(data):
+    profile = data.profile
+    if not profile.reads_by_block or profile.monoblocks < 2:
+        return None
+    rested, skipped = [], []
+    for inspection in data.block_readings:
+        volts = _block_volts(inspection, profile.monoblocks)
+        if volts is None:
+            continue
+        if is_rested(inspection, profile):
+            rested.append((inspection, volts))
+        elif not rested:
+            skipped.append(inspection)
+    if not rested:
+        return None
+    latest, volts = rested[0]
+    limit = data.policy.block_ocv_gap_v
+    gap = _block_gap(volts)
+    if gap <= limit:
+        return None
+    lowest = min(volts, key=volts.get)
+    persistent = len(rested) > 1 and _block_gap(rested[1][1]) > limit
+    readings = [dict(_inspection_ref(i), hours_since_charge=_f(i.hours_since_charge, 1),
+                     blocks={str(p): _f(v, 3) for p, v in sorted(block_volts.items())},
+                     gap_v=_f(_block_gap(block_volts), 3))
+                for i, block_volts in rested[:2]]
+    readings += [dict(_inspection_ref(i), hours_since_charge=_f(i.hours_since_charge, 1),
+                      not_rested=f"taken sooner than the {profile.ocv_rest_hours} h rest: not used")
+                 for i in skipped]
+    return Detected(
+        kind="weak_block", severity=2,
+        summary=(f"Block {lowest} rests {gap:.2f} V below its partner (limit {limit:.2f} V): replace the pair"),
+        rule="In a pair of sealed blocks, rested open-circuit voltages more than the limit apart mean a weak block.",
+        readings=readings, thresholds=[data.policy.evidence("block_ocv_gap_v")],
+        next_step=("Replace both blocks as a matched pair: a new block beside an old one wears out early. Charge the "
+                   "new pair fully before use."),
+        caution=REPLACE_CAUTION, positions=[lowest], persistent=persistent, inspection=latest,
+    )
+
+
+# --- Ageing ------------------------------------------------------------------------------------
+
+
+def cycles(data):
+    """(cycles used for the rule, logged post-charge readings, estimate from the site's charges per day)."""
+    days = max(0, (data.now.date() - data.battery.in_service_date).days)
+    estimated = int(days * float(data.site.charges_per_day))
+    return max(data.charges_logged, estimated), data.charges_logged, estimated
+
+
+def ageing(data):
+    profile = data.profile
+    days = (data.now.date() - data.battery.in_service_date).days
+    years = days / 365.25
+    used, logged, estimated = cycles(data)
+    past_life = years > float(profile.design_life_years)
+    past_cycles = used > profile.design_cycles
+    if not (past_life or past_cycles):
+        return None
+    parts = []
+    if past_life:
+        parts.append(f"in service {years:.1f} years (design life {profile.design_life_years} years)")
+    if past_cycles:
+        parts.append(f"about {used} cycles (design {profile.design_cycles})")
+    design = {"name": "design_life", "label": "design life and cycles of the battery profile",
+              "value": f"{profile.design_life_years} years / {profile.design_cycles} cycles", "unit": "",
+              "source": f"battery profile {profile.name} (maker's figures)"}
+    return Detected(
+        kind="ageing", severity=1, summary="Past design life: " + "; ".join(parts),
+        rule=("A battery in service longer than its profile's design life, or with more estimated charge cycles than "
+              "its design cycles. Cycles are the larger of the logged post-charge readings and the days in service "
+              "times the site's charges per day."),
+        readings=[{"in_service_date": str(data.battery.in_service_date), "years_in_service": round(years, 2),
+                   "cycles_logged": logged, "cycles_estimated": estimated,
+                   "charges_per_day": _f(data.site.charges_per_day, 2)}],
+        thresholds=[design],
+        next_step=("Book a capacity test: replacement is usually due when it gives under 80 % of rated capacity "
+                   "(IEEE Std 450 uses 80 %, from memory). Put the replacement in the budget."),
+        caution=REPLACE_CAUTION,
+    )
+
+
+RULES = (weak_cell, high_spread, sulfation, deep_discharge, low_level, watering_overdue, high_water_use,
+         water_before_charge, weak_block, ageing)
+
+
+def detect(data):
+    """Every finding one battery's data shows now; retired batteries show none."""
+    if data.battery.status == "retired":
+        return []
+    return [d for d in (rule(data) for rule in RULES) if d is not None]
+
