@@ -8,6 +8,7 @@ from pathlib import Path
 
 import dj_database_url
 import plotly
+from django.core.exceptions import ImproperlyConfigured
 
 BASE_DIR = Path(__file__).resolve().parent.parent
 
@@ -20,11 +21,20 @@ PRODUCTION = env_bool("FLEETCARE_PRODUCTION")
 DEBUG = env_bool("DEBUG", default=not PRODUCTION)
 
 if PRODUCTION:
-    SECRET_KEY = os.environ["SECRET_KEY"]
+    SECRET_KEY = os.environ.get("SECRET_KEY", "")
+    if not SECRET_KEY:
+        raise ImproperlyConfigured(
+            "FLEETCARE_PRODUCTION=1 needs SECRET_KEY in the environment (50+ random characters, e.g. from "
+            "python -c 'import secrets; print(secrets.token_urlsafe(50))')."
+        )
 else:
     SECRET_KEY = os.environ.get("SECRET_KEY", "dev-only-key-not-for-production-use-0123456789abcdef")
 
-ALLOWED_HOSTS = [h for h in os.environ.get("ALLOWED_HOSTS", "127.0.0.1,localhost,testserver").split(",") if h]
+ALLOWED_HOSTS = [
+    h.strip()
+    for h in os.environ.get("ALLOWED_HOSTS", "127.0.0.1,localhost" if PRODUCTION else "127.0.0.1,localhost,testserver").split(",")
+    if h.strip()
+]
 CSRF_TRUSTED_ORIGINS = [o for o in os.environ.get("CSRF_TRUSTED_ORIGINS", "").split(",") if o]
 
 INSTALLED_APPS = [
@@ -57,6 +67,7 @@ MIDDLEWARE = [
     "django.contrib.messages.middleware.MessageMiddleware",
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
     "fleetcare.accounts.middleware.SiteTimezoneMiddleware",
+    "fleetcare.accounts.middleware.ContentSecurityPolicyMiddleware",
 ]
 
 ROOT_URLCONF = "fleetcare.urls"
@@ -117,20 +128,50 @@ LOGIN_URL = "/accounts/login/"
 LOGIN_REDIRECT_URL = "/"
 LOGOUT_REDIRECT_URL = "/accounts/login/"
 
+AUTHENTICATION_BACKENDS = ["fleetcare.accounts.backends.ThrottledModelBackend"]
+# Sign-in throttling (fleetcare/accounts/throttle.py): failures per username and address.
+FLEETCARE_SIGNIN_MAX_FAILURES = int(os.environ.get("FLEETCARE_SIGNIN_MAX_FAILURES", "5"))
+FLEETCARE_SIGNIN_WINDOW_MINUTES = int(os.environ.get("FLEETCARE_SIGNIN_WINDOW_MINUTES", "15"))
+FLEETCARE_SIGNIN_LOCK_MINUTES = int(os.environ.get("FLEETCARE_SIGNIN_LOCK_MINUTES", "15"))
+
+# A shift is at most 12 h: the session ends 12 h after sign-in (the clock is not reset by activity).
 SESSION_COOKIE_AGE = int(os.environ.get("SESSION_COOKIE_AGE", str(12 * 3600)))
 SESSION_EXPIRE_AT_BROWSER_CLOSE = False
+SESSION_COOKIE_HTTPONLY = True
+SESSION_COOKIE_SAMESITE = "Lax"
+CSRF_COOKIE_SAMESITE = "Lax"
+X_FRAME_OPTIONS = "DENY"
+SECURE_CONTENT_TYPE_NOSNIFF = True
+SECURE_REFERRER_POLICY = "same-origin"
+SECURE_CROSS_ORIGIN_OPENER_POLICY = "same-origin"
 
 CRISPY_ALLOWED_TEMPLATE_PACKS = "bootstrap5"
 CRISPY_TEMPLATE_PACK = "bootstrap5"
 
 if PRODUCTION:
+    # Behind a TLS-terminating proxy that sets X-Forwarded-Proto (and strips it from clients).
     SECURE_SSL_REDIRECT = env_bool("SECURE_SSL_REDIRECT", default=True)
     SESSION_COOKIE_SECURE = True
     CSRF_COOKIE_SECURE = True
     SECURE_HSTS_SECONDS = int(os.environ.get("SECURE_HSTS_SECONDS", "31536000"))
-    SECURE_HSTS_INCLUDE_SUBDOMAINS = True
-    SECURE_HSTS_PRELOAD = True
+    SECURE_HSTS_INCLUDE_SUBDOMAINS = env_bool("SECURE_HSTS_INCLUDE_SUBDOMAINS", default=True)
+    SECURE_HSTS_PRELOAD = env_bool("SECURE_HSTS_PRELOAD", default=True)
     SECURE_PROXY_SSL_HEADER = ("HTTP_X_FORWARDED_PROTO", "https")
+
+# Content-Security-Policy sent on every response (fleetcare/accounts/middleware.py): our own assets only.
+# plotly.js adds <style> elements and style="" attributes as it draws, hence 'unsafe-inline' for styles only.
+CONTENT_SECURITY_POLICY = {
+    "default-src": ["'self'"],
+    "script-src": ["'self'"],
+    "style-src": ["'self'", "'unsafe-inline'"],
+    "img-src": ["'self'", "data:", "blob:"],
+    "font-src": ["'self'"],
+    "connect-src": ["'self'"],
+    "object-src": ["'none'"],
+    "base-uri": ["'self'"],
+    "form-action": ["'self'"],
+    "frame-ancestors": ["'none'"],
+}
 
 LOGGING = {
     "version": 1,

@@ -3,7 +3,7 @@ from django.urls import include, path
 
 urlpatterns = [
     path("", include("fleetcare.dashboard.urls")),
-    path("accounts/", include("django.contrib.auth.urls")),
+    path("accounts/", include("fleetcare.accounts.urls")),
     path("batteries/", include("fleetcare.fleet.urls")),
     path("readings/", include("fleetcare.readings.urls")),
     path("care/", include("fleetcare.care.urls")),

@@ -1,3 +1,4 @@
+from django.conf import settings
 from django.utils import timezone
 
 
@@ -19,3 +20,18 @@ class SiteTimezoneMiddleware:
         else:
             timezone.deactivate()
         return self.get_response(request)
+
+
+class ContentSecurityPolicyMiddleware:
+    """Send settings.CONTENT_SECURITY_POLICY on every response, in every mode, so tests see what production sends."""
+
+    def __init__(self, get_response):
+        self.header = "; ".join(
+            f"{directive} {' '.join(sources)}" for directive, sources in settings.CONTENT_SECURITY_POLICY.items()
+        )
+        self.get_response = get_response
+
+    def __call__(self, request):
+        response = self.get_response(request)
+        response.headers.setdefault("Content-Security-Policy", self.header)
+        return response

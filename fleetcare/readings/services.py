@@ -1,10 +1,12 @@
 """Writes that store a whole inspection or top-up at once, computing its figures with fleetcare.chemistry."""
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from decimal import ROUND_HALF_UP, Decimal
 
 from django.db import IntegrityError, transaction
+from django.utils import timezone
 
 from fleetcare import chemistry
+from fleetcare.accounts.models import ReadingChange
 from fleetcare.readings import signals
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 
@@ -121,7 +123,7 @@ def record_inspection(*, battery, user, taken_at, situation, cells, scope=Inspec
     try:
         with transaction.atomic():
             if supersedes is not None:
-                Inspection.objects.filter(pk=supersedes.pk).update(is_current=False)
+                _retire(supersedes)
             inspection.save()
             for row in rows:
                 row.inspection = inspection
@@ -133,6 +135,90 @@ def record_inspection(*, battery, user, taken_at, situation, cells, scope=Inspec
             raise
         return existing, False
     return inspection, True
+
+
+class RevisionError(Exception):
+    """A correction or removal that would change history: only the current, undeleted version may be changed."""
+
+
+def _retire(inspection):
+    """Mark the revision being corrected as no longer current, or refuse if it already is not.
+
+    One conditional UPDATE: of two corrections racing for the same revision, the second finds no
+    current row (PostgreSQL re-checks the condition after the first commits) and is refused.
+    """
+    retired = Inspection.objects.filter(pk=inspection.pk, is_current=True, deleted_at__isnull=True).update(is_current=False)
+    if retired != 1:
+        raise RevisionError(refusal(inspection))
+    inspection.is_current = False
+
+
+def refusal(inspection):
+    """Why this revision cannot be corrected or removed, or "" if it can."""
+    if inspection.deleted_at is not None:
+        return "This reading was removed; a removed reading cannot be corrected or removed again."
+    if not inspection.is_current or Inspection.objects.filter(supersedes=inspection).exists():
+        return "This version was already corrected. Open the current version and correct that one instead."
+    return ""
+
+
+def correct_inspection(old, *, user, reason, cells, temp_c=None, client_uuid=None, **fields):
+    """Store a corrected copy of `old` as a new revision (old stays, no longer current). Returns (new, created).
+
+    The reading keeps the person who took it; the corrector and the reason go in the audit trail.
+    Per-cell temperatures (from a CSV import) carry over when the inspection temperature is unchanged.
+    """
+    if not reason or not reason.strip():
+        raise RevisionError("A correction needs a reason.")
+    if temp_c == old.temp_c:
+        old_temps = {c.position: c.temp_c for c in old.cells.all() if c.temp_c is not None}
+        cells = [replace(c, temp_c=old_temps.get(c.position, c.temp_c)) for c in cells]
+    with transaction.atomic():
+        new, created = record_inspection(
+            battery=old.battery, user=old.taken_by, cells=cells, temp_c=temp_c, client_uuid=client_uuid,
+            supersedes=old, revision_reason=reason.strip(), **fields,
+        )
+        if created:
+            ReadingChange.objects.create(
+                battery=old.battery, action=ReadingChange.Action.CORRECTED, inspection=old, new_revision=new,
+                changed_by=user, reason=reason.strip(),
+            )
+    return new, created
+
+
+def remove_inspection(inspection, *, user, reason):
+    """Soft delete: the row stays, marked with who and when, and no longer counts anywhere."""
+    if not reason or not reason.strip():
+        raise RevisionError("A removal needs a reason.")
+    now = timezone.now()
+    with transaction.atomic():
+        removed = Inspection.objects.filter(pk=inspection.pk, is_current=True, deleted_at__isnull=True).update(
+            deleted_at=now, deleted_by=user
+        )
+        if removed != 1:
+            raise RevisionError(refusal(inspection) or "This reading cannot be removed.")
+        ReadingChange.objects.create(
+            battery_id=inspection.battery_id, action=ReadingChange.Action.REMOVED, inspection=inspection,
+            changed_by=user, reason=reason.strip(),
+        )
+    inspection.deleted_at, inspection.deleted_by = now, user
+    return inspection
+
+
+def remove_top_up(top_up, *, user, reason):
+    """Soft delete of a water top-up: the row stays; who and why are in the audit trail."""
+    if not reason or not reason.strip():
+        raise RevisionError("A removal needs a reason.")
+    now = timezone.now()
+    with transaction.atomic():
+        if WaterTopUp.objects.filter(pk=top_up.pk, deleted_at__isnull=True).update(deleted_at=now) != 1:
+            raise RevisionError("This top-up was already removed.")
+        ReadingChange.objects.create(
+            battery_id=top_up.battery_id, action=ReadingChange.Action.REMOVED, top_up=top_up,
+            changed_by=user, reason=reason.strip(),
+        )
+    top_up.deleted_at = now
+    return top_up
 
 
 def record_top_up(*, battery, user, done_at, volume_ml, volume_entered="", before_charge=False,

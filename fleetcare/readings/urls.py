@@ -9,5 +9,8 @@ urlpatterns = [
     path("battery/<int:pk>/water/", views.top_up, name="top_up"),
     path("battery/<int:pk>/readings.csv", views.export_csv, name="export_csv"),
     path("inspection/<int:pk>/", views.inspection_detail, name="inspection"),
+    path("inspection/<int:pk>/correct/", views.correct_inspection, name="correct"),
+    path("inspection/<int:pk>/remove/", views.remove_inspection, name="remove"),
+    path("water/<int:pk>/remove/", views.remove_top_up, name="remove_top_up"),
     path("import/", views.import_csv, name="import"),
 ]

@@ -1,14 +1,24 @@
+from decimal import Decimal
+
 from django.contrib import messages
 from django.db.models import Q
 from django.http import HttpResponse
-from django.shortcuts import get_object_or_404, redirect, render
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.utils import timezone
 from django.views.decorators.http import require_http_methods
 
-from fleetcare.accounts.access import battery_or_404, role_required, visible_batteries
-from fleetcare.accounts.roles import CREW
-from fleetcare.readings import csv_io, selectors
+from fleetcare import chemistry
+from fleetcare.accounts.access import (
+    battery_or_404, inspection_or_404, role_required, top_up_or_404, visible_batteries,
+)
+from fleetcare.accounts.audit import inspection_versions
+from fleetcare.accounts.forms import ReasonForm
+from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
+from fleetcare.fleet.models import Site
+from fleetcare.readings import csv_io, selectors, services
 from fleetcare.readings.forms import InspectionForm, TopUpForm
-from fleetcare.readings.models import Inspection
+from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import record_inspection, record_top_up
 
 
@@ -53,10 +63,114 @@ def inspect(request, pk):
 
 @role_required(CREW)
 def inspection_detail(request, pk):
-    inspection = get_object_or_404(
-        Inspection.objects.visible_to(request.user).select_related("battery__profile", "battery__site", "taken_by"), pk=pk
-    )
-    return render(request, "readings/inspection.html", selectors.inspection_page(inspection))
+    inspection = inspection_or_404(request.user, pk)
+    context = selectors.inspection_page(inspection)
+    context["versions"] = inspection_versions(inspection)
+    context["can_change"] = has_role(request.user, SUPERVISOR) and not services.refusal(inspection)
+    return render(request, "readings/inspection.html", context)
+
+
+def stored_values(inspection):
+    """The form's initial values from a stored inspection, in the site's units."""
+    site = inspection.battery.site
+    temp = inspection.temp_c
+    if temp is not None and site.temp_unit == Site.TempUnit.FAHRENHEIT:
+        temp = Decimal(str(round(chemistry.c_to_f(float(temp)), 1)))
+    initial = {
+        "situation": inspection.situation, "scope": inspection.scope,
+        "taken_at": timezone.localtime(inspection.taken_at).replace(second=0, microsecond=0), "temp": temp,
+        "hydrometer_compensated": inspection.hydrometer_compensated,
+        "hours_since_charge": inspection.hours_since_charge, "notes": inspection.notes,
+    }
+    for cell in inspection.cells.all():
+        if cell.volts is not None:
+            initial[f"volts_{cell.position}"] = cell.volts
+        if cell.sg is not None:
+            initial[f"sg_{cell.position}"] = cell.sg
+            initial[f"low_{cell.position}"] = cell.level == CellReading.Level.LOW
+    return initial
+
+
+@role_required(SUPERVISOR)
+@require_http_methods(["GET", "POST"])
+def correct_inspection(request, pk):
+    """A correction stores a new version of the reading; the old one is kept and shown in its history."""
+    old = inspection_or_404(request.user, pk)
+    refused = services.refusal(old)
+    if refused:
+        messages.error(request, refused)
+        return redirect("readings:inspection", pk=old.pk)
+    battery = old.battery
+    scope = request.GET.get("scope", old.scope)
+    if request.method == "POST":
+        form = InspectionForm(request.POST, battery=battery)
+        reason = ReasonForm(request.POST)
+        if form.is_valid() and reason.is_valid():
+            fields = form.record_kwargs()
+            try:
+                new, created = services.correct_inspection(
+                    old, user=request.user, reason=reason.cleaned_data["reason"], **fields
+                )
+            except services.RevisionError as exc:
+                messages.error(request, str(exc))
+                return redirect("readings:inspection", pk=old.pk)
+            messages.success(request, "Correction saved as a new version; the earlier version is kept in the history."
+                             if created else "This correction was already saved; nothing was stored twice.")
+            return redirect("readings:inspection", pk=new.pk)
+    else:
+        form = InspectionForm(battery=battery, initial={**stored_values(old), "scope": scope})
+        reason = ReasonForm()
+    return render(request, "readings/correct.html", {
+        "battery": battery, "profile": battery.profile, "form": form, "scope": scope, "reason_form": reason,
+        "old": old, "tray_columns": selectors.tray_columns(battery.profile.positions),
+    })
+
+
+@role_required(SUPERVISOR)
+@require_http_methods(["GET", "POST"])
+def remove_inspection(request, pk):
+    inspection = inspection_or_404(request.user, pk)
+    refused = services.refusal(inspection)
+    if refused:
+        messages.error(request, refused)
+        return redirect("readings:inspection", pk=inspection.pk)
+    form = ReasonForm(request.POST or None)
+    if request.method == "POST" and form.is_valid():
+        try:
+            services.remove_inspection(inspection, user=request.user, reason=form.cleaned_data["reason"])
+        except services.RevisionError as exc:
+            messages.error(request, str(exc))
+            return redirect("readings:inspection", pk=inspection.pk)
+        messages.success(request, "Reading removed. It is kept in the history and no longer counts.")
+        return redirect("fleet:battery", pk=inspection.battery_id)
+    return render(request, "readings/remove.html", {
+        "form": form, "battery": inspection.battery, "what": "reading",
+        "summary": f"{inspection.get_situation_display()} reading taken {timezone.localtime(inspection.taken_at):%d %b %Y %H:%M}",
+        "back": reverse("readings:inspection", args=[inspection.pk]),
+    })
+
+
+@role_required(SUPERVISOR)
+@require_http_methods(["GET", "POST"])
+def remove_top_up(request, pk):
+    top_up = top_up_or_404(request.user, pk)
+    if top_up.deleted_at is not None:
+        messages.error(request, "This top-up was already removed.")
+        return redirect("fleet:battery", pk=top_up.battery_id)
+    form = ReasonForm(request.POST or None)
+    if request.method == "POST" and form.is_valid():
+        try:
+            services.remove_top_up(top_up, user=request.user, reason=form.cleaned_data["reason"])
+        except services.RevisionError as exc:
+            messages.error(request, str(exc))
+        else:
+            messages.success(request, "Top-up removed. It is kept in the history and no longer counts.")
+        return redirect("fleet:battery", pk=top_up.battery_id)
+    return render(request, "readings/remove.html", {
+        "form": form, "battery": top_up.battery, "what": "water top-up",
+        "summary": f"{top_up.volume_entered or f'{top_up.volume_ml} mL'} on {timezone.localtime(top_up.done_at):%d %b %Y %H:%M}",
+        "back": reverse("fleet:battery", args=[top_up.battery_id]),
+    })
 
 
 @role_required(CREW)
