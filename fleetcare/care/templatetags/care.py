@@ -1,0 +1,76 @@
+"""{% battery_findings battery %} and {% inspection_findings inspection %}: the findings panel, with its own data."""
+from datetime import datetime
+
+from django import template
+from django.utils import timezone
+
+from fleetcare.accounts.roles import SUPERVISOR, has_role
+from fleetcare.care import selectors
+
+register = template.Library()
+
+LABELS = {
+    "taken_at": "taken", "situation": "situation", "sg_mean": "mean SG", "sg_max": "highest SG", "sg_min": "lowest SG",
+    "sg_spread": "spread", "lowest_cell": "lowest cell", "full_charge_sg": "full-charge SG",
+    "short_points": "points short", "soc_percent": "state of charge %", "last_charge_at": "last charge logged",
+    "in_service_date": "in service since", "days_without_charge": "days without a charge", "vehicle": "truck or chair",
+    "shift": "shift", "reported_at": "reported", "level": "level", "position": "cell", "last_top_up_at": "last top-up",
+    "days_since": "days since", "done_at": "done", "volume_ml": "mL (whole battery)", "before_charge": "before charge",
+    "hours_since_charge": "hours after charge", "gap_v": "gap (V)", "not_rested": "not used",
+    "years_in_service": "years in service", "cycles_logged": "charges logged", "cycles_estimated": "cycles estimated",
+    "charges_per_day": "site charges per day",
+}
+SKIP = {"inspection_id"}
+
+
+def _show(value):
+    if isinstance(value, str) and len(value) >= 19 and value[4] == "-" and "T" in value:
+        try:
+            moment = timezone.localtime(datetime.fromisoformat(value))
+        except ValueError:
+            return value
+        return moment.strftime("%d %b %Y %H:%M")
+    if value is None:
+        return "–"
+    if value is True:
+        return "yes"
+    if value is False:
+        return "no"
+    return str(value)
+
+
+@register.filter
+def reading_lines(reading):
+    """One evidence reading as (label, text) pairs in plain words."""
+    lines = []
+    for key, value in reading.items():
+        if key in SKIP:
+            continue
+        if key == "cells":
+            for cell in value:
+                lines.append((f"cell {cell['position']}", f"{cell['sg_corrected']:.3f}, {cell['below_others_points']} "
+                              f"points below the other cells' mean, {cell['below_highest_points']} below the highest"))
+        elif key == "blocks":
+            lines.append(("blocks", ", ".join(f"block {p}: {v:.2f} V" for p, v in value.items())))
+        else:
+            lines.append((LABELS.get(key, key.replace("_", " ")), _show(value)))
+    return lines
+
+
+@register.filter
+def can_acknowledge(user):
+    return has_role(user, SUPERVISOR)
+
+
+@register.inclusion_tag("care/_battery_findings.html", takes_context=True)
+def battery_findings(context, battery):
+    data = selectors.battery_findings(battery)
+    data.update(user=context.get("user"), request=context.get("request"), panel_title="Findings")
+    return data
+
+
+@register.inclusion_tag("care/_battery_findings.html", takes_context=True)
+def inspection_findings(context, inspection):
+    data = selectors.inspection_findings(inspection)
+    data.update(user=context.get("user"), request=context.get("request"), panel_title="Findings for this battery")
+    return data
