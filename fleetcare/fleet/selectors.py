@@ -1,27 +1,229 @@
 """Reads that feed the fleet pages, each in a fixed number of queries whatever the history length."""
+import datetime as dt
 from collections import defaultdict
+from dataclasses import dataclass, field
+from decimal import Decimal
 
-from django.db.models import OuterRef, Subquery
+from django.db.models import F, OuterRef, Q, Subquery
+from django.utils import timezone
 
 from fleetcare import charts
-from fleetcare.fleet.models import Fitting
+from fleetcare.fleet.models import Battery, BatteryProfile, Fitting
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 
+try:  # findings come from the care app; the fleet pages work without it
+    from fleetcare.care.models import Finding
+except ImportError:  # pragma: no cover - only before the care app has its models
+    Finding = None
+
 HEATMAP_INSPECTIONS = 40
+LIST_PAGE_SIZE = 50
+
+# State-of-charge bands at the latest reading. 20 % is the deepest a motive battery should be run
+# (80 % depth of discharge) and below 50 % a standing battery sulfates (field notes, common practice).
+SOC_BANDS = (
+    ("below20", "Below 20 %", None, 20),
+    ("20to50", "20–50 %", 20, 50),
+    ("50to80", "50–80 %", 50, 80),
+    ("80up", "80 % and over", 80, None),
+)
+NO_READING = "none"
+SOC_BAND_LABELS = {key: label for key, label, _, _ in SOC_BANDS} | {NO_READING: "No reading yet"}
+SOC_BAND_SHORT = {"below20": "< 20 %", "20to50": "20–50 %", "50to80": "50–80 %", "80up": "≥ 80 %", NO_READING: "none yet"}
+
+# Stand-in until the planner owns the equalizing and watering interval policy: a flooded battery is
+# overdue when nothing was logged for this many days (weekly equalizing is common practice).
+STOPGAP_CARE_INTERVAL_DAYS = 7
+OVERDUE_KINDS = {"equalizing": "Equalizing overdue", "watering": "Watering overdue"}
 
 
 def with_latest_reading(batteries):
-    """Annotate each battery with its latest current inspection's SOC, spread, time and situation."""
+    """Annotate each battery with its latest current inspection's SOC, time and situation, and the
+    spread of its latest all-cell inspection (a pilot reading has no spread worth showing)."""
     latest = Inspection.objects.current().filter(battery=OuterRef("pk")).order_by("-taken_at")
+    all_cells = latest.filter(scope=Inspection.Scope.ALL_CELLS, sg_spread__isnull=False)
     return batteries.annotate(
         latest_soc=Subquery(latest.values("soc_percent")[:1]),
-        latest_spread=Subquery(latest.values("sg_spread")[:1]),
+        latest_spread=Subquery(all_cells.values("sg_spread")[:1]),
         latest_taken_at=Subquery(latest.values("taken_at")[:1]),
         latest_situation=Subquery(latest.values("situation")[:1]),
         current_asset=Subquery(
             Fitting.objects.filter(battery=OuterRef("pk"), removed_at__isnull=True).values("vehicle__asset_number")[:1]
         ),
     )
+
+
+def with_last_care(batteries):
+    """Annotate when each battery was last equalized (a current 'just equalized' inspection) and last watered."""
+    equalized = (
+        Inspection.objects.current()
+        .filter(battery=OuterRef("pk"), situation=Inspection.Situation.JUST_EQUALIZED)
+        .order_by("-taken_at").values("taken_at")[:1]
+    )
+    watered = WaterTopUp.objects.current().filter(battery=OuterRef("pk")).order_by("-done_at").values("done_at")[:1]
+    return batteries.annotate(last_equalized=Subquery(equalized), last_watered=Subquery(watered))
+
+
+def stopgap_overdue_q(kind, now):
+    """Flooded batteries whose profile allows equalizing (or watering) with none logged in the last
+    STOPGAP_CARE_INTERVAL_DAYS. Needs with_last_care(). To be replaced by the planner's due dates."""
+    since = now - dt.timedelta(days=STOPGAP_CARE_INTERVAL_DAYS)
+    flooded = Q(profile__technology=BatteryProfile.Technology.FLOODED)
+    if kind == "equalizing":
+        return flooded & Q(profile__equalizing_allowed=True) & (Q(last_equalized__isnull=True) | Q(last_equalized__lt=since))
+    if kind == "watering":
+        return flooded & Q(profile__watering_allowed=True) & (Q(last_watered__isnull=True) | Q(last_watered__lt=since))
+    raise ValueError(kind)
+
+
+def is_stopgap_overdue(kind, *, flooded, allowed, last_done, now):
+    """The same rule as stopgap_overdue_q, for one battery's values already fetched."""
+    since = now - dt.timedelta(days=STOPGAP_CARE_INTERVAL_DAYS)
+    return flooded and allowed and (last_done is None or last_done < since)
+
+
+def design_life_days(years):
+    return round(float(years) * 365.25)
+
+
+def is_past_design_life(in_service_date, design_life_years, today):
+    return in_service_date + dt.timedelta(days=design_life_days(design_life_years)) <= today
+
+
+def past_design_life_q(today):
+    """Batteries whose profile's design life has run out since they went into service (one query for the profiles)."""
+    q = Q(pk__in=[])
+    for profile_id, years in BatteryProfile.objects.values_list("pk", "design_life_years"):
+        q |= Q(profile_id=profile_id, in_service_date__lte=today - dt.timedelta(days=design_life_days(years)))
+    return q
+
+
+def soc_band(soc):
+    """The key of the band a state of charge falls in (NO_READING for None)."""
+    if soc is None:
+        return NO_READING
+    for key, _label, low, high in SOC_BANDS:
+        if (low is None or soc >= low) and (high is None or soc < high):
+            return key
+    return NO_READING
+
+
+def soc_band_q(key):
+    """Needs with_latest_reading()."""
+    if key == NO_READING:
+        return Q(latest_soc__isnull=True)
+    for band, _label, low, high in SOC_BANDS:
+        if band == key:
+            q = Q()
+            if low is not None:
+                q &= Q(latest_soc__gte=low)
+            if high is not None:
+                q &= Q(latest_soc__lt=high)
+            return q
+    raise ValueError(key)
+
+
+def finding_kinds():
+    return list(Finding.Kind.choices) if Finding is not None else []
+
+
+SORTS = {
+    "serial": "serial", "site": "site__name", "profile": "profile__name", "status": "status",
+    "fitted": "current_asset", "latest": "latest_taken_at", "soc": "latest_soc", "spread": "latest_spread",
+    "in_service": "in_service_date",
+}
+
+
+@dataclass
+class BatteryFilters:
+    """What the battery list is narrowed to, read from the query string; unknown values are ignored."""
+
+    query: str = ""
+    site: str = ""
+    profile: str = ""
+    status: str = ""
+    soc: str = ""
+    finding: str = ""
+    overdue: str = ""
+    past_life: bool = False
+    sort: str = "serial"
+    descending: bool = False
+    errors: list = field(default_factory=list)
+
+    @classmethod
+    def from_query(cls, params):
+        f = cls(query=params.get("q", "").strip(), site=params.get("site", ""))
+        profile = params.get("profile", "")
+        f.profile = profile if profile.isdigit() else ""
+        status = params.get("status", "")
+        f.status = status if status in Battery.Status.values else ""
+        soc = params.get("soc", "")
+        f.soc = soc if soc in SOC_BAND_LABELS else ""
+        finding = params.get("finding", "")
+        f.finding = finding if finding in dict(finding_kinds()) else ""
+        overdue = params.get("overdue", "")
+        f.overdue = overdue if overdue in OVERDUE_KINDS else ""
+        f.past_life = params.get("past_life") == "1"
+        sort = params.get("sort", "serial")
+        f.descending = sort.startswith("-")
+        f.sort = sort.lstrip("-") if sort.lstrip("-") in SORTS else "serial"
+        return f
+
+    def as_params(self, **changes):
+        """The filters as query-string pairs (for links that keep them), with some changed."""
+        values = {
+            "q": self.query, "site": self.site, "profile": self.profile, "status": self.status, "soc": self.soc,
+            "finding": self.finding, "overdue": self.overdue, "past_life": "1" if self.past_life else "",
+            "sort": ("-" if self.descending else "") + self.sort if self.sort != "serial" or self.descending else "",
+        }
+        values.update(changes)
+        return {k: v for k, v in values.items() if v}
+
+    def chips(self):
+        """The filters in words, for the heading of the list."""
+        words = []
+        if self.status:
+            words.append(Battery.Status(self.status).label)
+        if self.soc:
+            words.append(f"state of charge {SOC_BAND_LABELS[self.soc]}")
+        if self.finding:
+            words.append(f"open finding: {dict(finding_kinds())[self.finding]}")
+        if self.overdue:
+            words.append(OVERDUE_KINDS[self.overdue])
+        if self.past_life:
+            words.append("past design life")
+        return words
+
+
+def battery_list(batteries, filters, now):
+    """The battery list narrowed and sorted by filters: a queryset to page, in one query per page."""
+    batteries = batteries.select_related("profile", "site")
+    if filters.query:
+        batteries = batteries.filter(
+            Q(serial__icontains=filters.query)
+            | Q(pk__in=Fitting.objects.filter(
+                removed_at__isnull=True, vehicle__asset_number__icontains=filters.query).values("battery_id"))
+        )
+    if filters.site:
+        batteries = batteries.filter(site__code=filters.site)
+    if filters.profile:
+        batteries = batteries.filter(profile_id=int(filters.profile))
+    if filters.status:
+        batteries = batteries.filter(status=filters.status)
+    else:
+        batteries = batteries.active()
+    batteries = with_latest_reading(batteries)
+    if filters.soc:
+        batteries = batteries.filter(soc_band_q(filters.soc))
+    if filters.finding and Finding is not None:
+        batteries = batteries.filter(pk__in=Finding.objects.active().filter(kind=filters.finding).values("battery_id"))
+    if filters.overdue:
+        batteries = with_last_care(batteries).filter(stopgap_overdue_q(filters.overdue, now))
+    if filters.past_life:
+        batteries = batteries.filter(past_design_life_q(timezone.localdate(now)))
+    column = F(SORTS[filters.sort])
+    order = column.desc(nulls_last=True) if filters.descending else column.asc(nulls_last=True)
+    return batteries.order_by(order, "serial")
 
 
 def battery_record(battery):
@@ -74,11 +276,14 @@ def sg_heatmap(battery, inspections):
     ):
         if sg is not None and 1 <= position <= cells:
             z[position - 1][index[inspection_id]] = float(sg)
-    x = [i.taken_at.strftime("%Y-%m-%d %H:%M") for i in recent]
+    x = [f"{timezone.localtime(i.taken_at, battery.site.tzinfo):%d %b %y %H:%M}" for i in recent]
     y = [f"Cell {n}" for n in range(1, cells + 1)]
+    lowest = [(x[col], y[i.lowest_position - 1]) for col, i in enumerate(recent)
+              if i.lowest_position and 1 <= i.lowest_position <= cells]
     return charts.heatmap(
-        x, y, z, "Corrected SG by cell (a weak cell shows as a dark stripe)", "SG",
-        height=max(320, 18 * cells + 120),
+        x, y, z, "Corrected SG by cell and reading<br><sup>a weak cell shows as a dark stripe; × marks each reading's "
+        "lowest cell</sup>", "SG",
+        height=max(320, 18 * cells + 120), marks=lowest, marks_name="Lowest cell",
     )
 
 
@@ -87,27 +292,8 @@ def water_chart(battery, top_ups):
         return None
     per_month = defaultdict(float)
     for top_up in top_ups:
-        per_month[top_up.done_at.strftime("%Y-%m")] += float(top_up.volume_ml) / battery.profile.cell_count
+        month = timezone.localtime(top_up.done_at, battery.site.tzinfo).strftime("%Y-%m")
+        per_month[month] += float(top_up.volume_ml) / battery.profile.cell_count
     months = sorted(per_month)
     values = [round(per_month[m]) for m in months]
     return charts.bars(months, values, "Water added per cell per month", "mL per cell")
-
-
-def fleet_soc_chart(batteries):
-    bands = ["0–20 %", "20–50 %", "50–80 %", "80–100 %", "no reading"]
-    counts = dict.fromkeys(bands, 0)
-    for battery in batteries:
-        counts[soc_band(battery.latest_soc)] += 1
-    return charts.bars(bands, [counts[b] for b in bands], "Batteries by state of charge at their latest reading", "Batteries")
-
-
-def soc_band(soc):
-    if soc is None:
-        return "no reading"
-    if soc < 20:
-        return "0–20 %"
-    if soc < 50:
-        return "20–50 %"
-    if soc < 80:
-        return "50–80 %"
-    return "80–100 %"

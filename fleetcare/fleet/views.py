@@ -1,34 +1,47 @@
+from urllib.parse import urlencode
+
 from django.core.paginator import Paginator
-from django.db.models import Q
 from django.shortcuts import render
+from django.utils import timezone
 
 from fleetcare.accounts.access import battery_or_404, role_required, visible_batteries, visible_sites
 from fleetcare.accounts.roles import CREW
 from fleetcare.fleet import selectors
-from fleetcare.fleet.models import Battery
+from fleetcare.fleet.models import Battery, BatteryProfile
+
+COLUMNS = (
+    ("Serial", "serial"), ("Site", "site"), ("Profile", "profile"), ("Status", "status"), ("Fitted to", "fitted"),
+    ("Latest reading", "latest"), ("State of charge", "soc"), ("Spread (points)", "spread"),
+)
 
 
 @role_required(CREW)
 def battery_list(request):
-    batteries = visible_batteries(request.user).select_related("profile", "site")
-    query = request.GET.get("q", "").strip()
-    site = request.GET.get("site", "")
-    status = request.GET.get("status", "")
-    if query:
-        batteries = batteries.filter(
-            Q(serial__icontains=query)
-            | Q(fittings__vehicle__asset_number__icontains=query, fittings__removed_at__isnull=True)
-        ).distinct()
-    if site:
-        batteries = batteries.filter(site__code=site)
-    if status:
-        batteries = batteries.filter(status=status)
-    batteries = selectors.with_latest_reading(batteries)
-    page = Paginator(batteries, 50).get_page(request.GET.get("page"))
+    filters = selectors.BatteryFilters.from_query(request.GET)
+    batteries = selectors.battery_list(visible_batteries(request.user), filters, timezone.now())
+    page = Paginator(batteries, selectors.LIST_PAGE_SIZE).get_page(request.GET.get("page"))
+    sites = visible_sites(request.user)
     return render(request, "fleet/battery_list.html", {
-        "page": page, "query": query, "site": site, "status": status,
-        "sites": visible_sites(request.user), "statuses": Battery.Status.choices,
+        "page": page, "filters": filters, "columns": _sort_links(filters),
+        "page_query": urlencode(filters.as_params()),
+        "sites": sites, "statuses": Battery.Status.choices,
+        "profiles": BatteryProfile.objects.filter(batteries__site__in=sites).distinct(),
+        "soc_bands": list(selectors.SOC_BAND_LABELS.items()), "finding_kinds": selectors.finding_kinds(),
+        "overdue_kinds": list(selectors.OVERDUE_KINDS.items()),
     })
+
+
+def _sort_links(filters):
+    """Each column heading links to the list sorted by it; a second click reverses the order."""
+    links = []
+    for label, key in COLUMNS:
+        current = filters.sort == key
+        sort = f"-{key}" if current and not filters.descending else key
+        links.append({
+            "label": label, "url": "?" + urlencode(filters.as_params(sort=sort)),
+            "order": ("descending" if filters.descending else "ascending") if current else "",
+        })
+    return links
 
 
 @role_required(CREW)

@@ -1,0 +1,342 @@
+"""What the home page shows: the fleet at a glance, per site and for all the user's sites.
+
+Everything is read in a fixed number of queries whatever the fleet size: one row per battery with
+its latest figures, then one grouped or bucketed query per chart. Time buckets (weeks, months) are
+computed as SQL range filters rather than TruncWeek/TruncMonth, because on SQLite those truncations
+run a Python function for every row.
+"""
+import datetime as dt
+from collections import Counter, defaultdict
+from decimal import Decimal
+from urllib.parse import urlencode
+
+from django.db.models import Count, OuterRef, Q, Subquery, Sum
+from django.urls import reverse
+from django.utils import timezone
+
+from fleetcare import charts
+from fleetcare.fleet import selectors as fleet
+from fleetcare.fleet.models import Battery, Fitting
+from fleetcare.readings.models import Inspection, WaterTopUp
+
+try:  # findings come from the care app; the page works without it
+    from fleetcare.care.models import Finding
+except ImportError:  # pragma: no cover - only before the care app has its models
+    Finding = None
+try:
+    from fleetcare.care.policy import BY_NAME as CARE_THRESHOLDS
+except ImportError:  # pragma: no cover
+    CARE_THRESHOLDS = {}
+
+
+def _care_default(name, fallback):
+    threshold = CARE_THRESHOLDS.get(name)
+    return threshold.default if threshold is not None else fallback
+
+
+# Fleet-wide chart guides use the findings policy's built-in defaults (a site's own override still
+# drives its findings; the charts only draw the guide line and count events against it).
+DEEP_DISCHARGE_SOC = _care_default("deep_discharge_soc_percent", Decimal("20"))  # field notes: 80 % DoD, common practice
+EQUALIZE_SPREAD_SG = _care_default("equalize_spread_sg", Decimal("0.020"))  # field notes: common practice
+
+SHOWN_STATUSES = (Battery.Status.IN_SERVICE, Battery.Status.CHARGING, Battery.Status.SPARE, Battery.Status.REPAIR)
+FINDINGS_WEEKS = 26
+WATER_MONTHS = 12
+DEEP_DISCHARGE_DAYS = 90
+SPREAD_WEEKS = 26
+WORST_BATTERIES = 5
+OUTLIER_LABELS_PER_MONTH = 3
+ALL_SITES = "all"
+
+
+def overview(batteries, sites, scope=None, now=None):
+    """The whole home page. batteries: the user's visible batteries; sites: their visible sites (a
+    list); scope: one of those sites to narrow the charts to, or None for all of them."""
+    now = now or timezone.now()
+    today = timezone.localdate(now)
+    batteries = batteries.active()
+    rows = _battery_rows(batteries, now, today)
+    in_scope = [r for r in rows if scope is None or r["site_id"] == scope.pk]
+    scoped = batteries if scope is None else batteries.filter(site=scope)
+    finding_counts = _open_findings_by_site_and_kind(batteries)
+    return {
+        "columns": [{"code": s.code, "name": s.name} for s in sites] + [{"code": "", "name": "All my sites"}],
+        "sections": _sections(rows, sites, finding_counts),
+        "battery_count": len(in_scope),
+        "scope": scope,
+        "soc_chart": _soc_chart(in_scope, sites if scope is None else [scope]),
+        "findings_ready": Finding is not None,
+        "findings_chart": _findings_chart(scoped, now),
+        "water_chart": _water_chart(scoped, in_scope, now),
+        "deep_discharge_chart": _deep_discharge_chart(scoped, now),
+        "spread_chart": _spread_chart(in_scope, now),
+    }
+
+
+def _battery_rows(batteries, now, today):
+    """One dict per battery with what the counts need: its latest SOC, care dates and latest spread."""
+    current = Inspection.objects.current().filter(battery=OuterRef("pk")).order_by("-taken_at")
+    post_charge_all = current.post_charge().filter(scope=Inspection.Scope.ALL_CELLS, sg_spread__isnull=False)
+    rows = list(
+        fleet.with_last_care(batteries)
+        .annotate(
+            latest_soc=Subquery(current.values("soc_percent")[:1]),
+            latest_post_charge_spread=Subquery(post_charge_all.values("sg_spread")[:1]),
+        )
+        .values(
+            "pk", "serial", "site_id", "status", "in_service_date", "latest_soc", "latest_post_charge_spread",
+            "last_equalized", "last_watered", "profile__technology", "profile__equalizing_allowed",
+            "profile__watering_allowed", "profile__design_life_years", "profile__monoblocks",
+            "profile__cells_per_block",
+        )
+        .order_by("serial")
+    )
+    for r in rows:
+        flooded = r["profile__technology"] == "flooded"
+        r["soc_band"] = fleet.soc_band(r["latest_soc"])
+        r["overdue_equalizing"] = fleet.is_stopgap_overdue(
+            "equalizing", flooded=flooded, allowed=r["profile__equalizing_allowed"], last_done=r["last_equalized"], now=now)
+        r["overdue_watering"] = fleet.is_stopgap_overdue(
+            "watering", flooded=flooded, allowed=r["profile__watering_allowed"], last_done=r["last_watered"], now=now)
+        r["past_life"] = fleet.is_past_design_life(r["in_service_date"], r["profile__design_life_years"], today)
+        r["cells"] = r["profile__monoblocks"] * r["profile__cells_per_block"]
+        r["waterable"] = flooded and r["profile__watering_allowed"]
+    return rows
+
+
+def _open_findings_by_site_and_kind(batteries):
+    if Finding is None:
+        return {}
+    grouped = (
+        Finding.objects.active().filter(battery__in=batteries)
+        .values("battery__site_id", "kind").annotate(n=Count("battery", distinct=True)).order_by()
+    )
+    return {(g["battery__site_id"], g["kind"]): g["n"] for g in grouped}
+
+
+def _list_url(params, site_code):
+    query = dict(params)
+    if site_code:
+        query["site"] = site_code
+    return reverse("fleet:batteries") + "?" + urlencode(query)
+
+
+def _sections(rows, sites, finding_counts):
+    """The count table: sections of measures, each measure a row of counts per site and in all."""
+    measures = {"status": [], "soc": [], "findings": [], "care": []}
+    for status in SHOWN_STATUSES:
+        measures["status"].append((Battery.Status(status).label, {"status": status}, lambda r, s=status: r["status"] == s, False))
+    for key, label in fleet.SOC_BAND_LABELS.items():
+        measures["soc"].append((label, {"soc": key}, lambda r, k=key: r["soc_band"] == k, key in ("below20", "20to50")))
+    measures["care"] = [
+        ("Equalizing overdue", {"overdue": "equalizing"}, lambda r: r["overdue_equalizing"], True),
+        ("Watering overdue", {"overdue": "watering"}, lambda r: r["overdue_watering"], True),
+        ("Past design life", {"past_life": "1"}, lambda r: r["past_life"], True),
+    ]
+    counts = Counter()
+    for r in rows:
+        for group in ("status", "soc", "care"):
+            for label, _params, test, _attention in measures[group]:
+                if test(r):
+                    counts[(r["site_id"], label)] += 1
+    def cells(label, params, count_for):
+        out = [{"count": count_for(s.pk), "url": _list_url(params, s.code), "where": s.name} for s in sites]
+        out.append({"count": sum(c["count"] for c in out), "url": _list_url(params, ""), "where": "all my sites"})
+        return out
+
+    sections = []
+    for title, group, note in (
+        ("Batteries by status", "status", ""),
+        ("State of charge at the latest reading", "soc", "Below 20 %: over-discharged. Below 50 %: sulfates if left standing."),
+    ):
+        sections.append({"title": title, "note": note, "rows": [
+            {"label": label, "attention": attention, "cells": cells(label, params, lambda pk, lb=label: counts[(pk, lb)])}
+            for label, params, _test, attention in measures[group]
+        ]})
+    findings_rows = []
+    if Finding is not None:
+        for kind, label in Finding.Kind.choices:
+            row_cells = cells(label, {"finding": kind}, lambda pk, k=kind: finding_counts.get((pk, k), 0))
+            if row_cells[-1]["count"]:
+                findings_rows.append({"label": label, "attention": True, "cells": row_cells})
+    sections.append({
+        "title": "Open findings (batteries)", "rows": findings_rows,
+        "note": "None open." if Finding is not None and not findings_rows else ("" if Finding is not None else "Findings are not set up yet."),
+    })
+    sections.append({
+        "title": "Care", "note": f"Overdue: flooded batteries with nothing logged in {fleet.STOPGAP_CARE_INTERVAL_DAYS} days.",
+        "rows": [{"label": label, "attention": attention, "cells": cells(label, params, lambda pk, lb=label: counts[(pk, lb)])}
+                 for label, params, _test, attention in measures["care"]],
+    })
+    return sections
+
+
+def _soc_chart(rows, sites):
+    if not rows:
+        return None
+    bands = list(fleet.SOC_BAND_LABELS)
+    stacks = []
+    for site in sites:
+        per_band = Counter(r["soc_band"] for r in rows if r["site_id"] == site.pk)
+        if per_band:
+            stacks.append((site.name, [per_band[b] for b in bands], None))
+    return charts.stacked_bars(
+        [fleet.SOC_BAND_SHORT[b] for b in bands], stacks,
+        "State of charge now<br><sup>each battery at its latest reading, stacked by site</sup>", "Batteries",
+    )
+
+
+def _week_starts(now, weeks):
+    """Monday 00:00 (current time zone) of each of the last `weeks` weeks, oldest first, plus the next Monday."""
+    local = timezone.localtime(now)
+    monday = (local - dt.timedelta(days=local.weekday())).replace(hour=0, minute=0, second=0, microsecond=0)
+    return [monday - dt.timedelta(weeks=n) for n in range(weeks - 1, -1, -1)] + [monday + dt.timedelta(weeks=1)]
+
+
+def _month_starts(now, months):
+    """The first instant of each of the last `months` complete months, oldest first, plus this month's."""
+    local = timezone.localtime(now)
+    first = local.replace(day=1, hour=0, minute=0, second=0, microsecond=0)
+    starts = [first]
+    for _ in range(months):
+        previous = (starts[0] - dt.timedelta(days=1)).replace(day=1)
+        starts.insert(0, previous)
+    return starts
+
+
+def _buckets(field, edges, aggregate):
+    """Aggregates named b0, b1, ... over the rows whose `field` falls in [edges[i], edges[i+1])."""
+    return {
+        f"b{i}": aggregate(Q(**{f"{field}__gte": edges[i], f"{field}__lt": edges[i + 1]}))
+        for i in range(len(edges) - 1)
+    }
+
+
+def _findings_chart(batteries, now):
+    if Finding is None:
+        return None
+    edges = _week_starts(now, FINDINGS_WEEKS)
+    opened = _buckets("opened_at", edges, lambda q: Count("pk", filter=q))
+    cleared = _buckets("cleared_at", edges, lambda q: Count("pk", filter=q))
+    totals = Finding.objects.filter(battery__in=batteries).filter(
+        Q(opened_at__gte=edges[0]) | Q(cleared_at__gte=edges[0])
+    ).aggregate(**{f"o{k}": v for k, v in opened.items()}, **{f"c{k}": v for k, v in cleared.items()})
+    if not any(totals.values()):
+        return None
+    weeks = [e.date().isoformat() for e in edges[:-1]]
+    n = len(weeks)
+    return charts.stacked_bars(
+        weeks,
+        [("Opened", [totals[f"ob{i}"] for i in range(n)], "/"), ("Cleared", [totals[f"cb{i}"] for i in range(n)], ".")],
+        f"Findings per week<br><sup>opened and cleared, last {FINDINGS_WEEKS} weeks (bars start on Monday)</sup>",
+        "Findings", barmode="group",
+    )
+
+
+def _outliers(values):
+    """Indices of the values outside Tukey's fences (none for fewer than four values)."""
+    if len(values) < 4:
+        return []
+    _q1, _median, _q3, low, high = charts.tukey_fences(values)
+    return [i for i, v in enumerate(values) if v < low or v > high]
+
+
+def _water_chart(batteries, rows, now):
+    """Water per cell per month for each waterable battery in service: a box per month, outliers named.
+    A flooded battery in service with no water logged in a month counts as zero (missed watering)."""
+    edges = _month_starts(now, WATER_MONTHS)
+    waterable = {r["pk"]: r for r in rows if r["waterable"]}
+    if not waterable:
+        return None
+    sums = (
+        WaterTopUp.objects.current().filter(battery__in=batteries, done_at__gte=edges[0], done_at__lt=edges[-1])
+        .values("battery_id").order_by()
+        .annotate(**_buckets("done_at", edges, lambda q: Sum("volume_ml", filter=q)))
+    )
+    by_battery = {s["battery_id"]: s for s in sums}
+    groups, outliers = [], []
+    for i in range(len(edges) - 1):
+        month = edges[i].strftime("%b %Y")
+        serials, values = [], []
+        for pk, r in waterable.items():
+            total = by_battery.get(pk, {}).get(f"b{i}")
+            in_use = r["status"] in (Battery.Status.IN_SERVICE, Battery.Status.CHARGING)
+            if total is None and not (in_use and r["in_service_date"] <= edges[i].date()):
+                continue
+            serials.append(r["serial"])
+            values.append(round(float(total or 0) / r["cells"], 1))
+        groups.append((month, values))
+        median = sorted(values)[len(values) // 2] if values else 0
+        flagged = sorted(_outliers(values), key=lambda j: -abs(values[j] - median))
+        for rank, j in enumerate(flagged):
+            outliers.append((month, values[j], serials[j] if rank < OUTLIER_LABELS_PER_MONTH else ""))
+    fig = charts.box_with_outliers(
+        groups, outliers,
+        f"Water added per cell per month<br><sup>one value per battery, last {WATER_MONTHS} complete months; "
+        "the box holds the middle half, ◆ named batteries stand out (1.5 × box height beyond it)</sup>",
+        "mL per cell", box_name="Batteries in service",
+    )
+    return fig
+
+
+def _fitting_at_taken(field):
+    open_then = Fitting.objects.filter(battery=OuterRef("battery_id"), fitted_at__lte=OuterRef("taken_at")).filter(
+        Q(removed_at__isnull=True) | Q(removed_at__gt=OuterRef("taken_at"))
+    ).order_by("-fitted_at")
+    return Subquery(open_then.values(field)[:1])
+
+
+def deep_discharge_by_truck_and_shift(batteries, since):
+    """{(asset number, shift): events}: readings in use or before charge under DEEP_DISCHARGE_SOC, each
+    counted against the truck and shift the battery was fitted to when it was read. One query."""
+    grouped = (
+        Inspection.objects.current()
+        .filter(battery__in=batteries, taken_at__gte=since, soc_percent__lt=DEEP_DISCHARGE_SOC,
+                situation__in=(Inspection.Situation.IN_USE, Inspection.Situation.BEFORE_CHARGE))
+        .annotate(truck=_fitting_at_taken("vehicle__asset_number"), shift=_fitting_at_taken("shift"))
+        .values("truck", "shift").annotate(n=Count("pk")).order_by()
+    )
+    return {(g["truck"] or "Not fitted", g["shift"] or "No shift set"): g["n"] for g in grouped}
+
+
+def _deep_discharge_chart(batteries, now):
+    counts = deep_discharge_by_truck_and_shift(batteries, now - dt.timedelta(days=DEEP_DISCHARGE_DAYS))
+    if not counts:
+        return None
+    per_truck = Counter()
+    for (truck, _shift), n in counts.items():
+        per_truck[truck] += n
+    trucks = [t for t, _n in sorted(per_truck.items(), key=lambda kv: (-kv[1], kv[0]))[:15]]
+    shifts = sorted({shift for _truck, shift in counts})
+    return charts.stacked_bars(
+        trucks, [(shift, [counts.get((t, shift), 0) for t in trucks], None) for shift in shifts],
+        f"Deep discharge by truck and shift<br><sup>readings under {DEEP_DISCHARGE_SOC:.0f} % in use or before charge, "
+        f"last {DEEP_DISCHARGE_DAYS} days</sup>",
+        "Readings", barmode="group",
+    )
+
+
+def _spread_chart(rows, now):
+    """Post-charge corrected-SG spread over time for the batteries whose latest spread is widest."""
+    worst = sorted((r for r in rows if r["latest_post_charge_spread"] is not None),
+                   key=lambda r: (-r["latest_post_charge_spread"], r["serial"]))[:WORST_BATTERIES]
+    if not worst:
+        return None
+    serial = {r["pk"]: r["serial"] for r in worst}
+    readings = (
+        Inspection.objects.current().post_charge()
+        .filter(battery_id__in=serial, scope=Inspection.Scope.ALL_CELLS, sg_spread__isnull=False,
+                taken_at__gte=now - dt.timedelta(weeks=SPREAD_WEEKS))
+        .order_by("taken_at").values_list("battery_id", "taken_at", "sg_spread")
+    )
+    series = defaultdict(lambda: ([], []))
+    for battery_id, taken_at, spread in readings:
+        series[battery_id][0].append(taken_at.isoformat())
+        series[battery_id][1].append(round(float(spread) * 1000))
+    fig = charts.line(
+        [(serial[pk], *series[pk]) for pk in serial if pk in series],
+        f"Spread after charge: the {len(worst)} widest<br><sup>corrected SG, all-cell readings, last {SPREAD_WEEKS} weeks</sup>",
+        "Spread (points of SG)", height=360,
+    )
+    guide = round(float(EQUALIZE_SPREAD_SG) * 1000)
+    return charts.reference_line(fig, guide, f"{guide} points: equalizing charge due")
