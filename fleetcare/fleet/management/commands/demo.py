@@ -1,6 +1,7 @@
 from django.core.management import call_command
 from django.core.management.base import BaseCommand
 
+from fleetcare.budget import demo as budget_demo
 from fleetcare.fleet import demo
 
 
@@ -17,6 +18,7 @@ class Command(BaseCommand):
             self.stdout.write(self.style.SUCCESS("Demo fleet loaded: two warehouses and a care residence, a year of readings."))
         else:
             self.stdout.write("Demo fleet already loaded; nothing added.")
+        budget_demo.load()
         self.stdout.write("Sign in at http://%s/accounts/login/ as:" % addrport)
         for username, first, last, role in demo.DEMO_USERS:
             self.stdout.write(f"  {role:<14} {username:<17} password {demo.DEMO_PASSWORD}")
