@@ -26,12 +26,13 @@ class ContentSecurityPolicyMiddleware:
     """Send settings.CONTENT_SECURITY_POLICY on every response, in every mode, so tests see what production sends."""
 
     def __init__(self, get_response):
-        self.header = "; ".join(
-            f"{directive} {' '.join(sources)}" for directive, sources in settings.CONTENT_SECURITY_POLICY.items()
-        )
         self.get_response = get_response
 
     def __call__(self, request):
         response = self.get_response(request)
-        response.headers.setdefault("Content-Security-Policy", self.header)
+        response.headers.setdefault("Content-Security-Policy", policy_header(settings.CONTENT_SECURITY_POLICY))
         return response
+
+
+def policy_header(policy):
+    return "; ".join(f"{directive} {' '.join(sources)}" for directive, sources in policy.items())
