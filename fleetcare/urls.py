@@ -1,6 +1,8 @@
 from django.contrib import admin
 from django.urls import include, path
 
+from fleetcare.api.views import service_worker
+
 urlpatterns = [
     path("", include("fleetcare.dashboard.urls")),
     path("accounts/", include("fleetcare.accounts.urls")),
@@ -10,5 +12,6 @@ urlpatterns = [
     path("budget/", include("fleetcare.budget.urls")),
     path("planner/", include("fleetcare.planner.urls")),
     path("api/", include("fleetcare.api.urls")),
+    path("sw.js", service_worker, name="service_worker"),
     path("admin/", admin.site.urls),
 ]

@@ -1,0 +1,150 @@
+"""The JSON API (django-ninja). Every operation needs the crew role and sees only the user's sites.
+
+Two ways in: the web app's session (unsafe methods need the CSRF token, as forms do) and per-user
+tokens for other programs (`Authorization: Bearer fc_...`, see fleetcare/api/tokens.py).
+"""
+from django.conf import settings
+from django.http import HttpRequest
+from ninja import NinjaAPI, Query, Schema, Status
+from ninja.errors import AuthorizationError, HttpError, ValidationError
+from ninja.security import APIKeyCookie, HttpBearer
+from ninja.utils import check_csrf
+
+from fleetcare.accounts.access import battery_or_404
+from fleetcare.accounts.roles import CREW, has_role
+from fleetcare.api import schemas, selectors, services
+from fleetcare.api.tokens import user_for_secret
+
+LEAST_ROLE = CREW
+SAFE_METHODS = ("GET", "HEAD", "OPTIONS")
+ERRORS = {401: schemas.ErrorOut, 403: schemas.ErrorOut}
+NOT_FOUND = {404: schemas.ErrorOut}
+
+
+def _with_role(user):
+    if user is None:
+        return None
+    if not has_role(user, LEAST_ROLE):
+        raise AuthorizationError(message=f"This needs the {LEAST_ROLE} role.")
+    return user
+
+
+class TokenAuth(HttpBearer):
+    """A per-user API token, sent as `Authorization: Bearer fc_...`."""
+
+    def authenticate(self, request, token):
+        user = _with_role(user_for_secret(token))
+        if user is not None:
+            request.user = user
+        return user
+
+
+class SessionAuth(APIKeyCookie):
+    """The web app's sign-in. Anonymous requests fall through to 401; unsafe methods need the CSRF token."""
+
+    param_name = settings.SESSION_COOKIE_NAME
+
+    def __call__(self, request: HttpRequest):
+        user = getattr(request, "user", None)
+        if user is None or not user.is_authenticated:
+            return None
+        if request.method not in SAFE_METHODS and check_csrf(request) is not None:
+            raise HttpError(403, "The form's security token is missing or stale: reload the page and send again.")
+        return _with_role(user)
+
+    def authenticate(self, request, key):  # pragma: no cover - __call__ does the work
+        return None
+
+
+api = NinjaAPI(
+    title="FleetCare API",
+    version="1",
+    description=(
+        "Batteries, profiles, readings and water top-ups for the sites you belong to. "
+        "Sign in with the web app's session (send the CSRF token in X-CSRFToken on POST) or with a personal "
+        "token: `Authorization: Bearer fc_...`. Submissions are idempotent by client_uuid: sending the same "
+        "submission again stores nothing new and gets the same answer."
+    ),
+    auth=[TokenAuth(), SessionAuth()],
+    urls_namespace="api",
+    docs_url=None,
+    openapi_url="/openapi.json",
+)
+
+
+def _field_key(loc):
+    parts = [str(p) for p in loc]
+    if parts and parts[0] in ("body", "query", "path"):
+        parts = parts[1:]
+    if len(parts) > 1 and parts[0] == "payload":
+        parts = parts[1:]
+    return ".".join(parts) or "__all__"
+
+
+@api.exception_handler(ValidationError)
+def _invalid(request, exc):
+    errors = {}
+    for error in exc.errors:
+        errors.setdefault(_field_key(error.get("loc", ())), []).append(str(error.get("msg", "Invalid value.")))
+    return api.create_response(request, {"detail": services.NOT_SAVED, "errors": errors}, status=422)
+
+
+class BatteryFilter(Schema):
+    site: str | None = None
+    include_retired: bool = False
+
+
+@api.get("/sites", response={200: list[schemas.SiteOut], **ERRORS}, url_name="sites", summary="Your sites")
+def list_sites(request):
+    return selectors.sites_for(request.auth)
+
+
+@api.get("/batteries", response={200: list[schemas.BatteryOut], **ERRORS}, url_name="batteries",
+         summary="Batteries at your sites")
+def list_batteries(request, filters: Query[BatteryFilter]):
+    """Batteries at your sites, by serial; retired ones only with include_retired=true."""
+    return selectors.batteries_for(request.auth, site_code=filters.site, include_retired=filters.include_retired)
+
+
+@api.get("/profiles", response={200: list[schemas.ProfileOut], **ERRORS}, url_name="profiles",
+         summary="Battery profiles in use at your sites")
+def list_profiles(request):
+    return selectors.profiles_for(request.auth)
+
+
+@api.get("/batteries/{battery_id}/status", response={200: schemas.StatusOut, **ERRORS, **NOT_FOUND},
+         url_name="battery_status", summary="A battery's latest state")
+def battery_status(request, battery_id: int):
+    """Latest state of charge and spread, open findings and the next planned work."""
+    return selectors.battery_status(battery_or_404(request.auth, battery_id))
+
+
+SUBMIT_RESPONSES = {201: None, 409: schemas.ErrorOut, 422: schemas.ErrorOut, **ERRORS, **NOT_FOUND}
+
+
+@api.post("/batteries/{battery_id}/inspections",
+          response={**SUBMIT_RESPONSES, 201: schemas.InspectionOut}, url_name="submit_inspection",
+          summary="Store an inspection (idempotent by client_uuid)")
+def submit_inspection(request, battery_id: int, payload: schemas.InspectionIn):
+    """Checked exactly as the tablet form checks it; errors come back per field with the form's messages.
+
+    409: the battery was retired, or the client_uuid belongs to another battery's reading.
+    """
+    battery = battery_or_404(request.auth, battery_id)
+    status, body = services.submit_inspection(user=request.auth, battery=battery, payload=payload)
+    return Status(status, body)
+
+
+@api.post("/batteries/{battery_id}/top-ups",
+          response={**SUBMIT_RESPONSES, 201: schemas.TopUpOut}, url_name="submit_top_up",
+          summary="Store a water top-up (idempotent by client_uuid)")
+def submit_top_up(request, battery_id: int, payload: schemas.TopUpIn):
+    battery = battery_or_404(request.auth, battery_id)
+    status, body = services.submit_top_up(user=request.auth, battery=battery, payload=payload)
+    return Status(status, body)
+
+
+@api.get("/offline/pages", response={200: schemas.OfflinePagesOut, **ERRORS}, url_name="offline_pages",
+         summary="Pages a tablet keeps for working without a connection")
+def offline_pages(request):
+    return {"pages": selectors.offline_pages(request.auth), "assets": selectors.offline_assets()}

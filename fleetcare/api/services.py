@@ -1,0 +1,124 @@
+"""Submissions through the API: the tablet forms' own validation, then the readings services.
+
+Each returns (status, body). A client UUID already stored answers with that stored record, whatever
+happened since (the battery retired, the form changed): the first answer is the answer.
+"""
+from django.utils import timezone
+
+from fleetcare.api import selectors
+from fleetcare.fleet.models import Battery
+from fleetcare.readings.forms import InspectionForm, TopUpForm
+from fleetcare.readings.models import Inspection, WaterTopUp
+from fleetcare.readings.services import record_inspection, record_top_up
+
+NOT_SAVED = "Nothing was saved: fix the fields listed and send again."
+
+
+def _text(value):
+    return "" if value is None else str(value)
+
+
+def _rejected(status, detail, errors):
+    return status, {"detail": detail, "errors": errors}
+
+
+def _replay_or_conflict(existing, battery, what):
+    if existing.battery_id != battery.pk:
+        return _rejected(409, f"This client_uuid was already used for a {what} of another battery.", {
+            "client_uuid": [f"Already used for a {what} of another battery: make a new one for this {what}."],
+        })
+    return None
+
+
+def _retired(battery, what):
+    if battery.status == Battery.Status.RETIRED:
+        message = f"{battery.serial} was retired: it takes no more {what}. Check the serial number."
+        return _rejected(409, message, {"__all__": [message]})
+    return None
+
+
+def inspection_form_data(payload, profile):
+    """The tablet form's POST data for a JSON inspection, and errors the form cannot see (unknown cells)."""
+    data = {
+        "client_uuid": str(payload.client_uuid), "situation": payload.situation, "scope": payload.scope,
+        "taken_at": payload.taken_at, "temp": _text(payload.temp), "hours_since_charge": _text(payload.hours_since_charge),
+        "notes": payload.notes,
+    }
+    if payload.hydrometer_compensated:
+        data["hydrometer_compensated"] = "on"
+    errors, seen = [], set()
+    unit = "block" if profile.reads_by_block else "cell"
+    for cell in payload.cells:
+        p = cell.position
+        if p > profile.positions:
+            errors.append(f"There is no {unit} {p}: this battery has {profile.positions} {unit}s.")
+            continue
+        if p in seen:
+            errors.append(f"{unit.capitalize()} {p} is sent twice.")
+            continue
+        seen.add(p)
+        if profile.reads_by_block:
+            if cell.sg is not None:
+                errors.append(f"Block {p}: sealed blocks are read by voltage (volts), not SG.")
+            data[f"volts_{p}"] = _text(cell.volts)
+        else:
+            if cell.volts is not None:
+                errors.append(f"Cell {p}: send the SG (sg); cell voltages are not taken here.")
+            data[f"sg_{p}"] = _text(cell.sg)
+            if cell.low:
+                data[f"low_{p}"] = "on"
+    return data, ({"cells": errors} if errors else {})
+
+
+def submit_inspection(*, user, battery, payload):
+    existing = Inspection.objects.filter(client_uuid=payload.client_uuid).first()
+    if existing is not None:
+        return _replay_or_conflict(existing, battery, "reading") or (201, selectors.inspection_row(
+            selectors.stored_inspection(existing.pk)))
+    refused = _retired(battery, "readings")
+    if refused:
+        return refused
+    data, extra_errors = inspection_form_data(payload, battery.profile)
+    with timezone.override(battery.site.tzinfo):
+        form = InspectionForm(data, battery=battery)
+        valid = form.is_valid()
+    if not valid or extra_errors:
+        errors = {name: list(messages) for name, messages in form.errors.items()}
+        errors.update(extra_errors)
+        return _rejected(422, NOT_SAVED, errors)
+    inspection, _ = record_inspection(battery=battery, user=user, **form.record_kwargs())
+    if inspection.battery_id != battery.pk:
+        return _replay_or_conflict(inspection, battery, "reading")
+    return 201, selectors.inspection_row(selectors.stored_inspection(inspection.pk))
+
+
+def submit_top_up(*, user, battery, payload):
+    existing = WaterTopUp.objects.filter(client_uuid=payload.client_uuid).first()
+    if existing is not None:
+        return _replay_or_conflict(existing, battery, "top-up") or (201, selectors.top_up_row(
+            selectors.stored_top_up(existing.pk)))
+    refused = _retired(battery, "water")
+    if refused:
+        return refused
+    data = {
+        "client_uuid": str(payload.client_uuid), "done_at": payload.done_at, "volume": _text(payload.volume),
+        "water_type": payload.water_type, "notes": payload.notes,
+    }
+    if payload.per_cell:
+        data["per_cell"] = "on"
+    if payload.before_charge:
+        data["before_charge"] = "on"
+    with timezone.override(battery.site.tzinfo):
+        form = TopUpForm(data, battery=battery)
+        valid = form.is_valid()
+    if not valid:
+        return _rejected(422, NOT_SAVED, {name: list(messages) for name, messages in form.errors.items()})
+    clean = form.cleaned_data
+    top_up, _ = record_top_up(
+        battery=battery, user=user, done_at=clean["done_at"], volume_ml=clean["volume_ml"],
+        volume_entered=clean["volume_entered"], before_charge=clean["before_charge"],
+        water_type=clean["water_type"], notes=clean["notes"], client_uuid=clean["client_uuid"],
+    )
+    if top_up.battery_id != battery.pk:
+        return _replay_or_conflict(top_up, battery, "top-up")
+    return 201, selectors.top_up_row(selectors.stored_top_up(top_up.pk))
