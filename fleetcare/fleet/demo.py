@@ -241,7 +241,7 @@ def _sealed_history(rng, today, crew, b, inspections, cells_per):
         age = (today - day).days
         entries = []
         for block in range(1, profile.monoblocks + 1):
-            volts = rng.uniform(12.70, 12.85)
+            volts = rng.uniform(12.74, 12.82)  # a matched pair rests within a few hundredths of a volt
             if chair == WEAK_CHAIR and block == 2 and age < 90:
                 volts -= 0.12 + (90 - age) * 0.003
             entries.append(CellEntry(position=block, volts=Decimal(str(round(volts, 2)))))

@@ -2,6 +2,7 @@ from django.core.management import call_command
 from django.core.management.base import BaseCommand
 
 from fleetcare.budget import demo as budget_demo
+from fleetcare.care.detection import detect_fleet
 from fleetcare.fleet import demo
 
 
@@ -16,6 +17,8 @@ class Command(BaseCommand):
         call_command("migrate", interactive=False, verbosity=0)
         if demo.load():
             self.stdout.write(self.style.SUCCESS("Demo fleet loaded: two warehouses and a care residence, a year of readings."))
+            found = detect_fleet()
+            self.stdout.write(f"Checked the fleet: {len(found)} open findings (see Findings in the menu).")
         else:
             self.stdout.write("Demo fleet already loaded; nothing added.")
         budget_demo.load()
