@@ -1,7 +1,7 @@
 from django.contrib.auth import get_user_model
 from django.core.management.base import BaseCommand, CommandError
 
-from fleetcare.fleet.models import Battery
+from fleetcare.accounts.access import visible_batteries
 from fleetcare.readings.csv_io import import_readings
 
 
@@ -24,7 +24,7 @@ class Command(BaseCommand):
                 text = handle.read()
         except (OSError, UnicodeDecodeError) as exc:
             raise CommandError(f"Cannot read {file}: {exc}") from exc
-        report = import_readings(text, user=reader, batteries=Battery.objects.all(),
+        report = import_readings(text, user=reader, batteries=visible_batteries(reader),
                                  good_rows_only=good_rows_only, dry_run=dry_run)
         for line, message in report.errors:
             self.stderr.write(f"line {line}: {message}")
