@@ -1,0 +1,477 @@
+"""Load test on loopback: 50 tablets submit inspections through the web form to gunicorn on PostgreSQL.
+
+    DATABASE_URL=postgres://postgres@127.0.0.1:5432/fc_load python tests/load/run_load.py [--outage database|server]
+
+It drops and creates its own database (the name in DATABASE_URL, fc_load by default; never "fleetcare"),
+loads 50 batteries and 50 crew logins, starts gunicorn (2 workers by default) on 127.0.0.1, and runs:
+
+1. steady: every tablet signs in, then for --seconds (60) loops: GET the entry page for the CSRF
+   token, POST a 24-cell inspection with a client UUID of its own; about 10 % are sent twice at
+   once (a double tap), about 5 % lose their answer and are sent again on the next round (a retry).
+2. outage (with --outage): the same traffic while PostgreSQL goes away for a few seconds in the
+   middle: "database" refuses connections to this database only (harmless to anyone else);
+   "server" stops and starts the PostgreSQL cluster (pg_ctlcluster), which every user of it notices.
+   A tablet whose submission fails keeps it and resends it later with the same UUID.
+
+Afterwards it checks that the stored inspections are exactly the distinct UUIDs the tablets had
+confirmed, each with all 24 cells, no UUID twice and none the tablets never sent; that the steady
+phase had no errors; and prints p50/p95/p99 latency. Every loop is bounded in count and in time;
+only 127.0.0.1 is contacted. Exit status 0 when every check passes.
+"""
+import argparse
+import datetime as dt
+import http.client
+import http.cookiejar
+import json
+import os
+import random
+import re
+import signal
+import socket
+import statistics
+import subprocess
+import sys
+import threading
+import time
+import urllib.error
+import urllib.parse
+import urllib.request
+import uuid
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[2]
+sys.path.insert(0, str(ROOT))
+
+HOST = "127.0.0.1"
+PASSWORD = "load-test-password-5"
+CELLS = 24
+MAX_ROUNDS = 5_000           # per tablet and phase, whatever the clock says
+MAX_ATTEMPTS = 200           # per submission
+REQUEST_TIMEOUT_S = 15
+CSRF_INPUT = re.compile(r'name="csrfmiddlewaretoken" value="([^"]+)"')
+RESULT_URL = re.compile(r"/readings/inspection/(\d+)/$")
+
+
+class NoRedirect(urllib.request.HTTPRedirectHandler):
+    def redirect_request(self, *args, **kwargs):
+        return None
+
+
+class Stats:
+    def __init__(self):
+        self.lock = threading.Lock()
+        self.latency = {"get": [], "post": []}
+        self.outcomes = {}
+        self.errors = []
+
+    def add(self, kind, seconds, outcome):
+        with self.lock:
+            self.latency[kind].append(seconds)
+            key = f"{kind} {outcome}"
+            self.outcomes[key] = self.outcomes.get(key, 0) + 1
+
+    def error(self, text):
+        with self.lock:
+            if len(self.errors) < 50:
+                self.errors.append(text)
+
+
+class Tablet:
+    """One crew member's tablet: a cookie jar, one battery, a list of submissions waiting to be confirmed."""
+
+    def __init__(self, base, username, battery_pk, stats, rng):
+        self.base, self.username, self.battery_pk, self.stats, self.rng = base, username, battery_pk, stats, rng
+        self.jar = http.cookiejar.CookieJar()
+        self.opener = urllib.request.build_opener(urllib.request.HTTPCookieProcessor(self.jar), NoRedirect)
+        self.pending = []          # submissions not yet confirmed, resent with the same UUID
+        self.confirmed = {}        # uuid -> inspection id the server answered
+        self.sent = set()          # every UUID ever posted
+        self.signed_in = False
+
+    def request(self, kind, path, data=None):
+        """(status, location or body); status 0 for a refused or broken connection."""
+        body = urllib.parse.urlencode(data).encode() if data is not None else None
+        req = urllib.request.Request(self.base + path, data=body)
+        started = time.perf_counter()
+        try:
+            with self.opener.open(req, timeout=REQUEST_TIMEOUT_S) as response:
+                status, text = response.status, response.read().decode("utf-8", "replace")
+        except urllib.error.HTTPError as exc:
+            status, text = exc.code, exc.headers.get("Location") or exc.read().decode("utf-8", "replace")
+        except (urllib.error.URLError, ConnectionError, socket.timeout, TimeoutError, http.client.HTTPException) as exc:
+            status, text = 0, repr(exc)
+        self.stats.add(kind, time.perf_counter() - started, status)
+        return status, text
+
+    def sign_in(self):
+        status, page = self.request("get", "/accounts/login/")
+        token = CSRF_INPUT.search(page) if status == 200 else None
+        if not token:
+            return False
+        status, location = self.request("post", "/accounts/login/", {
+            "csrfmiddlewaretoken": token.group(1), "username": self.username, "password": PASSWORD, "next": "/",
+        })
+        self.signed_in = status == 302 and "/accounts/login/" not in location
+        return self.signed_in
+
+    def new_submission(self):
+        taken = dt.datetime.now() - dt.timedelta(minutes=self.rng.randint(1, 600))
+        cells = {f"sg_{p}": str(self.rng.randint(262, 292)) for p in range(1, CELLS + 1)}
+        return {
+            "client_uuid": str(uuid.uuid4()), "situation": "charged", "scope": "all",
+            "taken_at": taken.strftime("%Y-%m-%dT%H:%M"), "temp": str(self.rng.randint(18, 34)), "notes": "load test",
+            "attempts": 0, **cells,
+        }
+
+    def submit(self, submission):
+        """Send once; True when the server confirmed it (a redirect to the stored inspection)."""
+        submission["attempts"] += 1
+        status, page = self.request("get", f"/readings/battery/{self.battery_pk}/inspect/")
+        if status in (302, 403) and not self.sign_in():
+            return False
+        if status != 200:
+            status, page = self.request("get", f"/readings/battery/{self.battery_pk}/inspect/")
+            if status != 200:
+                return False
+        token = CSRF_INPUT.search(page)
+        if not token:
+            self.stats.error(f"{self.username}: entry page without a CSRF token")
+            return False
+        form = {k: v for k, v in submission.items() if k != "attempts"}
+        form["csrfmiddlewaretoken"] = token.group(1)
+        self.sent.add(submission["client_uuid"])
+        status, location = self.request("post", f"/readings/battery/{self.battery_pk}/inspect/", form)
+        match = RESULT_URL.search(location) if status == 302 else None
+        if not match:
+            if status == 200:
+                self.stats.error(f"{self.username}: form refused: {location[:200]}")
+            return False
+        inspection_id = int(match.group(1))
+        previous = self.confirmed.setdefault(submission["client_uuid"], inspection_id)
+        if previous != inspection_id:
+            self.stats.error(f"{submission['client_uuid']} answered {previous} then {inspection_id}")
+        return True
+
+    def run(self, until, think_s, stop_event):
+        """One phase: new submissions, double taps and lost answers, resending whatever is pending."""
+        for _ in range(MAX_ROUNDS):
+            if time.monotonic() >= until or stop_event.is_set():
+                break
+            if not self.signed_in and not self.sign_in():
+                time.sleep(self.rng.uniform(0.5, 1.5))
+                continue
+            self.flush_pending(limit=3)
+            submission = self.new_submission()
+            roll = self.rng.random()
+            if self.submit(submission):
+                if roll < 0.10:          # double tap: the same form posted again at once
+                    self.submit(submission)
+                elif roll < 0.15:        # the answer got lost: the tablet will send it again later
+                    self.pending.append(submission)
+            else:
+                self.pending.append(submission)
+            time.sleep(self.rng.uniform(0.5, 1.5) * think_s)
+
+    def flush_pending(self, limit):
+        for submission in list(self.pending)[:limit]:
+            if submission["attempts"] >= MAX_ATTEMPTS:
+                continue
+            if self.submit(submission):
+                self.pending.remove(submission)
+            else:
+                break
+
+    def drain(self, until):
+        for _ in range(MAX_ROUNDS):
+            if not self.pending or time.monotonic() >= until:
+                break
+            if not self.signed_in:
+                self.sign_in()
+            self.flush_pending(limit=len(self.pending))
+            if self.pending:
+                time.sleep(self.rng.uniform(0.5, 1.5))
+
+
+def percentile(values, p):
+    if not values:
+        return None
+    ordered = sorted(values)
+    return ordered[min(len(ordered) - 1, int(round(p / 100 * (len(ordered) - 1))))]
+
+
+def latency_ms(values):
+    return {f"p{p}": round(percentile(values, p) * 1000, 1) for p in (50, 95, 99)} | {"count": len(values)} if values else {}
+
+
+# --- the database and the server -------------------------------------------------------------------
+
+def setup_django():
+    os.environ.setdefault("DJANGO_SETTINGS_MODULE", "fleetcare.settings")
+    import django
+
+    django.setup()
+
+
+def admin_sql(database_url, sql):
+    import psycopg2
+
+    parts = urllib.parse.urlparse(database_url)
+    conn = psycopg2.connect(host=parts.hostname, port=parts.port or 5432, user=parts.username or "postgres",
+                            password=parts.password, dbname="postgres")
+    conn.autocommit = True
+    try:
+        with conn.cursor() as cursor:
+            cursor.execute(sql)
+    finally:
+        conn.close()
+
+
+def create_world(tablets):
+    """One warehouse, one 24-cell battery and one crew login per tablet; returns [(username, battery pk)]."""
+    from django.contrib.auth import get_user_model
+    from django.core.management import call_command
+    from decimal import Decimal
+
+    from fleetcare.accounts.roles import CREW, ensure_groups
+    from fleetcare.fleet.models import Battery, BatteryProfile, ChargingRoom, Site
+
+    call_command("migrate", verbosity=0, interactive=False)
+    group = ensure_groups()[CREW]
+    site = Site.objects.create(name="Load-test warehouse", code="load", timezone="UTC")
+    room = ChargingRoom.objects.create(site=site, name="Room 1", chargers=8, equalizing_chargers=2)
+    profile = BatteryProfile.objects.create(
+        name="48 V 24-cell 775 Ah (load test)", nominal_voltage=48, monoblocks=1, cells_per_block=CELLS,
+        capacity_ah=775, full_charge_sg=Decimal("1.290"), discharged_sg=Decimal("1.140"),
+    )
+    world = []
+    user_model = get_user_model()
+    for n in range(1, tablets + 1):
+        user = user_model.objects.create_user(f"tablet{n:02d}", password=PASSWORD)
+        user.groups.add(group)
+        site.members.add(user)
+        battery = Battery.objects.create(serial=f"LT-{n:03d}", profile=profile, site=site, charging_room=room,
+                                         in_service_date=dt.date(2025, 1, 1))
+        world.append((user.username, battery.pk))
+    return world
+
+
+def free_port():
+    with socket.socket() as s:
+        s.bind((HOST, 0))
+        return s.getsockname()[1]
+
+
+def start_gunicorn(port, workers, threads, env):
+    command = [str(Path(sys.executable).with_name("gunicorn")), "fleetcare.wsgi:application", "--bind", f"{HOST}:{port}",
+               "--workers", str(workers), "--threads", str(threads), "--timeout", "30", "--graceful-timeout", "5",
+               "--access-logfile", "-", "--error-logfile", "-", "--log-level", "warning"]
+    log = open(ROOT / "test-artifacts" / "load-gunicorn.log", "w")
+    process = subprocess.Popen(command, cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT, start_new_session=True)
+    deadline = time.monotonic() + 30
+    while time.monotonic() < deadline:
+        try:
+            with socket.create_connection((HOST, port), timeout=1):
+                return process
+        except OSError:
+            time.sleep(0.3)
+    process.terminate()
+    raise SystemExit("gunicorn did not start within 30 s; see test-artifacts/load-gunicorn.log")
+
+
+def stop_gunicorn(process):
+    if process.poll() is None:
+        os.killpg(process.pid, signal.SIGTERM)
+        try:
+            process.wait(timeout=15)
+        except subprocess.TimeoutExpired:
+            os.killpg(process.pid, signal.SIGKILL)
+
+
+class Outage:
+    """Takes PostgreSQL away for `seconds`, `after` seconds into the phase, and brings it back."""
+
+    def __init__(self, mode, database_url, database, after, seconds):
+        self.mode, self.database_url, self.database = mode, database_url, database
+        self.after, self.seconds = after, seconds
+        self.log = []
+
+    def note(self, text):
+        self.log.append(f"{time.strftime('%H:%M:%S')} {text}")
+
+    def run(self):
+        time.sleep(self.after)
+        started = time.monotonic()
+        if self.mode == "server":
+            version = sorted(os.listdir("/etc/postgresql"))[0]
+            self.note(f"pg_ctlcluster {version} main stop")
+            subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", "stop", "-m", "fast"], check=True)
+            time.sleep(self.seconds)
+            self.note(f"pg_ctlcluster {version} main start")
+            subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", "start"], check=True)
+            for _ in range(60):
+                if subprocess.run(["pg_isready", "-q", "-h", HOST]).returncode == 0:
+                    break
+                time.sleep(0.5)
+        else:
+            self.note(f"refusing connections to {self.database} and closing the open ones")
+            admin_sql(self.database_url, f'ALTER DATABASE "{self.database}" ALLOW_CONNECTIONS false')
+            admin_sql(self.database_url, f"SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE datname = '{self.database}'")
+            time.sleep(self.seconds)
+            admin_sql(self.database_url, f'ALTER DATABASE "{self.database}" ALLOW_CONNECTIONS true')
+            self.note(f"{self.database} accepts connections again")
+        self.down_s = round(time.monotonic() - started, 1)
+
+
+def run_phase(name, tablets, seconds, think_s, outage=None, drain_s=60):
+    stats = Stats()
+    for tablet in tablets:
+        tablet.stats = stats
+    stop = threading.Event()
+    until = time.monotonic() + seconds
+    threads = [threading.Thread(target=t.run, args=(until, think_s, stop), daemon=True) for t in tablets]
+    outage_thread = threading.Thread(target=outage.run, daemon=True) if outage else None
+    started = time.monotonic()
+    for thread in threads:
+        thread.start()
+    if outage_thread:
+        outage_thread.start()
+    for thread in threads:
+        thread.join(timeout=seconds + REQUEST_TIMEOUT_S * 4 + 30)
+    if outage_thread:
+        outage_thread.join(timeout=120)
+    pending_before_drain = sum(len(t.pending) for t in tablets)
+    drain_until = time.monotonic() + drain_s
+    drains = [threading.Thread(target=t.drain, args=(drain_until,), daemon=True) for t in tablets]
+    for thread in drains:
+        thread.start()
+    for thread in drains:
+        thread.join(timeout=drain_s + REQUEST_TIMEOUT_S * 4 + 30)
+    stop.set()
+    return {
+        "phase": name, "seconds": round(time.monotonic() - started, 1),
+        "requests": dict(sorted(stats.outcomes.items())),
+        "latency_ms": {"get_entry_page": latency_ms(stats.latency["get"]), "post_and_sign_in": latency_ms(stats.latency["post"])},
+        "pending_before_drain": pending_before_drain, "pending_after_drain": sum(len(t.pending) for t in tablets),
+        "client_errors": stats.errors[:10], "outage": outage.log if outage else None,
+        "outage_s": getattr(outage, "down_s", None) if outage else None,
+    }
+
+
+def check_store(tablets, site_code="load"):
+    """Stored inspections equal the distinct UUIDs the tablets had confirmed; each has all its cells."""
+    from django.db import connection
+    from django.db.models import Count
+
+    from fleetcare.readings.models import Inspection
+
+    connection.close()
+    stored = list(Inspection.objects.filter(battery__site__code=site_code).annotate(n=Count("cells"))
+                  .values_list("client_uuid", "n", "id"))
+    stored_uuids = [str(u) for u, _, _ in stored]
+    confirmed = {}
+    for tablet in tablets:
+        confirmed.update(tablet.confirmed)
+    sent = set().union(*(t.sent for t in tablets))
+    pending = {s["client_uuid"] for t in tablets for s in t.pending}
+    by_uuid = {str(u): pk for u, _, pk in stored}
+    return {
+        "stored": len(stored), "distinct_confirmed": len(confirmed), "distinct_sent": len(sent),
+        "still_pending": len(pending),
+        "duplicates": len(stored_uuids) - len(set(stored_uuids)),
+        "not_sent_by_any_tablet": len(set(stored_uuids) - sent),
+        "confirmed_but_missing": len(set(confirmed) - set(stored_uuids)),
+        "confirmed_with_other_id": sum(1 for u, pk in confirmed.items() if by_uuid.get(u) not in (None, pk)),
+        "incomplete_inspections": sum(1 for _, n, _ in stored if n != CELLS),
+        "stored_but_never_confirmed": len(set(stored_uuids) - set(confirmed)),
+    }
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--tablets", type=int, default=50)
+    parser.add_argument("--seconds", type=float, default=60)
+    parser.add_argument("--think", type=float, default=1.0, help="Mean seconds a tablet waits between submissions.")
+    parser.add_argument("--workers", type=int, default=2)
+    parser.add_argument("--threads", type=int, default=4, help="gunicorn threads per worker (gthread).")
+    parser.add_argument("--outage", choices=["none", "database", "server"], default="none")
+    parser.add_argument("--outage-seconds", type=float, default=8)
+    parser.add_argument("--outage-phase-seconds", type=float, default=40)
+    parser.add_argument("--json", dest="json_path")
+    args = parser.parse_args()
+    if not 1 <= args.tablets <= 200 or not 1 <= args.seconds <= 600 or not 1 <= args.outage_seconds <= 19:
+        raise SystemExit("bounds: 1-200 tablets, 1-600 s, an outage of 1-19 s")
+
+    database_url = os.environ.get("DATABASE_URL", "postgres://postgres@127.0.0.1:5432/fc_load")
+    database = urllib.parse.urlparse(database_url).path.lstrip("/")
+    if not database_url.startswith("postgres") or database in ("", "fleetcare", "postgres"):
+        raise SystemExit("give DATABASE_URL=postgres://.../<a database of the load test's own>, e.g. fc_load; it is dropped")
+    if urllib.parse.urlparse(database_url).hostname not in ("127.0.0.1", "localhost"):
+        raise SystemExit("the load test runs on loopback only")
+    os.environ["DATABASE_URL"] = database_url
+    (ROOT / "test-artifacts").mkdir(exist_ok=True)
+    admin_sql(database_url, f'DROP DATABASE IF EXISTS "{database}" WITH (FORCE)')
+    admin_sql(database_url, f'CREATE DATABASE "{database}"')
+    setup_django()
+    world = create_world(args.tablets)
+    from django.db import connection
+
+    connection.close()
+
+    port = free_port()
+    env = dict(os.environ, DATABASE_URL=database_url, DEBUG="0", ALLOWED_HOSTS=HOST, LOG_LEVEL="ERROR",
+               SECRET_KEY=os.environ.get("SECRET_KEY", "load-test-only-" + uuid.uuid4().hex))
+    server = start_gunicorn(port, args.workers, args.threads, env)
+    base = f"http://{HOST}:{port}"
+    rng = random.Random(2026)
+    tablets = [Tablet(base, username, pk, None, random.Random(rng.random())) for username, pk in world]
+    results = {"date": dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"), "cpus": os.cpu_count(),
+               "tablets": args.tablets, "gunicorn": f"{args.workers} workers x {args.threads} threads", "phases": []}
+    try:
+        steady = run_phase("steady", tablets, args.seconds, args.think, drain_s=30)
+        steady["store"] = check_store(tablets)
+        results["phases"].append(steady)
+        if args.outage != "none":
+            outage = Outage(args.outage, database_url, database, after=args.outage_phase_seconds / 3,
+                            seconds=args.outage_seconds)
+            phase = run_phase(f"outage ({args.outage})", tablets, args.outage_phase_seconds, args.think, outage, drain_s=90)
+            phase["store"] = check_store(tablets)
+            results["phases"].append(phase)
+    finally:
+        stop_gunicorn(server)
+
+    failures = verdict(results)
+    results["failures"] = failures
+    print(json.dumps(results, indent=2))
+    if args.json_path:
+        Path(args.json_path).write_text(json.dumps(results, indent=2))
+    print("PASS" if not failures else "FAIL: " + "; ".join(failures))
+    return 1 if failures else 0
+
+
+def verdict(results):
+    failures = []
+    for phase in results["phases"]:
+        store = phase["store"]
+        name = phase["phase"]
+        if store["stored"] != store["distinct_confirmed"]:
+            failures.append(f"{name}: {store['stored']} stored, {store['distinct_confirmed']} distinct submissions confirmed")
+        for key in ("duplicates", "not_sent_by_any_tablet", "confirmed_but_missing", "confirmed_with_other_id",
+                    "incomplete_inspections", "still_pending", "stored_but_never_confirmed"):
+            if store[key]:
+                failures.append(f"{name}: {key} = {store[key]}")
+        if phase["client_errors"]:
+            failures.append(f"{name}: client errors {phase['client_errors'][:3]}")
+        if name == "steady":
+            bad = {k: v for k, v in phase["requests"].items() if k.split()[1] not in ("200", "302")}
+            if bad:
+                failures.append(f"steady: responses other than 200/302: {bad}")
+        else:
+            bad = {k: v for k, v in phase["requests"].items()
+                   if k.split()[1] not in ("0", "200", "302") and not k.split()[1].startswith("5")}
+            if bad:
+                failures.append(f"{name}: responses other than 200/302/5xx/refused: {bad}")
+    return failures
+
+
+if __name__ == "__main__":
+    sys.exit(main())
