@@ -1,0 +1,128 @@
+"""A real browser (Debian's chromium, driven by Playwright from pip) loses the connection in the middle of a
+round: the reading is kept on the tablet, shown as waiting, and stored exactly once when the network returns.
+
+Without /usr/bin/chromium these tests skip, except under CI=true, where a missing browser is a failure.
+"""
+import os
+
+import pytest
+from django.test import Client
+
+from fleetcare.readings.models import Inspection
+
+pytestmark = pytest.mark.browser
+
+os.environ.setdefault("DJANGO_ALLOW_ASYNC_UNSAFE", "true")  # Playwright's sync API runs an event loop here
+
+CHROMIUM = "/usr/bin/chromium"
+CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
+                 "--disable-sync", "--no-first-run"]
+POINTS = ["282"] * 24
+POINTS[8] = "251"  # a weak cell 9 (invented readings)
+
+
+@pytest.fixture(scope="module")
+def chromium():
+    if not os.access(CHROMIUM, os.X_OK):
+        reason = f"no chromium at {CHROMIUM} (apt-get install chromium; Playwright must not download one)"
+        if os.environ.get("CI", "").lower() in ("1", "true", "yes"):
+            pytest.fail(f"CI=true and {reason}", pytrace=False)
+        pytest.skip(reason)
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as playwright:
+        browser = playwright.chromium.launch(executable_path=CHROMIUM, headless=True, args=CHROMIUM_ARGS)
+        yield browser
+        browser.close()
+
+
+@pytest.fixture
+def tablet(chromium, live_server, crew):
+    """A signed-in crew member's tablet: the session cookie comes from Django's own force_login."""
+    client = Client()
+    client.force_login(crew)
+    context = chromium.new_context(base_url=live_server.url, viewport={"width": 1024, "height": 768}, has_touch=True)
+    context.add_cookies([{"name": "sessionid", "value": client.cookies["sessionid"].value, "url": live_server.url}])
+    context.set_default_timeout(15_000)
+    page = context.new_page()
+    yield context, page
+    context.close()
+
+
+def _key_in_reading(page):
+    page.fill("input[name=temp]", "26")
+    for position, points in enumerate(POINTS, start=1):
+        page.fill(f"input[name=sg_{position}]", points)
+    page.click("#save-inspection")
+
+
+def test_a_reading_saved_offline_is_stored_exactly_once_when_the_connection_returns(tablet, battery):
+    context, page = tablet
+    page.goto(f"/readings/battery/{battery.pk}/inspect/")
+    # The service worker is installed and has kept the entry screens (the find page, this battery's pages).
+    page.wait_for_function("() => document.documentElement.dataset.precached !== undefined")
+    assert int(page.evaluate("() => document.documentElement.dataset.precached")) >= 4
+
+    context.set_offline(True)
+    page.reload()  # the entry screen comes from the tablet's own copy
+    page.get_by_role("heading", name="All-cell reading · TW-001").wait_for()
+    _key_in_reading(page)
+
+    badge = page.locator("#fc-outbox")
+    badge.get_by_text("1 waiting to send").wait_for()
+    assert "kept on this tablet and waiting to send" in page.locator("#fc-offline-status").inner_text()
+    kept_uuid = page.evaluate("""() => new Promise(resolve => {
+        const open = indexedDB.open("fleetcare-offline", 1);
+        open.onsuccess = () => open.result.transaction("outbox").objectStore("outbox").getAllKeys().onsuccess =
+            event => resolve(event.target.result);
+    })""")
+    assert len(kept_uuid) == 1
+    assert Inspection.objects.count() == 0
+    # The form is ready for the next battery with a new client UUID.
+    assert page.input_value("input[name=client_uuid]") != kept_uuid[0]
+
+    context.set_offline(False)
+    badge.wait_for(state="hidden")
+    assert "is stored" in page.locator("#fc-offline-status").inner_text()
+    stored = Inspection.objects.get()
+    assert str(stored.client_uuid) == kept_uuid[0]
+    assert stored.lowest_position == 9 and stored.battery_id == battery.pk
+
+    # The same submission sent again (a tablet that never heard the answer) stores nothing new.
+    statuses = page.evaluate("""async ([url, uuid]) => {
+        const token = document.cookie.match(/csrftoken=([^;]+)/)[1];
+        const body = {client_uuid: uuid, situation: "charged", taken_at: "2026-11-30T07:00", temp: "26",
+                      cells: Array.from({length: 24}, (_, i) => ({position: i + 1, sg: "282"}))};
+        const send = () => fetch(url, {method: "POST", credentials: "same-origin",
+            headers: {"Content-Type": "application/json", "X-CSRFToken": token}, body: JSON.stringify(body)});
+        return [(await send()).status, (await send()).status];
+    }""", [f"/api/batteries/{battery.pk}/inspections", kept_uuid[0]])
+    assert statuses == [201, 201]
+    assert Inspection.objects.count() == 1
+
+
+def test_a_refused_reading_is_kept_and_shown_until_the_crew_member_deals_with_it(tablet, battery):
+    from fleetcare.fleet.models import Battery
+
+    context, page = tablet
+    page.goto(f"/readings/battery/{battery.pk}/inspect/")
+    context.set_offline(True)
+    _key_in_reading(page)
+    page.locator("#fc-outbox").get_by_text("1 waiting to send").wait_for()
+
+    Battery.objects.filter(pk=battery.pk).update(status=Battery.Status.RETIRED)  # retired meanwhile
+    context.set_offline(False)
+    page.locator("#fc-outbox").get_by_text("1 refused: needs you").wait_for()
+    assert "was retired" in page.locator("#fc-offline-status").inner_text()
+    assert Inspection.objects.count() == 0
+
+    page.goto("/api/outbox/")
+    row = page.locator("#outbox-list [data-state=rejected]")
+    assert "TW-001 was retired" in row.inner_text()
+    page.reload()  # still there: nothing is dropped on its own
+    assert page.locator("#outbox-list [data-state=rejected]").count() == 1
+
+    page.once("dialog", lambda dialog: dialog.accept())
+    page.get_by_role("button", name="Discard").click()
+    page.locator("#outbox-empty").wait_for(state="visible")
+    assert page.locator("#fc-outbox").is_hidden()
