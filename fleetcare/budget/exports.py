@@ -26,7 +26,7 @@ def assumption_rows(budget, assumptions, scope):
         ("Built on", budget.today),
         ("Horizon (years)", budget.years),
         ("Horizon ends before", budget.end),
-        ("Batteries", scope),
+        ("Covers", scope),
         ("Currency", assumptions.currency or "(not set)"),
         ("Unit price", "each battery profile's unit price, or its budget price where one is set"),
         ("Installation", "the amount below, or the profile's own where one is set"),

@@ -1,0 +1,199 @@
+import csv
+import datetime as dt
+import io
+from decimal import Decimal
+
+import pytest
+from django.urls import reverse
+from openpyxl import load_workbook
+
+from fleetcare.budget import forecast
+from fleetcare.budget.models import BudgetAssumptions, CapacityTest
+from tests.budget.conftest import DESIGN_LIFE_DAYS, quarter_label
+
+PAGES = ["budget:home", "budget:export_csv", "budget:export_xlsx", "budget:assumptions"]
+
+
+@pytest.mark.parametrize("name", PAGES)
+@pytest.mark.parametrize("role", ["crew", "supervisor"])
+def test_it_refuses_crew_and_supervisors(client, request, name, role):
+    client.force_login(request.getfixturevalue(role))
+    assert client.get(reverse(name)).status_code == 403
+
+
+@pytest.mark.parametrize("name", PAGES + ["budget:capacity_tests"])
+def test_it_sends_anonymous_users_to_sign_in(client, db, name):
+    response = client.get(reverse(name))
+    assert response.status_code == 302 and response["Location"].startswith("/accounts/login/")
+
+
+def test_the_menu_shows_budget_to_managers_only(client, crew, manager, world):
+    client.force_login(crew)
+    assert b">Budget</a>" not in client.get(reverse("dashboard:home")).content
+    client.force_login(manager)
+    assert b">Budget</a>" in client.get(reverse("dashboard:home")).content
+
+
+def lines_by_serial(budget):
+    found = {}
+    for line in budget.lines:
+        found.setdefault(line.facts.serial, []).append(line)
+    return found
+
+
+def test_constructed_batteries_land_in_the_right_quarters(manager_client, world):
+    response = manager_client.get(reverse("budget:home"))
+    assert response.status_code == 200
+    budget = response.context["budget"]
+    today = world["today"]
+    lines = lines_by_serial(budget)
+
+    ageing = lines["TW-AGE"][0]
+    assert ageing.decided_by.kind == forecast.AGE
+    assert ageing.budget_date == today + dt.timedelta(days=200)
+    assert ageing.quarter == quarter_label(today + dt.timedelta(days=200))
+
+    capacity = lines["TW-CAP"][0]  # 79 % ten days ago: under the 80 % floor (IEEE Std 450 practice, from memory)
+    assert capacity.decided_by.kind == forecast.CAPACITY
+    assert capacity.quarter == quarter_label(today) and capacity.overdue_since == today - dt.timedelta(days=10)
+
+    cell, battery = lines["TW-CELL"][:2]  # cell 9 0.043 under the rest on three post-charge readings
+    assert cell.kind == forecast.CELL_LINE and cell.cells == (9,) and cell.quarter == quarter_label(today)
+    assert cell.whole_battery_amount == Decimal("7800.00")  # no installation or scrap credit assumed yet
+    assert battery.kind == forecast.BATTERY and battery.decided_by.kind == forecast.AGE
+    assert battery.budget_date == world["cell"].in_service_date + dt.timedelta(days=DESIGN_LIFE_DAYS)
+
+    assert "TW-OLD" not in lines  # retired
+    assert "OT-AGE" not in lines  # another site
+
+
+def test_the_drill_down_lists_a_quarters_batteries_with_their_evidence_and_range(manager_client, world):
+    quarter = quarter_label(world["today"])
+    response = manager_client.get(reverse("budget:home"), {"quarter": quarter})
+    html = response.content.decode()
+    assert response.context["drill"].label == quarter
+    serials = sorted(row["line"].facts.serial for row in response.context["drill_rows"])
+    assert serials == ["TW-CAP", "TW-CELL"]
+    assert "Capacity tests" in html and "79 % of rating" in html and "Replace cell 9" in html
+    assert "TW-AGE" not in html.split('id="drill"')[1]
+
+
+def test_another_sites_batteries_never_appear(manager_client, world):
+    html = manager_client.get(reverse("budget:home"), {"quarter": "all"}).content.decode()
+    assert "TW-AGE" in html and "OT-AGE" not in html
+    assert "OT-AGE" not in manager_client.get(reverse("budget:export_csv")).content.decode()
+    wb = load_workbook(io.BytesIO(manager_client.get(reverse("budget:export_xlsx")).content))
+    serials = [row[3] for row in wb["Batteries"].iter_rows(min_row=2, values_only=True)]
+    assert "TW-AGE" in serials and "OT-AGE" not in serials
+    assert manager_client.get(reverse("budget:home"), {"site": "other"}).status_code == 404
+
+
+def test_it_filters_by_site_and_profile(manager_client, world, sealed_battery, traction_profile, sealed_profile):
+    everything = manager_client.get(reverse("budget:home")).context["budget"]
+    assert {"TR-P01", "TW-AGE"} <= {ln.facts.serial for ln in everything.lines}
+    by_site = manager_client.get(reverse("budget:home"), {"site": "tr"}).context["budget"]
+    assert {ln.facts.serial for ln in by_site.lines} == {"TR-P01"}
+    by_profile = manager_client.get(reverse("budget:home"), {"profile": traction_profile.pk}).context["budget"]
+    assert {ln.facts.serial for ln in by_profile.lines} == {"TW-AGE", "TW-CAP", "TW-CELL"}
+
+
+def test_the_xlsx_totals_equal_the_screen(manager_client, world):
+    BudgetAssumptions.objects.create(pk=1, currency="GBP", installation_cost=Decimal("450"),
+                                     scrap_credit_per_kg=Decimal("0.6"), escalation_percent=Decimal("3.5"),
+                                     cell_cost=Decimal("380"), fiscal_year_start_month=4)
+    screen = manager_client.get(reverse("budget:home")).context["budget"]
+    response = manager_client.get(reverse("budget:export_xlsx"))
+    assert response["Content-Type"].startswith("application/vnd.openxmlformats")
+    wb = load_workbook(io.BytesIO(response.content))
+    assert wb.sheetnames == ["Assumptions", "By quarter", "Batteries"]
+
+    quarters = list(wb["By quarter"].iter_rows(min_row=2, values_only=True))
+    quarter_rows = [r for r in quarters if r[0] and r[0][:2] == "20"]
+    assert [(r[0], r[2], r[3]) for r in quarter_rows] == [(q.label, q.fiscal_year, q.count) for q in screen.quarters]
+    assert [round(r[4], 2) for r in quarter_rows] == [float(q.amount) for q in screen.quarters]
+    assert all(isinstance(r[1], dt.datetime) for r in quarter_rows)  # dates stored as dates
+    total = next(r for r in quarters if r[0] == "Total")
+    assert round(total[4], 2) == float(screen.total) and total[3] == screen.count
+    assert round(sum(r[4] for r in quarter_rows), 2) == float(screen.total)
+
+    lines = list(wb["Batteries"].iter_rows(min_row=2, values_only=True))
+    assert round(sum(r[17] for r in lines), 2) == float(screen.total) and len(lines) == screen.count
+    assert all(isinstance(r[2], dt.datetime) and isinstance(r[17], (int, float)) for r in lines)
+
+    assumptions = dict(wb["Assumptions"].iter_rows(min_row=2, values_only=True))
+    assert assumptions["Installation per battery"] == 450 and assumptions["Fiscal year starts"] == "April"
+    assert assumptions["Yearly price escalation (%)"] == 3.5 and assumptions["Currency"] == "GBP"
+
+
+def csv_sections(text):
+    sections, current = {}, None
+    for row in csv.reader(io.StringIO(text)):
+        if not row:
+            current = None
+        elif current is None:
+            current = sections.setdefault(row[0], [])
+        else:
+            current.append(row)
+    return sections
+
+
+def test_the_csv_totals_equal_the_screen(manager_client, world):
+    screen = manager_client.get(reverse("budget:home")).context["budget"]
+    sections = csv_sections(manager_client.get(reverse("budget:export_csv")).content.decode())
+    assert set(sections) == {"Assumptions", "By quarter", "By fiscal year", "Batteries"}
+    header, *rows = sections["By quarter"]
+    assert header[-1] == "Amount"
+    total = next(r for r in rows if r[0] == "Total")
+    assert Decimal(total[4]) == screen.total
+    assert sum(Decimal(r[4]) for r in rows if r[0] != "Total") == screen.total
+    header, *lines = sections["Batteries"]
+    assert sum(Decimal(r[header.index("Amount")]) for r in lines) == screen.total
+    assert dt.date.fromisoformat(lines[0][header.index("Budget date")]) == screen.lines[0].budget_date
+
+
+def test_a_manager_changes_the_assumptions_and_every_figure_follows(manager_client, world, traction_profile):
+    data = {
+        "currency": "EUR", "installation_cost": "500", "scrap_credit_per_kg": "0.5", "escalation_percent": "0",
+        "fiscal_year_start_month": "7", "cell_cost": "400", "include_renewals": "on",
+        "capacity_floor_percent": "80", "sg_drop_allowed": "0.030", "spread_limit": "0.050",
+        "failing_cell_drop": "0.030", "failing_cell_readings": "3", "max_cells_for_cell_option": "2",
+        "life_margin_percent": "15", "trend_window_days": "365",
+        f"price_{traction_profile.pk}": "8000", f"installation_{traction_profile.pk}": "",
+        f"depth_{traction_profile.pk}": "",
+    }
+    response = manager_client.post(reverse("budget:assumptions"), data)
+    assert response.status_code == 302
+    page = manager_client.get(reverse("budget:home"))
+    line = lines_by_serial(page.context["budget"])["TW-CAP"][0]
+    assert line.amount == Decimal("8000") + 500 - Decimal("1350") * Decimal("0.5")  # 7825.00
+    assert "EUR" in page.content.decode() and "July" in page.content.decode()
+    assert BudgetAssumptions.objects.get().updated_by.username == "manager1"
+
+
+def test_bad_assumptions_store_nothing(manager_client, world):
+    response = manager_client.post(reverse("budget:assumptions"), {"fiscal_year_start_month": "13"})
+    assert response.status_code == 200 and "Nothing was saved" in response.content.decode()
+    assert BudgetAssumptions.objects.get().fiscal_year_start_month == 1
+
+
+def test_a_supervisor_records_a_capacity_test(client, supervisor, battery):
+    client.force_login(supervisor)
+    assert client.get(reverse("budget:capacity_tests")).status_code == 200
+    response = client.post(reverse("budget:capacity_tests"), {
+        "battery": battery.pk, "tested_on": "2026-01-20", "percent_of_rated": "84.5", "notes": "C5 discharge",
+    })
+    assert response.status_code == 302
+    test = CapacityTest.objects.get()
+    assert (test.battery, test.percent_of_rated, test.tested_by) == (battery, Decimal("84.5"), supervisor)
+
+
+def test_a_capacity_test_for_another_sites_battery_is_refused(client, supervisor, other_battery):
+    client.force_login(supervisor)
+    response = client.post(reverse("budget:capacity_tests"), {
+        "battery": other_battery.pk, "tested_on": "2026-01-20", "percent_of_rated": "84.5",
+    })
+    assert response.status_code == 200 and not CapacityTest.objects.exists()
+
+
+def test_crew_cannot_record_capacity_tests(crew_client, battery):
+    assert crew_client.get(reverse("budget:capacity_tests")).status_code == 403
