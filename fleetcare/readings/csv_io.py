@@ -11,7 +11,7 @@ from collections import defaultdict
 from dataclasses import dataclass, field
 from decimal import Decimal, InvalidOperation
 
-from django.db import transaction
+from django.db import connection, transaction
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
@@ -52,26 +52,72 @@ def _decimal(text, name, line, errors):
         return None
 
 
-def _parse_row(line, row, batteries, errors):
-    """Validate one row; return (group key, battery, CellEntry, taken_at, situation) or None."""
+class _Memo:
+    """What a file repeats row after row, worked out once per import: battery facts, times, SG and temperatures."""
+
+    def __init__(self, batteries):
+        self.batteries = batteries
+        self.latest_allowed = timezone.now() + dt.timedelta(hours=1)
+        self.facts = {}
+        self.times = {}
+        self.sgs = {}
+        self.decimals = {}
+
+    def battery_facts(self, battery):
+        facts = self.facts.get(battery.pk)
+        if facts is None:
+            profile = battery.profile
+            cells = profile.cells_per_block if profile.reads_by_block else 1
+            low, high = chemistry.plausible_volts_range(cells, profile.technology)
+            facts = self.facts[battery.pk] = (profile.positions, profile.is_flooded, cells, low, high,
+                                              Decimal(str(low)), Decimal(str(high)))
+        return facts
+
+    def taken_at(self, text, battery):
+        key = (text, battery.site_id if battery else None)
+        if key not in self.times:
+            try:
+                taken_at = parse_datetime(text)
+            except ValueError:
+                taken_at = None
+            if taken_at is not None and timezone.is_naive(taken_at):
+                taken_at = timezone.make_aware(taken_at, battery.site.tzinfo if battery else dt.timezone.utc)
+            self.times[key] = taken_at
+        return self.times[key]
+
+    def sg(self, text):
+        """(SG to 0.001, None) or (None, the parser's message)."""
+        if text not in self.sgs:
+            try:
+                self.sgs[text] = (Decimal(str(chemistry.parse_sg(text))).quantize(Decimal("0.001")), None)
+            except ValueError as exc:
+                self.sgs[text] = (None, str(exc))
+        return self.sgs[text]
+
+    def decimal(self, text, name, line, errors):
+        value = self.decimals.get(text)
+        if value is None:
+            value = _decimal(text, name, line, errors)
+            if value is not None:
+                self.decimals[text] = value
+        return value
+
+
+def _parse_row(line, row, memo, errors):
+    """Validate one row; return (group key, battery, CellEntry) or None."""
     before = len(errors)
     serial = (row.get("serial") or "").strip()
-    battery = batteries.get(serial)
+    battery = memo.batteries.get(serial)
     if not serial:
         errors.append((line, "serial is empty."))
     elif battery is None:
         errors.append((line, f"no battery with serial “{serial}” at your sites."))
+    facts = memo.battery_facts(battery) if battery is not None else None
     taken_text = (row.get("taken_at") or "").strip()
-    taken_at = None
-    try:
-        taken_at = parse_datetime(taken_text)
-    except ValueError:
-        pass
+    taken_at = memo.taken_at(taken_text, battery)
     if taken_at is None:
         errors.append((line, f"taken_at “{taken_text}” is not a date and time like 2026-03-01T07:30."))
-    elif timezone.is_naive(taken_at):
-        taken_at = timezone.make_aware(taken_at, battery.site.tzinfo if battery else dt.timezone.utc)
-    if taken_at is not None and taken_at > timezone.now() + dt.timedelta(hours=1):
+    elif taken_at > memo.latest_allowed:
         errors.append((line, f"taken_at {taken_text} is in the future."))
     situation = SITUATIONS.get((row.get("situation") or "").strip().lower())
     if situation is None:
@@ -80,31 +126,31 @@ def _parse_row(line, row, batteries, errors):
     position = int(cell_text) if cell_text.isdigit() else None
     if position is None:
         errors.append((line, f"cell “{cell_text}” is not a whole number."))
-    elif battery is not None and not 1 <= position <= battery.profile.positions:
-        errors.append((line, f"cell {position} does not exist: {serial} has {battery.profile.positions}."))
+    elif facts is not None and not 1 <= position <= facts[0]:
+        errors.append((line, f"cell {position} does not exist: {serial} has {facts[0]}."))
     sg = None
-    if (row.get("sg") or "").strip():
-        try:
-            sg = Decimal(str(chemistry.parse_sg(row["sg"].strip()))).quantize(Decimal("0.001"))
-        except ValueError as exc:
-            errors.append((line, f"sg: {exc}"))
-        else:
-            if not SG_LOW <= sg <= SG_HIGH:
-                errors.append((line, f"sg {sg} is outside 1.000–1.350."))
-            elif battery is not None and not battery.profile.is_flooded:
-                errors.append((line, f"sg given for {serial}, a sealed battery: it cannot be read with a hydrometer."))
+    sg_text = (row.get("sg") or "").strip()
+    if sg_text:
+        sg, problem = memo.sg(sg_text)
+        if problem:
+            errors.append((line, f"sg: {problem}"))
+        elif not SG_LOW <= sg <= SG_HIGH:
+            errors.append((line, f"sg {sg} is outside 1.000–1.350."))
+        elif facts is not None and not facts[1]:
+            errors.append((line, f"sg given for {serial}, a sealed battery: it cannot be read with a hydrometer."))
     temp = None
-    if (row.get("temp") or "").strip():
-        temp = _decimal(row["temp"].strip(), "temp", line, errors)
+    temp_text = (row.get("temp") or "").strip()
+    if temp_text:
+        temp = memo.decimal(temp_text, "temp", line, errors)
         if temp is not None and not TEMP_LOW_C <= temp <= TEMP_HIGH_C:
             errors.append((line, f"temp {temp} °C is outside −30 to 70 °C."))
     volts = None
-    if (row.get("volts") or "").strip():
-        volts = _decimal(row["volts"].strip(), "volts", line, errors)
-        if volts is not None and battery is not None:
-            cells = battery.profile.cells_per_block if battery.profile.reads_by_block else 1
-            low, high = chemistry.plausible_volts_range(cells, battery.profile.technology)
-            if not Decimal(str(low)) <= volts <= Decimal(str(high)):
+    volts_text = (row.get("volts") or "").strip()
+    if volts_text:
+        volts = memo.decimal(volts_text, "volts", line, errors)
+        if volts is not None and facts is not None:
+            _, _, cells, low, high, low_d, high_d = facts
+            if not low_d <= volts <= high_d:
                 errors.append((line, f"volts {volts} is not plausible for {cells} cell(s) ({low:.2f}–{high:.2f} V)."))
     if sg is None and volts is None and not errors[before:]:
         errors.append((line, "neither sg nor volts given."))
@@ -127,14 +173,14 @@ def import_readings(text, *, user, batteries, good_rows_only=False, dry_run=Fals
     if missing:
         report.errors.append((1, f"missing column(s): {', '.join(missing)}. Expected: {', '.join(COLUMNS)}."))
         return report
-    by_serial = {b.serial: b for b in batteries.select_related("profile", "site")}
+    memo = _Memo({b.serial: b for b in batteries.select_related("profile", "site")})
     groups = defaultdict(list)  # the row's own (serial, taken_at, situation) text -> [(line, entry)]
     group_battery = {}  # same key -> ((serial, aware taken_at, situation), battery)
     bad_groups = set()
     for line, row in enumerate(reader, start=2):
         report.rows_read += 1
         raw_key = tuple((row.get(c) or "").strip() for c in ("serial", "taken_at", "situation"))
-        parsed = _parse_row(line, row, by_serial, report.errors)
+        parsed = _parse_row(line, row, memo, report.errors)
         if parsed is None:
             bad_groups.add(raw_key)
             continue
@@ -202,7 +248,7 @@ def _store(groups, group_battery, user, report):
             for cell in cells:
                 cell.inspection = inspection
             all_cells.extend(cells)
-        CellReading.objects.bulk_create(all_cells, batch_size=2000)
+        _insert_cells(all_cells)
         latest = {}
         for inspection in inspections:
             if inspection.battery_id not in latest or inspection.taken_at > latest[inspection.battery_id].taken_at:
@@ -213,6 +259,33 @@ def _store(groups, group_battery, user, report):
     report.inspections_created = len(inspections)
     report.cells_created = len(all_cells)
     report.imported = True
+
+
+def _insert_cells(cells):
+    """Store cell readings; on PostgreSQL with COPY, which is several times faster than INSERT for a big file."""
+    if connection.vendor != "postgresql":
+        CellReading.objects.bulk_create(cells, batch_size=2000)
+        return
+
+    # Rounded as Django rounds a DecimalField on save (half to even, to the field's places).
+    temp_places = Decimal(1).scaleb(-CellReading._meta.get_field("temp_c").decimal_places)
+    volts_places = Decimal(1).scaleb(-CellReading._meta.get_field("volts").decimal_places)
+
+    def text(value, places=None):
+        if value is None:
+            return "\\N"
+        return str(value.quantize(places) if places is not None else value)
+
+    buffer = io.StringIO()
+    for c in cells:
+        buffer.write(f"{c.inspection_id}\t{c.position}\t{text(c.sg)}\t{text(c.sg_corrected)}\t"
+                     f"{text(c.temp_c, temp_places)}\t{text(c.volts, volts_places)}\t{c.level}\n")
+    buffer.seek(0)
+    with connection.cursor() as cursor:
+        cursor.copy_expert(
+            f"COPY {CellReading._meta.db_table} (inspection_id, position, sg, sg_corrected, temp_c, volts, level) FROM STDIN",
+            buffer,
+        )
 
 
 def write_battery_readings(out, battery):
