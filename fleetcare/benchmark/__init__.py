@@ -1,0 +1,1 @@
+"""Fleet-scale benchmark: a synthetic fleet on PostgreSQL and each page's cost beside a hand-written reference."""
