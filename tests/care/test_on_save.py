@@ -1,0 +1,23 @@
+"""Detection runs when an inspection or a top-up is saved (readings signals, sent on commit)."""
+import datetime as dt
+
+from django.utils import timezone
+
+from fleetcare.care.models import Finding
+from tests.care.helpers import inspect, sgs, water
+
+
+def test_saving_an_inspection_opens_its_findings(battery, crew, watered, django_capture_on_commit_callbacks):
+    with django_capture_on_commit_callbacks(execute=True):
+        inspect(battery, crew, timezone.now() - dt.timedelta(hours=1), cells=sgs(low={9: "1.250"}))
+    assert set(Finding.objects.filter(battery=battery).values_list("kind", flat=True)) == {"weak_cell", "high_spread"}
+
+
+def test_saving_a_top_up_clears_a_low_level(battery, crew, watered, django_capture_on_commit_callbacks):
+    with django_capture_on_commit_callbacks(execute=True):
+        inspect(battery, crew, timezone.now() - dt.timedelta(hours=5), cells=sgs(), levels={4: "low"})
+    finding = Finding.objects.get(battery=battery, kind="low_level")
+    with django_capture_on_commit_callbacks(execute=True):
+        water(battery, crew, timezone.now() - dt.timedelta(hours=1), 600)
+    finding.refresh_from_db()
+    assert finding.state == Finding.State.CLEARED
