@@ -41,6 +41,7 @@ from datetime import date, timedelta
 from decimal import ROUND_HALF_UP, Decimal
 
 CENT = Decimal("0.01")
+MIN_RENEWAL = timedelta(days=30)
 DAYS_PER_YEAR = 365.25
 AGE, CYCLES, CAPACITY, SG_MEAN, SPREAD, CELLS = "age", "cycles", "capacity", "sg_mean", "spread", "cells"
 EVIDENCE_LABELS = {
@@ -480,6 +481,8 @@ def forecast_battery(facts, today, rules=Rules()):
             cell_option = cells
             counted = others
 
+    if not counted:  # cannot happen while age always has a date; kept so a bad profile cannot crash the page
+        counted = [Evidence(AGE, "no usable evidence", today, today, today)]
     decided = min(counted, key=lambda e: (e.likely, e.kind))
     likely = decided.likely
     earliest = min(e.earliest for e in counted)
@@ -538,7 +541,9 @@ def renewal_after(facts, replaced_on, rules):
     """The replacement's own end of life: its design life, or its design cycles if sooner."""
     life = add_years(replaced_on, facts.design_life_years)
     rate = charge_rate(facts, replaced_on)[0] * cycle_weight(facts, rules)[0]
-    by_cycles = replaced_on + timedelta(days=math.ceil(facts.design_cycles / rate)) if rate > 0 else None
+    by_cycles = None
+    if rate > 0 and facts.design_cycles > 0:
+        by_cycles = replaced_on + timedelta(days=math.ceil(facts.design_cycles / rate))
     if by_cycles is not None and by_cycles < life:
         kind, likely, life_days = CYCLES, by_cycles, facts.design_cycles / rate
         detail = f"the replacement's {facts.design_cycles:,} design cycles at {rate:.2f} design cycles a day"
@@ -563,6 +568,8 @@ def budget_lines(forecast, today, end, money, rules=Rules()):
         if not money.include_renewals:
             break
         ev = renewal_after(facts, line.budget_date, rules)
+        if ev.likely - line.budget_date < MIN_RENEWAL:
+            break  # a profile with no design life to speak of: budget it once, not every day
         line = _line(facts, RENEWAL, ev, ev.likely, ev.earliest, ev.latest, today, money)
     return [ln for ln in lines if ln.budget_date < end]
 

@@ -217,3 +217,15 @@ def test_a_trend_needs_two_dates():
     assert fc.fit_trend([(TODAY, 90.0)]) is None
     trend = fc.fit_trend([(TODAY, 90.0), (TODAY + timedelta(days=10), 89.0), (TODAY + timedelta(days=20), 88.0)])
     assert trend.slope == pytest.approx(-0.1) and trend.slope_se == pytest.approx(0.0)
+
+
+def test_a_profile_without_a_design_life_is_budgeted_once_not_endlessly():
+    facts = tray(design_life_years=0.0, design_cycles=0)
+    lines = fc.budget_lines(fc.forecast_battery(facts, TODAY), TODAY, fc.horizon_end(TODAY, 5), fc.Money())
+    assert len(lines) == 1 and lines[0].quarter == "2026 Q4"
+
+
+def test_a_profile_without_design_cycles_is_renewed_by_age_alone():
+    facts = tray(in_service_date=date(2024, 12, 2), design_life_years=2.0, design_cycles=0)
+    lines = fc.budget_lines(fc.forecast_battery(facts, TODAY), TODAY, fc.horizon_end(TODAY, 5), fc.Money())
+    assert [ln.quarter for ln in lines] == ["2026 Q4", "2028 Q4", "2030 Q4"]
