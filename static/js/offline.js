@@ -95,8 +95,9 @@
   function fieldLabel(name) {
     var m = /^(sg|low|volts)_(\d+)$/.exec(name);
     if (m) return (m[1] === "volts" ? "Block " : "Cell ") + m[2];
-    return {temp: "Temperature", taken_at: "Taken at", situation: "Situation", hours_since_charge: "Hours since charge",
-            notes: "Notes", cells: "Cells", client_uuid: "Reading", __all__: ""}[name] || name;
+    var labels = {temp: "Temperature", taken_at: "Taken at", situation: "Situation", hours_since_charge: "Hours since charge",
+                  notes: "Notes", cells: "Cells", client_uuid: "Reading", __all__: ""};
+    return Object.prototype.hasOwnProperty.call(labels, name) ? labels[name] : name;
   }
 
   function say(text, tone) {
@@ -256,7 +257,9 @@
         var holder = cell || input.parentNode;
         messages.forEach(function (m) { holder.appendChild(el("div", {"class": "invalid-feedback d-block fc-kept-error"}, m)); });
       } else {
-        messages.forEach(function (m) { general.push((fieldLabel(name) ? fieldLabel(name) + ": " : "") + m); });
+        messages.forEach(function (m) {
+          if (m !== item.detail) general.push((fieldLabel(name) ? fieldLabel(name) + ": " : "") + m);
+        });
       }
     });
     var box = el("div", {"class": "alert alert-danger fc-kept-error", role: "alert", id: "fc-refused"});
@@ -298,11 +301,14 @@
       event.preventDefault();
       var item = collect(form);
       if (!navigator.onLine) { keepForLater(form, item); return; }
+      // A kept copy of the page may carry an old form token: the cookie holds the current one.
+      if (form.elements.csrfmiddlewaretoken && cookie("csrftoken")) form.elements.csrfmiddlewaretoken.value = cookie("csrftoken");
       fetch(form.action || location.href, {method: "POST", body: new FormData(form), credentials: "same-origin"})
         .then(function (response) {
           if (response.redirected && response.ok) {
             return deleteItem(item.client_uuid).catch(function () {}).then(function () { location.assign(response.url); });
           }
+          if (response.status >= 500) return keepForLater(form, item);  // server or proxy down: as good as offline
           // Not stored (the form has errors, or something else): let the server show the page as usual.
           HTMLFormElement.prototype.submit.call(form);
         })
@@ -323,6 +329,7 @@
       row.appendChild(el("div", {}, refused ? "Refused: " + item.detail : "Waiting to send." + (item.detail ? " " + item.detail : "")));
       Object.keys(item.errors || {}).forEach(function (name) {
         item.errors[name].forEach(function (m) {
+          if (m === item.detail) return;
           row.appendChild(el("div", {"class": "text-danger"}, (fieldLabel(name) ? fieldLabel(name) + ": " : "") + m));
         });
       });

@@ -126,3 +126,25 @@ def test_a_refused_reading_is_kept_and_shown_until_the_crew_member_deals_with_it
     page.get_by_role("button", name="Discard").click()
     page.locator("#outbox-empty").wait_for(state="visible")
     assert page.locator("#fc-outbox").is_hidden()
+
+
+def test_a_reading_whose_answer_was_lost_is_resent_and_still_stored_once(tablet, battery):
+    """Wi-Fi that drops mid-save: the server stored the reading but the tablet never heard back."""
+    context, page = tablet
+    page.goto(f"/readings/battery/{battery.pk}/inspect/")
+
+    def store_then_drop_the_answer(route):
+        route.fetch()  # reaches the server, which stores the reading
+        route.abort("connectionreset")
+
+    page.route("**/inspect/", lambda route: store_then_drop_the_answer(route)
+               if route.request.method == "POST" else route.continue_())
+    _key_in_reading(page)
+    page.locator("#fc-outbox").get_by_text("1 waiting to send").wait_for(timeout=30_000)
+    assert Inspection.objects.count() == 1  # stored by the first attempt
+
+    page.unroute("**/inspect/")
+    page.goto("/api/outbox/")  # opening any page sends what waits
+    page.locator("#outbox-empty").wait_for(state="visible")
+    assert page.locator("#fc-outbox").is_hidden()
+    assert Inspection.objects.count() == 1
