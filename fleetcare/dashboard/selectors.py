@@ -10,7 +10,7 @@ from collections import Counter, defaultdict
 from decimal import Decimal
 from urllib.parse import urlencode
 
-from django.db.models import Count, OuterRef, Q, Subquery, Sum
+from django.db.models import BooleanField, Count, ExpressionWrapper, OuterRef, Q, Subquery, Sum
 from django.urls import reverse
 from django.utils import timezone
 
@@ -78,26 +78,22 @@ def _battery_rows(batteries, now, today):
     current = Inspection.objects.current().filter(battery=OuterRef("pk")).order_by("-taken_at")
     post_charge_all = current.post_charge().filter(scope=Inspection.Scope.ALL_CELLS, sg_spread__isnull=False)
     rows = list(
-        fleet.with_last_care(batteries)
-        .annotate(
+        batteries.annotate(
             latest_soc=Subquery(current.values("soc_percent")[:1]),
             latest_post_charge_spread=Subquery(post_charge_all.values("sg_spread")[:1]),
+            overdue_equalizing=ExpressionWrapper(fleet.stopgap_overdue_q("equalizing", now), output_field=BooleanField()),
+            overdue_watering=ExpressionWrapper(fleet.stopgap_overdue_q("watering", now), output_field=BooleanField()),
         )
         .values(
             "pk", "serial", "site_id", "status", "in_service_date", "latest_soc", "latest_post_charge_spread",
-            "last_equalized", "last_watered", "profile__technology", "profile__equalizing_allowed",
-            "profile__watering_allowed", "profile__design_life_years", "profile__monoblocks",
-            "profile__cells_per_block",
+            "overdue_equalizing", "overdue_watering", "profile__technology", "profile__watering_allowed",
+            "profile__design_life_years", "profile__monoblocks", "profile__cells_per_block",
         )
         .order_by("serial")
     )
     for r in rows:
         flooded = r["profile__technology"] == "flooded"
         r["soc_band"] = fleet.soc_band(r["latest_soc"])
-        r["overdue_equalizing"] = fleet.is_stopgap_overdue(
-            "equalizing", flooded=flooded, allowed=r["profile__equalizing_allowed"], last_done=r["last_equalized"], now=now)
-        r["overdue_watering"] = fleet.is_stopgap_overdue(
-            "watering", flooded=flooded, allowed=r["profile__watering_allowed"], last_done=r["last_watered"], now=now)
         r["past_life"] = fleet.is_past_design_life(r["in_service_date"], r["profile__design_life_years"], today)
         r["cells"] = r["profile__monoblocks"] * r["profile__cells_per_block"]
         r["waterable"] = flooded and r["profile__watering_allowed"]

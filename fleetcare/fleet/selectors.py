@@ -53,33 +53,26 @@ def with_latest_reading(batteries):
     )
 
 
-def with_last_care(batteries):
-    """Annotate when each battery was last equalized (a current 'just equalized' inspection) and last watered."""
-    equalized = (
-        Inspection.objects.current()
-        .filter(battery=OuterRef("pk"), situation=Inspection.Situation.JUST_EQUALIZED)
-        .order_by("-taken_at").values("taken_at")[:1]
-    )
-    watered = WaterTopUp.objects.current().filter(battery=OuterRef("pk")).order_by("-done_at").values("done_at")[:1]
-    return batteries.annotate(last_equalized=Subquery(equalized), last_watered=Subquery(watered))
+def _care_logged_since(kind, since):
+    """Ids of batteries equalized (a current 'just equalized' inspection) or watered since `since`."""
+    if kind == "equalizing":
+        return Inspection.objects.current().filter(
+            situation=Inspection.Situation.JUST_EQUALIZED, taken_at__gte=since).values("battery_id")
+    if kind == "watering":
+        return WaterTopUp.objects.current().filter(done_at__gte=since).values("battery_id")
+    raise ValueError(kind)
 
 
 def stopgap_overdue_q(kind, now):
     """Flooded batteries whose profile allows equalizing (or watering) with none logged in the last
-    STOPGAP_CARE_INTERVAL_DAYS. Needs with_last_care(). To be replaced by the planner's due dates."""
+    STOPGAP_CARE_INTERVAL_DAYS: one SQL condition for filter() or an annotation. A stand-in until the
+    planner owns the due dates."""
+    allowed = "equalizing_allowed" if kind == "equalizing" else "watering_allowed"
     since = now - dt.timedelta(days=STOPGAP_CARE_INTERVAL_DAYS)
-    flooded = Q(profile__technology=BatteryProfile.Technology.FLOODED)
-    if kind == "equalizing":
-        return flooded & Q(profile__equalizing_allowed=True) & (Q(last_equalized__isnull=True) | Q(last_equalized__lt=since))
-    if kind == "watering":
-        return flooded & Q(profile__watering_allowed=True) & (Q(last_watered__isnull=True) | Q(last_watered__lt=since))
-    raise ValueError(kind)
-
-
-def is_stopgap_overdue(kind, *, flooded, allowed, last_done, now):
-    """The same rule as stopgap_overdue_q, for one battery's values already fetched."""
-    since = now - dt.timedelta(days=STOPGAP_CARE_INTERVAL_DAYS)
-    return flooded and allowed and (last_done is None or last_done < since)
+    return (
+        Q(profile__technology=BatteryProfile.Technology.FLOODED, **{f"profile__{allowed}": True})
+        & ~Q(pk__in=_care_logged_since(kind, since))
+    )
 
 
 def design_life_days(years):
@@ -218,7 +211,7 @@ def battery_list(batteries, filters, now):
     if filters.finding and Finding is not None:
         batteries = batteries.filter(pk__in=Finding.objects.active().filter(kind=filters.finding).values("battery_id"))
     if filters.overdue:
-        batteries = with_last_care(batteries).filter(stopgap_overdue_q(filters.overdue, now))
+        batteries = batteries.filter(stopgap_overdue_q(filters.overdue, now))
     if filters.past_life:
         batteries = batteries.filter(past_design_life_q(timezone.localdate(now)))
     column = F(SORTS[filters.sort])

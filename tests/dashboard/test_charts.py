@@ -1,0 +1,14 @@
+from fleetcare import charts
+
+
+def test_tukey_fences_use_the_quartiles_and_one_and_a_half_interquartile_ranges():
+    # Quartiles of 1..8 by the inclusive method: 2.75, 4.5, 6.25 (Python statistics.quantiles docs' method);
+    # fences at 1.5 IQR beyond them (Tukey's rule, common statistical convention).
+    assert charts.tukey_fences([1, 2, 3, 4, 5, 6, 7, 8]) == (2.75, 4.5, 6.25, -2.5, 11.5)
+
+
+def test_the_box_whiskers_stop_at_the_last_value_inside_the_fences():
+    fig = charts.box_with_outliers([("Jan", [10, 11, 12, 13, 40])], [("Jan", 40, "B-7")], "t", "mL")
+    box = fig.data[0]
+    assert box.upperfence == (13,) and box.lowerfence == (10,)
+    assert fig.data[1].text == ("B-7",)

@@ -1,0 +1,203 @@
+import datetime as dt
+import json
+import re
+
+import pytest
+from django.db import connection
+from django.test.utils import CaptureQueriesContext
+from django.urls import reverse
+
+from fleetcare.care.models import Finding
+from fleetcare.dashboard import selectors
+from fleetcare.fleet.models import Battery, Fitting, Vehicle
+from fleetcare.readings.models import Inspection
+from tests.dashboard.conftest import read, water
+
+HOME = "/"
+
+
+def section(context, title):
+    return next(s for s in context["sections"] if s["title"].startswith(title))
+
+
+def row(context, title, label):
+    return next(r for r in section(context, title)["rows"] if r["label"] == label)
+
+
+def counts(context, title, label):
+    """The row's counts: one per site column, then the all-sites total."""
+    return [c["count"] for c in row(context, title, label)["cells"]]
+
+
+def figure(html, element_id):
+    found = re.search(rf'<script type="application/json" id="{element_id}-data">(.*?)</script>', html, re.S)
+    return json.loads(found.group(1)) if found else None
+
+
+@pytest.fixture
+def super_client(client, supervisor):
+    client.force_login(supervisor)
+    return client
+
+
+def test_it_sends_anonymous_users_to_sign_in(client, db):
+    assert client.get(HOME)["Location"].startswith("/accounts/login/")
+
+
+def test_crew_see_the_overview_with_the_big_log_a_reading_button(crew_client, battery):
+    html = crew_client.get(HOME).content.decode()
+    assert re.search(r'class="btn btn-primary btn-lg[^"]*" href="/readings/[^"]*">Log a reading<', html)
+
+
+def test_it_counts_batteries_by_status_per_site_and_for_all_sites(super_client, battery, sealed_battery, other_battery,
+                                                                  traction_profile, site):
+    Battery.objects.create(serial="TW-002", profile=traction_profile, site=site, status="spare", in_service_date=dt.date(2025, 1, 1))
+    Battery.objects.create(serial="TW-OLD", profile=traction_profile, site=site, status="retired", in_service_date=dt.date(2015, 1, 1))
+    context = super_client.get(HOME).context
+    assert [c["name"] for c in context["columns"]] == ["Test residence", "Test warehouse", "All my sites"]
+    assert counts(context, "Batteries by status", "In service") == [1, 1, 2]  # the other site's battery is not mine
+    assert counts(context, "Batteries by status", "Spare") == [0, 1, 1]  # retired ones are left out
+    spare_all = row(context, "Batteries by status", "Spare")["cells"][-1]
+    assert spare_all["url"] == reverse("fleet:batteries") + "?status=spare"
+    assert row(context, "Batteries by status", "Spare")["cells"][1]["url"] == reverse("fleet:batteries") + "?status=spare&site=tw"
+
+
+def test_it_bands_state_of_charge_at_each_batterys_latest_reading(super_client, battery, sealed_battery, supervisor, now,
+                                                                 traction_profile, site):
+    # Profile: full 1.290, discharged 1.140, SOC linear between (field notes: common practice).
+    read(battery, supervisor, now - dt.timedelta(days=2), "charged", sg="1.290")  # 100 %
+    read(battery, supervisor, now - dt.timedelta(hours=3), "before_charge", sg="1.155", scope="pilot")  # 10 %
+    second = Battery.objects.create(serial="TW-002", profile=traction_profile, site=site, in_service_date=dt.date(2025, 1, 1))
+    read(second, supervisor, now - dt.timedelta(hours=1), "before_charge", sg="1.215", scope="pilot")  # 50 %
+    assert Inspection.objects.current().get(battery=second).soc_percent == 50
+    context = super_client.get(HOME).context
+    assert counts(context, "State of charge", "Below 20 %") == [0, 1, 1]
+    assert counts(context, "State of charge", "50–80 %") == [0, 1, 1]
+    assert counts(context, "State of charge", "No reading yet") == [1, 0, 1]  # the sealed pair, never read
+    assert row(context, "State of charge", "Below 20 %")["attention"]
+
+
+def test_it_counts_open_findings_by_kind_and_leaves_cleared_ones_out(super_client, battery, sealed_battery, now):
+    Finding.objects.create(battery=battery, kind="weak_cell", opened_at=now, last_seen_at=now)
+    Finding.objects.create(battery=sealed_battery, kind="weak_block", state="acknowledged", opened_at=now, last_seen_at=now)
+    Finding.objects.create(battery=battery, kind="sulfation", state="cleared", opened_at=now, last_seen_at=now, cleared_at=now)
+    context = super_client.get(HOME).context
+    labels = [r["label"] for r in section(context, "Open findings")["rows"]]
+    assert labels == ["Weak cell", "Weak block in a pair"]
+    assert counts(context, "Open findings", "Weak cell") == [0, 1, 1]
+    assert row(context, "Open findings", "Weak cell")["cells"][-1]["url"].endswith("?finding=weak_cell")
+
+
+def test_it_counts_overdue_equalizing_and_watering_by_the_stopgap_seven_day_rule(super_client, battery, sealed_battery,
+                                                                                supervisor, now):
+    read(battery, supervisor, now - dt.timedelta(days=3), "equalized")
+    water(battery, supervisor, now - dt.timedelta(days=8), 2400)
+    context = super_client.get(HOME).context
+    assert counts(context, "Care", "Equalizing overdue") == [0, 0, 0]
+    assert counts(context, "Care", "Watering overdue") == [0, 1, 1]  # the sealed pair takes no water
+    assert row(context, "Care", "Watering overdue")["cells"][1]["url"].endswith("?overdue=watering&site=tw")
+
+
+def test_an_equalizing_older_than_seven_days_or_a_deleted_one_does_not_count(super_client, battery, supervisor, now):
+    read(battery, supervisor, now - dt.timedelta(days=8), "equalized")
+    recent = read(battery, supervisor, now - dt.timedelta(days=1), "equalized")
+    Inspection.objects.filter(pk=recent.pk).update(deleted_at=now)
+    assert counts(super_client.get(HOME).context, "Care", "Equalizing overdue")[-1] == 1
+
+
+def test_it_counts_batteries_past_their_design_life(super_client, battery, sealed_battery, traction_profile, site):
+    # 5-year design life (profile default; field notes: roughly five years in one-shift use).
+    Battery.objects.create(serial="TW-AGED", profile=traction_profile, site=site, in_service_date=dt.date(2018, 3, 1))
+    assert counts(super_client.get(HOME).context, "Care", "Past design life") == [0, 1, 1]
+
+
+def test_another_sites_overview_answers_404(super_client, other_site, battery):
+    assert super_client.get(HOME, {"site": other_site.code}).status_code == 404
+    assert super_client.get(HOME, {"site": "tw"}).status_code == 200
+
+
+@pytest.mark.parametrize("size", [3, 30])
+def test_it_is_built_in_a_fixed_number_of_queries_whatever_the_fleet_size(super_client, build_fleet, size,
+                                                                          django_assert_max_num_queries):
+    build_fleet(size)
+    with django_assert_max_num_queries(14):
+        response = super_client.get(HOME)
+    assert response.status_code == 200
+    assert counts(response.context, "Batteries by status", "In service")[-1] == size
+
+
+def test_the_query_count_does_not_grow_with_the_fleet(super_client, build_fleet):
+    build_fleet(2, prefix="A")
+    with CaptureQueriesContext(connection) as small:
+        super_client.get(HOME)
+    build_fleet(12, prefix="B")
+    with CaptureQueriesContext(connection) as large:
+        super_client.get(HOME)
+    assert len(large.captured_queries) == len(small.captured_queries)
+
+
+def test_every_chart_is_drawn_for_a_fleet_with_history(super_client, build_fleet):
+    build_fleet(3)
+    html = super_client.get(HOME).content.decode()
+    for element_id in ("chart-fleet-soc", "chart-findings-weekly", "chart-water-monthly", "chart-worst-spread"):
+        assert figure(html, element_id) is not None, element_id
+    assert 'src="/static/vendor/plotly/plotly.min.js"' in html  # served locally, never from the internet
+
+
+def test_deep_discharge_counts_against_the_truck_and_shift_the_battery_was_fitted_to(battery, supervisor, now, site):
+    # Under 20 % state of charge is deep discharge (field notes: 80 % depth of discharge, common practice).
+    night_truck = Vehicle.objects.create(asset_number="FL-02", kind="forklift", site=site)
+    fitting = battery.fittings.get()
+    fitting.fitted_at = now - dt.timedelta(days=30)
+    fitting.shift = "Day"
+    fitting.removed_at = now - dt.timedelta(days=10)
+    fitting.save()
+    Fitting.objects.create(battery=battery, vehicle=night_truck, fitted_at=now - dt.timedelta(days=10), shift="Night")
+    read(battery, supervisor, now - dt.timedelta(days=20), "before_charge", sg="1.155", scope="pilot")  # 10 %: FL-01 Day
+    read(battery, supervisor, now - dt.timedelta(days=5), "in_use", sg="1.155", scope="pilot")  # FL-02 Night
+    read(battery, supervisor, now - dt.timedelta(days=4), "before_charge", sg="1.160", scope="pilot")  # 13 %: FL-02 Night
+    read(battery, supervisor, now - dt.timedelta(days=3), "before_charge", sg="1.200", scope="pilot")  # 40 %: not deep
+    read(battery, supervisor, now - dt.timedelta(days=2), "rested", sg="1.155", scope="pilot")  # rested: not counted
+    counts = selectors.deep_discharge_by_truck_and_shift(Battery.objects.all(), now - dt.timedelta(days=90))
+    assert counts == {("FL-01", "Day"): 1, ("FL-02", "Night"): 2}
+
+
+def test_the_water_chart_names_the_battery_that_stands_out(super_client, site, traction_profile, supervisor, now):
+    # Tukey's fences (1.5 interquartile ranges beyond the quartiles): a common statistical convention.
+    last_month = now.replace(day=1) - dt.timedelta(days=10)
+    for k, ml in enumerate([2400, 2500, 2300, 2450, 2350, 7200]):
+        b = Battery.objects.create(serial=f"W-{k}", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1))
+        water(b, supervisor, last_month, ml)
+    fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
+    outliers = fig["data"][1]
+    assert outliers["text"] == ["W-5"] and outliers["y"] == [300.0]  # 7,200 mL over 24 cells
+
+
+def test_a_flooded_battery_in_service_with_no_water_logged_counts_as_zero(super_client, site, traction_profile,
+                                                                          supervisor, now):
+    last_month = now.replace(day=1) - dt.timedelta(days=10)
+    for k in range(6):
+        b = Battery.objects.create(serial=f"W-{k}", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1))
+        if k:
+            water(b, supervisor, last_month, 2400 + 24 * k)
+    fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
+    assert fig["data"][1]["text"] == ["W-0"] and fig["data"][1]["y"] == [0.0]
+
+
+def test_the_findings_chart_counts_openings_and_clearings_per_week(super_client, battery, now):
+    Finding.objects.create(battery=battery, kind="weak_cell", opened_at=now, last_seen_at=now)
+    Finding.objects.create(battery=battery, kind="sulfation", state="cleared", opened_at=now - dt.timedelta(weeks=3),
+                           last_seen_at=now, cleared_at=now)
+    fig = figure(super_client.get(HOME).content.decode(), "chart-findings-weekly")
+    opened, cleared = fig["data"]
+    assert sum(opened["y"]) == 2 and opened["y"][-1] == 1
+    assert sum(cleared["y"]) == 1 and cleared["y"][-1] == 1
+
+
+def test_the_spread_chart_follows_the_widest_batteries(super_client, battery, supervisor, now, traction_profile, site):
+    read(battery, supervisor, now - dt.timedelta(days=1), "charged", weak=(9, "1.240"))  # 50 points
+    calm = Battery.objects.create(serial="TW-CALM", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1))
+    read(calm, supervisor, now - dt.timedelta(days=1), "charged", weak=(2, "1.280"))  # 10 points
+    fig = figure(super_client.get(HOME).content.decode(), "chart-worst-spread")
+    assert [t["name"] for t in fig["data"]] == ["TW-001", "TW-CALM"]
+    assert fig["data"][0]["y"] == [50]
