@@ -14,7 +14,8 @@ class CapacityTestAdmin(admin.ModelAdmin):
 
 @admin.register(BudgetAssumptions)
 class BudgetAssumptionsAdmin(admin.ModelAdmin):
-    list_display = ["__str__", "currency", "installation_cost", "escalation_percent", "fiscal_year_start_month", "updated_at"]
+    list_display = ["__str__", "currency", "installation_cost", "escalation_percent", "fiscal_year_start_month",
+                    "updated_at"]
     readonly_fields = ["updated_at", "updated_by"]
 
     def has_add_permission(self, request):

@@ -25,7 +25,9 @@ def load(today=None):
     """Add the demo budget data once. Returns False if it was already there (or the demo fleet is not)."""
     today = today or timezone.localdate()
     batteries = {b.serial: b for b in Battery.objects.filter(serial__in=DEMO_TESTS)}
-    if not batteries or BudgetAssumptions.objects.exists() or CapacityTest.objects.filter(battery__in=batteries.values()).exists():
+    if not batteries or BudgetAssumptions.objects.exists():
+        return False
+    if CapacityTest.objects.filter(battery__in=batteries.values()).exists():
         return False
     with transaction.atomic():
         BudgetAssumptions.objects.create(
@@ -38,8 +40,8 @@ def load(today=None):
                 "typical_depth_percent": Decimal("40"), "installation_cost": Decimal("35"),
             })
         CapacityTest.objects.bulk_create([
-            CapacityTest(battery=batteries[serial], tested_on=today - timedelta(days=days), percent_of_rated=Decimal(str(pct)),
-                         notes="Demo: 5-hour discharge test")
+            CapacityTest(battery=batteries[serial], tested_on=today - timedelta(days=days),
+                         percent_of_rated=Decimal(str(pct)), notes="Demo: 5-hour discharge test")
             for serial, tests in DEMO_TESTS.items() if serial in batteries for days, pct in tests
         ])
     return True

@@ -249,11 +249,11 @@ def fit_trend(points):
     sxx = sum((x - mx) ** 2 for x in xs)
     if sxx == 0:
         return None
-    slope = sum((x - mx) * (y - my) for x, y in zip(xs, ys)) / sxx
+    slope = sum((x - mx) * (y - my) for x, y in zip(xs, ys, strict=True)) / sxx
     intercept = my - slope * mx
     se = None
     if n > 2:
-        residual = sum((y - (intercept + slope * x)) ** 2 for x, y in zip(xs, ys))
+        residual = sum((y - (intercept + slope * x)) ** 2 for x, y in zip(xs, ys, strict=True))
         se = math.sqrt(residual / (n - 2) / sxx)
     return Trend(slope, intercept, se, origin)
 
@@ -279,7 +279,9 @@ def _trend_range(trend, last_day, level, today, rules, significant_only):
     spread = trend.slope_se if trend.slope_se is not None else abs(trend.slope) * 0.25
     steeper = _reach(trend.origin, start_x, start_value, trend.slope + direction * spread, level)
     shallow_slope = trend.slope - direction * spread
-    shallower = _reach(trend.origin, start_x, start_value, shallow_slope, level) if shallow_slope * direction > 0 else None
+    shallower = None
+    if shallow_slope * direction > 0:
+        shallower = _reach(trend.origin, start_x, start_value, shallow_slope, level)
     to_go = max((likely - today).days, 0)
     margin = timedelta(days=math.ceil(to_go * 0.10))
     earliest = min(steeper or likely, likely - margin)
@@ -369,8 +371,8 @@ def capacity_evidence(facts, today, rules):
         return Evidence(CAPACITY, detail)
     dates = _trend_range(trend, last_day, floor, today, rules, significant_only=False)
     per_year = -trend.slope * DAYS_PER_YEAR
-    detail = (f"{len(tests)} tests, latest {last_value:g} % on {last_day:%Y-%m-%d}, falling {per_year:.1f} points a year "
-              f"toward {floor:g} %")
+    detail = (f"{len(tests)} tests, latest {last_value:g} % on {last_day:%Y-%m-%d}, "
+              f"falling {per_year:.1f} points a year toward {floor:g} %")
     if dates is None:
         return Evidence(CAPACITY, detail)
     return Evidence(CAPACITY, detail, dates[1], dates[0], dates[2])
@@ -391,7 +393,8 @@ def sg_mean_evidence(facts, today, rules):
     recent = [v for _, v in points[-3:]]
     now = sum(recent) / len(recent)
     if len(points) >= 3 and now <= level:
-        detail = f"averaging {now:.3f} after charge, at or under {level:.3f} (full charge {facts.full_charge_sg:.3f} less {rules.sg_drop_allowed:.3f})"
+        detail = (f"averaging {now:.3f} after charge, at or under {level:.3f} "
+                  f"(full charge {facts.full_charge_sg:.3f} less {rules.sg_drop_allowed:.3f})")
         day = points[-1][0]
         return Evidence(SG_MEAN, detail, day, day, day + timedelta(days=rules.act_within_days))
     detail = f"averaging {now:.3f} after charge against a limit of {level:.3f}"
@@ -453,7 +456,13 @@ def cells_evidence(facts, today, rules):
     if not cells:
         return None, ()
     names = ", ".join(map(str, cells))
-    detail = f"cell{'s' if len(cells) > 1 else ''} {names} failing (persistently low after charge)"
+    sources = []
+    if facts.weak_cells:
+        sources.append("an open weak-cell finding")
+    if persistently_low_cell(facts, rules) is not None:
+        sources.append(f"lowest by {rules.failing_cell_drop:.3f} or more on the last {rules.failing_cell_readings} "
+                       "post-charge readings")
+    detail = f"cell{'s' if len(cells) > 1 else ''} {names} failing ({'; '.join(sources)})"
     return Evidence(CELLS, detail, today, today, today + timedelta(days=rules.act_within_days)), cells
 
 
@@ -525,8 +534,8 @@ def _line(facts, kind, decided_by, likely, earliest, latest, today, money, cells
     price = escalated(unit, today, budget_date, money.escalation_percent)
     whole = None
     if kind == CELL_LINE:
-        whole = escalated(facts.unit_price, today, budget_date, money.escalation_percent) + _installation(facts, money) \
-            - _cents(facts.weight_kg * money.scrap_credit_per_kg)
+        whole = (escalated(facts.unit_price, today, budget_date, money.escalation_percent)
+                 + _installation(facts, money) - _cents(facts.weight_kg * money.scrap_credit_per_kg))
     return Line(
         facts=facts, kind=kind, decided_by=decided_by, likely=budget_date, earliest=max(earliest, today),
         latest=max(latest, budget_date), budget_date=budget_date, overdue_since=likely if likely < today else None,

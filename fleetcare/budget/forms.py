@@ -55,7 +55,8 @@ class ProfileSettingsForm(forms.Form):
         for profile in self.profiles:
             row = saved.get(profile.pk)
             self.fields[f"price_{profile.pk}"] = forms.DecimalField(
-                label=f"{profile.name}: budget unit price", required=False, min_value=0, max_digits=10, decimal_places=2,
+                label=f"{profile.name}: budget unit price", required=False, min_value=0, max_digits=10,
+                decimal_places=2,
                 initial=row.unit_price if row else None,
                 help_text=f"Blank uses the profile's unit price, {profile.unit_price:,.2f}.",
             )

@@ -21,7 +21,8 @@ class CapacityTest(models.Model):
         validators=[MinValueValidator(Decimal("1")), MaxValueValidator(Decimal("150"))],
     )
     notes = models.TextField(blank=True)
-    tested_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
+    tested_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, null=True, blank=True,
+                                  related_name="+")
     recorded_at = models.DateTimeField(auto_now_add=True)
 
     class Meta:
@@ -55,7 +56,8 @@ class BudgetAssumptions(models.Model):
     )
     fiscal_year_start_month = models.PositiveSmallIntegerField(
         default=1, validators=[MinValueValidator(1), MaxValueValidator(12)],
-        help_text="1 = January. A fiscal year is labelled by the calendar year it ends in (April start: FY2027 ends March 2027).",
+        help_text="1 = January. A fiscal year is labelled by the calendar year it ends in "
+                  "(April start: FY2027 ends March 2027).",
     )
     cell_cost = _money("replacement cost per cell", "One traction cell fitted into a tray, labour included.")
     include_renewals = models.BooleanField(
@@ -69,7 +71,8 @@ class BudgetAssumptions(models.Model):
         help_text="Default 80 %: IEEE Std 450 practice for vented cells (from memory).",
     )
     sg_drop_allowed = models.DecimalField(
-        "average SG after charge may fall below full charge by", max_digits=4, decimal_places=3, default=Decimal("0.030"),
+        "average SG after charge may fall below full charge by", max_digits=4, decimal_places=3,
+        default=Decimal("0.030"),
         validators=[MinValueValidator(Decimal("0.005"))],
         help_text="Default 0.030: the low end of the field notes' failing-cell band (common practice).",
     )
@@ -101,7 +104,8 @@ class BudgetAssumptions(models.Model):
     )
 
     updated_at = models.DateTimeField(auto_now=True)
-    updated_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True, related_name="+")
+    updated_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
+                                   related_name="+")
 
     class Meta:
         verbose_name = "budget assumptions"
@@ -135,7 +139,8 @@ class ProfileBudget(models.Model):
 
     profile = models.OneToOneField(BatteryProfile, on_delete=models.CASCADE, related_name="budget_settings")
     unit_price = models.DecimalField(
-        "budget unit price", max_digits=10, decimal_places=2, null=True, blank=True, validators=[MinValueValidator(ZERO)],
+        "budget unit price", max_digits=10, decimal_places=2, null=True, blank=True,
+        validators=[MinValueValidator(ZERO)],
         help_text="Blank uses the profile's own unit price.",
     )
     installation_cost = models.DecimalField(

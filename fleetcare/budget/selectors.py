@@ -47,7 +47,10 @@ def _start_of(day):
     return timezone.make_aware(datetime.combine(day, time.min))
 
 
-def battery_facts(batteries, today, rules=forecast.Rules()):
+DEFAULT_RULES = forecast.Rules()
+
+
+def battery_facts(batteries, today, rules=DEFAULT_RULES):
     """BatteryFacts for every battery in `batteries` that is not retired, oldest serial first."""
     batteries = batteries.active().select_related("profile", "site", "profile__budget_settings").order_by("serial")
     rows = list(batteries)

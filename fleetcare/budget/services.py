@@ -12,7 +12,10 @@ def record_capacity_test(*, battery, user, tested_on, percent_of_rated, notes=""
 
 
 def save_assumptions(*, form, profile_settings, user):
-    """Save the assumptions form and each profile's budget settings ({profile: {field: value or None}}; all blank: none)."""
+    """Save the assumptions and each profile's budget settings ({profile: {field: value or None}}).
+
+    A profile whose settings are all blank keeps no row.
+    """
     with transaction.atomic():
         assumptions = form.save(commit=False)
         assumptions.pk = 1

@@ -51,7 +51,8 @@ def budget_page(request):
     query = request.GET.copy()
     query.pop("quarter", None)
     return render(request, "budget/budget.html", {
-        **filters, "budget": budget, "assumptions": assumptions, "chart": selectors.budget_chart(budget, assumptions.currency),
+        **filters, "budget": budget, "assumptions": assumptions,
+        "chart": selectors.budget_chart(budget, assumptions.currency),
         "drill": drill, "drill_rows": selectors.drill_rows(budget, drill), "quarter": chosen,
         "filter_query": query.urlencode(), "overdue": sum(1 for ln in budget.lines if ln.overdue_since),
         "profile_prices": exports.prices_rows(budget),
@@ -77,7 +78,8 @@ def export(request, fmt):
             content_type="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
         )
     else:
-        response = HttpResponse(exports.to_csv(budget, assumptions, filters["scope"]), content_type="text/csv; charset=utf-8")
+        response = HttpResponse(exports.to_csv(budget, assumptions, filters["scope"]),
+                                content_type="text/csv; charset=utf-8")
     response["Content-Disposition"] = f'attachment; filename="replacement-budget-{stamp}.{fmt}"'
     return response
 

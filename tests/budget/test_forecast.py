@@ -169,7 +169,8 @@ def test_cost_is_escalated_price_plus_installation_less_scrap_credit():
 
 def test_a_short_lived_pair_is_budgeted_again_after_its_replacement():
     pair = tray(traction_tray=False, cell_count=12, design_life_years=2.0, design_cycles=5000,
-                in_service_date=date(2024, 12, 2), unit_price=Decimal("310"), weight_kg=Decimal("42"), full_charge_sg=None)
+                in_service_date=date(2024, 12, 2), unit_price=Decimal("310"), weight_kg=Decimal("42"),
+                full_charge_sg=None)
     lines = fc.budget_lines(fc.forecast_battery(pair, TODAY), TODAY, fc.horizon_end(TODAY, 5), fc.Money())
     assert [ln.kind for ln in lines] == [fc.BATTERY, fc.RENEWAL, fc.RENEWAL]
     assert [ln.quarter for ln in lines] == ["2026 Q4", "2028 Q4", "2030 Q4"]
