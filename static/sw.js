@@ -56,6 +56,15 @@ function precache(list) {
 
 self.addEventListener("message", function (event) {
   var data = event.data || {};
+  if (data.type === "forget") {
+    event.waitUntil(caches.open(PAGES).then(function (cache) {
+      return cache.keys().then(function (requests) {
+        return Promise.all(requests.filter(function (request) {
+          return new URL(request.url).pathname !== OFFLINE_PAGE;
+        }).map(function (request) { return cache.delete(request); }));
+      });
+    }));
+  }
   if (data.type === "precache" && data.source) {
     var work = fetch(data.source, {credentials: "same-origin", headers: {Accept: "application/json"}})
       .then(function (response) { return response.ok ? response.json() : null; })

@@ -19,14 +19,22 @@
     navigator.serviceWorker.register(config.sw, {scope: "/"}).then(function () {
       return navigator.serviceWorker.ready;
     }).then(function (registration) {
-      if (!config.precache || !navigator.onLine) return;
-      var last = Number(localStorage.getItem("fc-precached-at") || 0);
-      if (Date.now() - last < PRECACHE_EVERY_MS && !config.precacheNow) return;
+      if (!navigator.onLine) return;
+      var last = JSON.parse(localStorage.getItem("fc-precached") || "{}");
+      if (!config.user) {
+        // Signed out (and not the offline page standing in for another): forget the last user's pages.
+        if (last.user && !document.getElementById("offline-batteries")) {
+          registration.active.postMessage({type: "forget"});
+          localStorage.removeItem("fc-precached");
+        }
+        return;
+      }
+      if (last.user === config.user && Date.now() - (last.at || 0) < PRECACHE_EVERY_MS) return;
       registration.active.postMessage({type: "precache", source: config.precache});
     }).catch(function () {});
     navigator.serviceWorker.addEventListener("message", function (event) {
       if (event.data && event.data.type === "precached") {
-        localStorage.setItem("fc-precached-at", String(Date.now()));
+        localStorage.setItem("fc-precached", JSON.stringify({user: config.user, at: Date.now()}));
         document.documentElement.dataset.precached = String(event.data.pages);
       }
     });
@@ -163,11 +171,14 @@
     });
   }
 
+  function mine(item) { return !item.user || item.user === config.user; }
+
   function sendWaiting() {
-    if (sending || !navigator.onLine) return Promise.resolve();
+    if (sending || !navigator.onLine || !config.user) return Promise.resolve();
     sending = true;
     return allItems().then(function (items) {
-      var waiting = items.filter(function (i) { return i.state !== "rejected"; });
+      // Only the crew member who took a reading sends it: it is stored under their name.
+      var waiting = items.filter(function (i) { return i.state !== "rejected" && mine(i); });
       return waiting.reduce(function (chain, item) {
         return chain.then(function () { return sendOne(item); });
       }, Promise.resolve());
@@ -209,7 +220,7 @@
     return {
       client_uuid: body.client_uuid, kind: "inspection", api: form.dataset.offlineApi, serial: form.dataset.serial,
       page: location.pathname + location.search, body: body, fields: fields, state: "waiting", detail: "",
-      errors: {}, csrf: data.get("csrfmiddlewaretoken") || "", saved_at: new Date().toISOString()
+      errors: {}, csrf: data.get("csrfmiddlewaretoken") || "", saved_at: new Date().toISOString(), user: config.user || ""
     };
   }
 
@@ -326,7 +337,9 @@
       var row = el("div", {"class": "list-group-item py-3", "data-uuid": item.client_uuid, "data-state": item.state});
       row.appendChild(el("div", {"class": "fw-semibold"}, item.serial + " · reading taken " + item.body.taken_at.replace("T", " ")));
       var refused = item.state === "rejected";
-      row.appendChild(el("div", {}, refused ? "Refused: " + item.detail : "Waiting to send." + (item.detail ? " " + item.detail : "")));
+      var state = refused ? "Refused: " + item.detail : "Waiting to send." + (item.detail ? " " + item.detail : "");
+      if (!mine(item)) state = "Taken by " + item.user + ": it is sent when " + item.user + " signs in on this tablet.";
+      row.appendChild(el("div", {}, state));
       Object.keys(item.errors || {}).forEach(function (name) {
         item.errors[name].forEach(function (m) {
           if (m === item.detail) return;

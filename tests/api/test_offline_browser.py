@@ -148,3 +148,29 @@ def test_a_reading_whose_answer_was_lost_is_resent_and_still_stored_once(tablet,
     page.locator("#outbox-empty").wait_for(state="visible")
     assert page.locator("#fc-outbox").is_hidden()
     assert Inspection.objects.count() == 1
+
+
+def test_a_kept_reading_waits_for_the_crew_member_who_took_it(tablet, battery, supervisor, live_server, crew):
+    """A shared tablet: a reading is stored under the name of whoever took it, never of the next user."""
+    context, page = tablet
+    page.goto(f"/readings/battery/{battery.pk}/inspect/")
+    context.set_offline(True)
+    _key_in_reading(page)
+    page.locator("#fc-outbox").get_by_text("1 waiting to send").wait_for()
+
+    def sign_in_as(user):
+        client = Client()
+        client.force_login(user)
+        context.clear_cookies()
+        context.add_cookies([{"name": "sessionid", "value": client.cookies["sessionid"].value, "url": live_server.url}])
+
+    context.set_offline(False)
+    sign_in_as(supervisor)
+    page.goto("/api/outbox/")
+    page.get_by_text("Taken by crew1: it is sent when crew1 signs in on this tablet.").wait_for()
+    assert Inspection.objects.count() == 0
+
+    sign_in_as(crew)
+    page.goto("/api/outbox/")
+    page.locator("#outbox-empty").wait_for(state="visible")
+    assert Inspection.objects.get().taken_by == crew
