@@ -47,6 +47,7 @@ def assumption_rows(budget, assumptions, scope):
         ("Cell replacement offered for up to (cells)", assumptions.max_cells_for_cell_option),
         ("Range either side of a design-life date (% of life)", float(assumptions.life_margin_percent)),
         ("Cost", "escalated unit price + installation - weight x scrap credit per kg"),
+        ("Dates", "a date already past is budgeted on the day the budget is built; 'Overdue since' keeps it"),
     ]
 
 

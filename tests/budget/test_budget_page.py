@@ -4,11 +4,13 @@ import io
 from decimal import Decimal
 
 import pytest
+from django.contrib.auth.models import AnonymousUser
 from django.urls import reverse
 from openpyxl import load_workbook
 
 from fleetcare.budget import forecast
 from fleetcare.budget.models import BudgetAssumptions, CapacityTest
+from fleetcare.budget.templatetags.budget import can_see_budget
 from tests.budget.conftest import DESIGN_LIFE_DAYS, quarter_label
 
 PAGES = ["budget:home", "budget:export_csv", "budget:export_xlsx", "budget:assumptions"]
@@ -197,3 +199,7 @@ def test_a_capacity_test_for_another_sites_battery_is_refused(client, supervisor
 
 def test_crew_cannot_record_capacity_tests(crew_client, battery):
     assert crew_client.get(reverse("budget:capacity_tests")).status_code == 403
+
+
+def test_the_menu_filter_is_safe_without_a_signed_in_user():
+    assert can_see_budget(AnonymousUser()) is False and can_see_budget("") is False

@@ -8,7 +8,7 @@ register = template.Library()
 @register.filter
 def can_see_budget(user):
     """Managers and administrators see the replacement budget."""
-    return has_role(user, MANAGER)
+    return bool(getattr(user, "is_authenticated", False)) and has_role(user, MANAGER)
 
 
 @register.filter
