@@ -168,7 +168,12 @@ def _parse_row(line, row, memo, errors):
 def import_readings(text, *, user, batteries, good_rows_only=False, dry_run=False):
     """Validate every row, then store all inspections in one transaction (or nothing)."""
     report = ImportReport(dry_run=dry_run)
-    reader = csv.DictReader(io.StringIO(text))
+    reader = csv.DictReader(io.StringIO(text, newline=""))  # newline="": also old-Mac \r line endings
+    try:
+        rows = list(reader)
+    except csv.Error as exc:
+        report.errors.append((reader.line_num or 1, f"the file cannot be read as CSV ({exc}). Save it as CSV (UTF-8) and try again."))
+        return report
     missing = [c for c in ("serial", "taken_at", "situation", "cell") if c not in (reader.fieldnames or [])]
     if missing:
         report.errors.append((1, f"missing column(s): {', '.join(missing)}. Expected: {', '.join(COLUMNS)}."))
@@ -177,7 +182,7 @@ def import_readings(text, *, user, batteries, good_rows_only=False, dry_run=Fals
     groups = defaultdict(list)  # the row's own (serial, taken_at, situation) text -> [(line, entry)]
     group_battery = {}  # same key -> ((serial, aware taken_at, situation), battery)
     bad_groups = set()
-    for line, row in enumerate(reader, start=2):
+    for line, row in enumerate(rows, start=2):
         report.rows_read += 1
         raw_key = tuple((row.get(c) or "").strip() for c in ("serial", "taken_at", "situation"))
         parsed = _parse_row(line, row, memo, report.errors)
