@@ -95,9 +95,10 @@ def build(size, user_model):
     Fitting.objects.bulk_create([Fitting(battery=b, vehicle=v, fitted_at=start) for b, v in zip(in_service, vehicles)])
     inspections, cells = _readings(start, profile, users[CREW])
     _top_ups(start, users[CREW])
+    # A steady-state database, not a freshly loaded one: set hint bits and the visibility map, refresh statistics.
     with connection.cursor() as cursor:
-        for table in ("readings_inspection", "readings_cellreading", "readings_watertopup", "fleet_battery"):
-            cursor.execute(f"ANALYZE {table}")
+        for table in ("readings_inspection", "readings_cellreading", "readings_watertopup", "fleet_battery", "fleet_fitting"):
+            cursor.execute(f"VACUUM ANALYZE {table}")
     return Fleet(size, sites, profile, users[SUPERVISOR], users[CREW], users[MANAGER], batteries, inspections, cells)
 
 

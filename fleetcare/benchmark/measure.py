@@ -59,41 +59,118 @@ def page(user, path):
     return get
 
 
-DASHBOARD_SQL = """
-SELECT b.id, b.serial, l.soc_percent, l.sg_spread, l.taken_at, l.situation,
-       CASE WHEN l.soc_percent IS NULL THEN 'no reading' WHEN l.soc_percent < 20 THEN '0-20'
-            WHEN l.soc_percent < 50 THEN '20-50' WHEN l.soc_percent < 80 THEN '50-80' ELSE '80-100' END AS band
-  FROM fleet_battery b
-  LEFT JOIN LATERAL (
-        SELECT i.soc_percent, i.sg_spread, i.taken_at, i.situation
+VISIBLE = "SELECT b.id FROM fleet_battery b WHERE b.status <> 'retired' AND b.site_id IN (SELECT site_id FROM fleet_site_members WHERE user_id = %(user)s)"
+CURRENT = "i.is_current AND i.deleted_at IS NULL"
+
+# One statement per thing the overview shows, written by hand, each using the indexes at hand.
+DASHBOARD_SQL = {
+    # The count table: per site, batteries by status, by SOC band at their latest reading, overdue
+    # equalizing and watering (nothing logged in 7 days) and past design life; and the 5 widest spreads.
+    "counts": f"""
+        WITH r AS MATERIALIZED (
+            SELECT b.id, b.serial, b.site_id, b.status,
+                   (SELECT i.soc_percent FROM readings_inspection i WHERE i.battery_id = b.id AND {CURRENT}
+                     ORDER BY i.taken_at DESC LIMIT 1) AS soc,
+                   (SELECT i.sg_spread FROM readings_inspection i WHERE i.battery_id = b.id AND {CURRENT}
+                       AND i.situation IN ('charged', 'equalized') AND i.scope = 'all' AND i.sg_spread IS NOT NULL
+                     ORDER BY i.taken_at DESC LIMIT 1) AS spread,
+                   p.technology = 'flooded' AND p.equalizing_allowed AND NOT EXISTS (
+                       SELECT 1 FROM readings_inspection i WHERE i.battery_id = b.id AND {CURRENT}
+                          AND i.situation = 'equalized' AND i.taken_at >= %(care_since)s) AS overdue_eq,
+                   p.technology = 'flooded' AND p.watering_allowed AND NOT EXISTS (
+                       SELECT 1 FROM readings_watertopup w WHERE w.battery_id = b.id AND w.deleted_at IS NULL
+                          AND w.done_at >= %(care_since)s) AS overdue_water,
+                   b.in_service_date + round(p.design_life_years * 365.25)::int <= %(today)s AS past_life
+              FROM fleet_battery b JOIN fleet_batteryprofile p ON p.id = b.profile_id
+             WHERE b.id IN ({VISIBLE}))
+        SELECT 'status', site_id::text, status, count(*)::numeric FROM r GROUP BY site_id, status
+        UNION ALL
+        SELECT 'soc', site_id::text, CASE WHEN soc IS NULL THEN 'none' WHEN soc < 20 THEN 'below20'
+                   WHEN soc < 50 THEN '20to50' WHEN soc < 80 THEN '50to80' ELSE '80up' END, count(*) FROM r GROUP BY 2, 3
+        UNION ALL
+        SELECT 'care', site_id::text, 'equalizing', count(*) FILTER (WHERE overdue_eq) FROM r GROUP BY site_id
+        UNION ALL
+        SELECT 'care', site_id::text, 'watering', count(*) FILTER (WHERE overdue_water) FROM r GROUP BY site_id
+        UNION ALL
+        SELECT 'care', site_id::text, 'past_life', count(*) FILTER (WHERE past_life) FROM r GROUP BY site_id
+        UNION ALL
+        (SELECT 'widest', id::text, serial, spread FROM r WHERE spread IS NOT NULL ORDER BY spread DESC, serial LIMIT 5)
+    """,
+    "open_findings": f"""
+        SELECT b.site_id, f.kind, count(DISTINCT f.battery_id) FROM care_finding f JOIN fleet_battery b ON b.id = f.battery_id
+         WHERE f.state IN ('open', 'acknowledged') AND f.battery_id IN ({VISIBLE}) GROUP BY 1, 2
+    """,
+    "findings_per_week": f"""
+        SELECT 'opened', date_trunc('week', opened_at), count(*) FROM care_finding
+         WHERE opened_at >= %(weeks_from)s AND battery_id IN ({VISIBLE}) GROUP BY 2
+        UNION ALL
+        SELECT 'cleared', date_trunc('week', cleared_at), count(*) FROM care_finding
+         WHERE cleared_at >= %(weeks_from)s AND battery_id IN ({VISIBLE}) GROUP BY 2
+    """,
+    "water_per_month": f"""
+        SELECT w.battery_id, date_trunc('month', w.done_at), sum(w.volume_ml) FROM readings_watertopup w
+         WHERE w.deleted_at IS NULL AND w.done_at >= %(months_from)s AND w.done_at < %(months_to)s
+           AND w.battery_id IN ({VISIBLE}) GROUP BY 1, 2
+    """,
+    "deep_discharge": f"""
+        SELECT coalesce(v.asset_number, 'Not fitted'), coalesce(nullif(f.shift, ''), 'No shift set'), count(*)
           FROM readings_inspection i
-         WHERE i.battery_id = b.id AND i.is_current AND i.deleted_at IS NULL
-         ORDER BY i.taken_at DESC LIMIT 1) AS l ON true
- WHERE b.status <> 'retired'
-   AND b.site_id IN (SELECT site_id FROM fleet_site_members WHERE user_id = %s)
- ORDER BY b.serial
-"""
+          LEFT JOIN LATERAL (SELECT f.vehicle_id, f.shift FROM fleet_fitting f
+                              WHERE f.battery_id = i.battery_id AND f.fitted_at <= i.taken_at
+                                AND (f.removed_at IS NULL OR f.removed_at > i.taken_at)
+                              ORDER BY f.fitted_at DESC LIMIT 1) AS f ON true
+          LEFT JOIN fleet_vehicle v ON v.id = f.vehicle_id
+         WHERE {CURRENT} AND i.taken_at >= %(deep_since)s AND i.soc_percent < 20
+           AND i.situation IN ('in_use', 'before_charge') AND i.battery_id IN ({VISIBLE})
+         GROUP BY 1, 2
+    """,
+    "spread_series": f"""
+        SELECT i.battery_id, i.taken_at, i.sg_spread FROM readings_inspection i
+         WHERE i.battery_id = ANY(%(widest)s) AND {CURRENT} AND i.situation IN ('charged', 'equalized')
+           AND i.scope = 'all' AND i.sg_spread IS NOT NULL AND i.taken_at >= %(spread_since)s
+         ORDER BY i.taken_at
+    """,
+}
+
+
+def dashboard_reference(user, now=None):
+    """Run the hand-written statements; returns {name: rows}."""
+    now = now or timezone.now()
+    month = now.replace(day=1, hour=0, minute=0, second=0, microsecond=0)
+    months_from = month
+    for _ in range(12):
+        months_from = (months_from - dt.timedelta(days=1)).replace(day=1)
+    monday = (now - dt.timedelta(days=now.weekday())).replace(hour=0, minute=0, second=0, microsecond=0)
+    params = {
+        "user": user.pk, "today": timezone.localdate(now), "care_since": now - dt.timedelta(days=7),
+        "weeks_from": monday - dt.timedelta(weeks=25), "months_from": months_from, "months_to": month,
+        "deep_since": now - dt.timedelta(days=90), "spread_since": now - dt.timedelta(weeks=26),
+    }
+    out = {}
+    with connection.cursor() as cursor:
+        for name, sql in DASHBOARD_SQL.items():
+            if name == "spread_series":
+                params["widest"] = [int(row[1]) for row in out["counts"] if row[0] == "widest"]
+            cursor.execute(sql, params)
+            out[name] = cursor.fetchall()
+    return out
 
 
 def dashboard(fleet, repeat):
-    """The supervisor's overview page against one hand-written query giving its numbers.
+    """The supervisor's overview page against hand-written SQL giving the same numbers.
 
-    The reference returns what the page shows per battery (latest current reading's SOC, spread,
-    time and situation, and the SOC band the fleet chart counts) for every active battery the
-    supervisor may see, using the (battery, -taken_at) index.
+    The reference runs one statement per part of the page (count table, open findings, findings per
+    week, water per battery and month, deep discharge by truck and shift, the widest spreads over
+    time) for every active battery the supervisor may see; the page's own session and user queries
+    are not in it.
     """
     get = page(fleet.supervisor, "/")
-
-    def reference():
-        with connection.cursor() as cursor:
-            cursor.execute(DASHBOARD_SQL, [fleet.supervisor.pk])
-            return cursor.fetchall()
-
-    rows = reference()
+    rows = dashboard_reference(fleet.supervisor)
     return {
         "ms": median_ms(get, repeat), "queries": query_count(get),
-        "reference_ms": median_ms(reference, repeat), "reference": "hand-written SQL (LATERAL latest reading per battery)",
-        "rows": len(rows),
+        "reference_ms": median_ms(lambda: dashboard_reference(fleet.supervisor), repeat),
+        "reference": f"hand-written SQL, {len(DASHBOARD_SQL)} statements",
+        "reference_rows": sum(len(r) for r in rows.values()),
     }
 
 

@@ -28,7 +28,6 @@ import random
 import re
 import signal
 import socket
-import statistics
 import subprocess
 import sys
 import threading
@@ -228,9 +227,10 @@ def admin_sql(database_url, sql):
 
 def create_world(tablets):
     """One warehouse, one 24-cell battery and one crew login per tablet; returns [(username, battery pk)]."""
+    from decimal import Decimal
+
     from django.contrib.auth import get_user_model
     from django.core.management import call_command
-    from decimal import Decimal
 
     from fleetcare.accounts.roles import CREW, ensure_groups
     from fleetcare.fleet.models import Battery, BatteryProfile, ChargingRoom, Site

@@ -10,7 +10,6 @@ import time
 import traceback
 
 import psycopg2
-from django.conf import settings
 from django.contrib.auth import get_user_model
 from django.core.management import call_command
 from django.core.management.base import BaseCommand, CommandError
