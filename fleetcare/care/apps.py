@@ -7,8 +7,12 @@ class CareConfig(AppConfig):
     verbose_name = "Findings and care"
 
     def ready(self):
+        from django.db.models.signals import post_save
+
+        from fleetcare.accounts.models import ReadingChange
         from fleetcare.care import detection
         from fleetcare.readings import signals
 
         signals.inspection_recorded.connect(detection.on_inspection_recorded, dispatch_uid="care-detect-inspection")
         signals.top_up_recorded.connect(detection.on_top_up_recorded, dispatch_uid="care-detect-top-up")
+        post_save.connect(detection.on_reading_change, sender=ReadingChange, dispatch_uid="care-detect-removal")

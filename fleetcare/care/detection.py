@@ -251,3 +251,10 @@ def on_inspection_recorded(sender, inspection, **kwargs):
 
 def on_top_up_recorded(sender, top_up, **kwargs):
     _detect_one(top_up.battery_id)
+
+
+def on_reading_change(sender, instance, created, **kwargs):
+    """A removed inspection or top-up no longer counts: check that battery again once the removal commits."""
+    if created and instance.action == "removed":
+        battery_id = instance.battery_id
+        transaction.on_commit(lambda: _detect_one(battery_id))

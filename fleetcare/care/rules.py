@@ -432,7 +432,8 @@ def high_water_use(data):
                  f"{per_charge_ah:.0f} Ah ({use['overcharge_pct_per_charge']:.0f} % of rating) per charge"),
         rule=("Water lost per cell is water split by overcharge (Faraday's law: about "
               f"{use['grams_per_ah']:.3f} g per Ah). Water use above the band means the battery is overcharged: "
-              "a charger setting or an ageing battery."),
+              "a charger setting or an ageing battery. The first top-up in the window starts the measurement; the water "
+              "of the later ones, over the days between the first and the last, gives the monthly rate."),
         readings=[{"done_at": _when(t.done_at), "volume_ml": _f(t.volume_ml, 1), "before_charge": t.before_charge}
                   for t in use["top_ups"]],
         thresholds=[data.policy.evidence("max_overcharge_percent"), data.policy.evidence("water_use_window_days")],

@@ -21,3 +21,15 @@ def test_saving_a_top_up_clears_a_low_level(battery, crew, watered, django_captu
         water(battery, crew, timezone.now() - dt.timedelta(hours=1), 600)
     finding.refresh_from_db()
     assert finding.state == Finding.State.CLEARED
+
+
+def test_removing_the_reading_that_showed_a_fault_clears_it(battery, crew, supervisor, watered,
+                                                            django_capture_on_commit_callbacks):
+    from fleetcare.readings.services import remove_inspection
+
+    with django_capture_on_commit_callbacks(execute=True):
+        wrong = inspect(battery, crew, timezone.now() - dt.timedelta(hours=1), cells=sgs(low={9: "1.250"}))
+    assert Finding.objects.active().filter(battery=battery).count() == 2
+    with django_capture_on_commit_callbacks(execute=True):
+        remove_inspection(wrong, user=supervisor, reason="Typed into the wrong battery")
+    assert Finding.objects.active().filter(battery=battery).count() == 0
