@@ -5,6 +5,7 @@ from decimal import Decimal
 
 import pytest
 from django.contrib.auth.models import AnonymousUser
+from django.template import Context, Template
 from django.urls import reverse
 from openpyxl import load_workbook
 
@@ -203,3 +204,14 @@ def test_crew_cannot_record_capacity_tests(crew_client, battery):
 
 def test_the_menu_filter_is_safe_without_a_signed_in_user():
     assert can_see_budget(AnonymousUser()) is False and can_see_budget("") is False
+
+
+def test_the_battery_panel_shows_the_forecast_to_supervisors_only(rf, crew, supervisor, world):
+    template = Template("{% load budget %}{% replacement_forecast battery %}")
+    request = rf.get("/")
+    request.user = supervisor
+    html = template.render(Context({"request": request, "battery": world["capacity"]}))
+    assert "Replacement forecast" in html and "capacity tests" in html and "! 79.0 %" in html
+    assert "Due now" in html
+    request.user = crew
+    assert "Replacement forecast" not in template.render(Context({"request": request, "battery": world["capacity"]}))
