@@ -69,7 +69,8 @@ class CellIn(Schema):
 
 
 class InspectionIn(Schema):
-    client_uuid: uuid.UUID = Field(description="Made by the client once per reading; the same UUID twice stores one inspection.")
+    client_uuid: uuid.UUID = Field(
+        description="Made by the client once per reading; the same UUID twice stores one inspection.")
     situation: Situation
     scope: Scope = "all"
     taken_at: str = Field(

@@ -15,7 +15,12 @@ NOT_SAVED = "Nothing was saved: fix the fields listed and send again."
 
 
 def _text(value):
-    return "" if value is None else str(value)
+    """A JSON value as the form would get it typed: 265 (a whole number) is "265", not "265.0"."""
+    if value is None:
+        return ""
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value)
 
 
 def _rejected(status, detail, errors):
@@ -41,8 +46,8 @@ def inspection_form_data(payload, profile):
     """The tablet form's POST data for a JSON inspection, and errors the form cannot see (unknown cells)."""
     data = {
         "client_uuid": str(payload.client_uuid), "situation": payload.situation, "scope": payload.scope,
-        "taken_at": payload.taken_at, "temp": _text(payload.temp), "hours_since_charge": _text(payload.hours_since_charge),
-        "notes": payload.notes,
+        "taken_at": payload.taken_at, "temp": _text(payload.temp),
+        "hours_since_charge": _text(payload.hours_since_charge), "notes": payload.notes,
     }
     if payload.hydrometer_compensated:
         data["hydrometer_compensated"] = "on"

@@ -111,7 +111,8 @@ def test_it_refuses_a_retired_battery_with_409(token_client, battery):
     Battery.objects.filter(pk=battery.pk).update(status=Battery.Status.RETIRED)
     response = post_json(token_client, url(battery), reading_body())
     assert response.status_code == 409
-    assert response.json()["errors"]["__all__"] == ["TW-001 was retired: it takes no more readings. Check the serial number."]
+    message = "TW-001 was retired: it takes no more readings. Check the serial number."
+    assert response.json()["errors"]["__all__"] == [message]
     assert Inspection.objects.count() == 0
 
 
@@ -143,3 +144,10 @@ def test_a_malformed_body_gets_errors_in_the_same_shape(token_client, battery):
     errors = response.json()["errors"]
     assert {"client_uuid", "situation", "taken_at"} <= set(errors)
     assert Inspection.objects.count() == 0
+
+
+def test_it_takes_sg_as_json_numbers_in_points_or_in_full(token_client, battery):
+    cells = [{"position": i, "sg": 285 if i % 2 else 1.285} for i in range(1, 25)]
+    response = post_json(token_client, url(battery), reading_body(cells=cells, temp=25))
+    assert response.status_code == 201
+    assert {c["sg"] for c in response.json()["cells"]} == {1.285}

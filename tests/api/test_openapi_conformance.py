@@ -65,7 +65,8 @@ def test_anonymous_calls_keep_to_the_document_too(schema, battery):
     for result in schema.get_all_operations():
         operation = result.ok()
 
-        @settings(max_examples=3, deadline=None, database=None, derandomize=True, suppress_health_check=list(HealthCheck))
+        @settings(max_examples=3, deadline=None, database=None, derandomize=True,
+                  suppress_health_check=list(HealthCheck))
         @given(case=operation.as_strategy())
         def call(case):
             response = case.call_and_validate(checks=CHECKS)
