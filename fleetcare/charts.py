@@ -65,25 +65,31 @@ def tukey_fences(values):
     return q1, median, q3, q1 - reach, q3 + reach
 
 
-def box_with_outliers(groups, outliers, title, y_title, x_title=None, height=360, box_name="All batteries"):
-    """groups: [(category, values)], each drawn as a box whose whiskers stop at the last value inside
-    Tukey's fences; outliers: [(category, value, label)] drawn on top as diamonds, named where label is
-    given, so the batteries that stand out are named, not just coloured. Only box statistics are sent."""
-    shown = [(c, v) for c, v in groups if len(v) >= 2]
-    stats = {"x": [], "q1": [], "median": [], "q3": [], "lowerfence": [], "upperfence": []}
-    for category, values in shown:
-        q1, median, q3, low, high = tukey_fences(values)
-        inside = [v for v in values if low <= v <= high]
-        for key, value in zip(stats, (category, q1, median, q3, min(inside), max(inside))):
-            stats[key].append(value)
-    fig = go.Figure(go.Box(name=box_name, **stats))
-    if outliers:
-        fig.add_trace(go.Scatter(
-            x=[o[0] for o in outliers], y=[o[1] for o in outliers], text=[o[2] for o in outliers],
-            mode="markers+text", textposition="middle right", name="Stands out (named)",
-            marker=dict(symbol="diamond", size=10, line=dict(width=1, color="black")),
-            hovertemplate="%{text} %{y}<extra></extra>",
-        ))
+def box_with_outliers(series, title, y_title, x_title=None, height=380):
+    """series: [(name, groups, outliers)] with groups [(category, values)] and outliers [(category, value,
+    label)]. Each category gets one box per series, side by side in legend order, whiskers stopping at
+    the last value inside Tukey's fences; outliers sit beside their box as diamonds, named where a label
+    is given, so the batteries that stand out are named, not just coloured. Only box statistics are sent."""
+    fig = go.Figure()
+    for n, (name, groups, outliers) in enumerate(series):
+        stats = {"x": [], "q1": [], "median": [], "q3": [], "lowerfence": [], "upperfence": []}
+        for category, values in groups:
+            if len(values) < 2:
+                continue
+            q1, median, q3, low, high = tukey_fences(values)
+            inside = [v for v in values if low <= v <= high]
+            for key, value in zip(stats, (category, q1, median, q3, min(inside), max(inside))):
+                stats[key].append(value)
+        fig.add_trace(go.Box(name=name, offsetgroup=str(n), legendgroup=str(n), **stats))
+        if outliers:
+            fig.add_trace(go.Scatter(
+                x=[o[0] for o in outliers], y=[o[1] for o in outliers], text=[o[2] for o in outliers],
+                mode="markers+text", textposition="middle right", name=f"{name}: stands out",
+                offsetgroup=str(n), legendgroup=str(n), showlegend=False,
+                marker=dict(symbol=SYMBOLS[(n + 2) % len(SYMBOLS)], size=10, line=dict(width=1, color="black")),
+                hovertemplate="%{text} %{y}<extra></extra>",
+            ))
+    fig.update_layout(boxmode="group", scattermode="group")
     fig.update_xaxes(type="category")
     return _layout(fig, title, x_title, y_title, height)
 

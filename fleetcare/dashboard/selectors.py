@@ -46,7 +46,10 @@ DEEP_DISCHARGE_DAYS = 90
 SPREAD_WEEKS = 26
 WORST_BATTERIES = 5
 OUTLIER_LABELS_PER_MONTH = 3
-ALL_SITES = "all"
+WATER_PROFILES = 4
+OUTLIER_MIN_SHARE = 0.25  # FleetCare default, not a published figure: month-to-month use varies about this much
+# Where a finding's own name could be mistaken for a count beside it.
+FINDING_LABELS = {"ageing": "Past design life (years or cycles)"}
 
 
 def overview(batteries, sites, scope=None, now=None):
@@ -87,7 +90,7 @@ def _battery_rows(batteries, now, today):
         .values(
             "pk", "serial", "site_id", "status", "in_service_date", "latest_soc", "latest_post_charge_spread",
             "overdue_equalizing", "overdue_watering", "profile__technology", "profile__watering_allowed",
-            "profile__design_life_years", "profile__monoblocks", "profile__cells_per_block",
+            "profile__design_life_years", "profile__monoblocks", "profile__cells_per_block", "profile__name",
         )
         .order_by("serial")
     )
@@ -127,7 +130,7 @@ def _sections(rows, sites, finding_counts):
     measures["care"] = [
         ("Equalizing overdue", {"overdue": "equalizing"}, lambda r: r["overdue_equalizing"], True),
         ("Watering overdue", {"overdue": "watering"}, lambda r: r["overdue_watering"], True),
-        ("Past design life", {"past_life": "1"}, lambda r: r["past_life"], True),
+        ("Older than design life (years)", {"past_life": "1"}, lambda r: r["past_life"], True),
     ]
     counts = Counter()
     for r in rows:
@@ -152,6 +155,7 @@ def _sections(rows, sites, finding_counts):
     findings_rows = []
     if Finding is not None:
         for kind, label in Finding.Kind.choices:
+            label = FINDING_LABELS.get(kind, label)
             row_cells = cells(label, {"finding": kind}, lambda pk, k=kind: finding_counts.get((pk, k), 0))
             if row_cells[-1]["count"]:
                 findings_rows.append({"label": label, "attention": True, "cells": row_cells})
@@ -230,18 +234,21 @@ def _findings_chart(batteries, now):
 
 
 def _outliers(values):
-    """Indices of the values outside Tukey's fences (none for fewer than four values)."""
+    """Indices of the values outside Tukey's fences and at least OUTLIER_MIN_SHARE away from the
+    median (none for fewer than four values): a tight fleet should not name a battery 5 % off."""
     if len(values) < 4:
         return []
-    _q1, _median, _q3, low, high = charts.tukey_fences(values)
-    return [i for i, v in enumerate(values) if v < low or v > high]
+    _q1, median, _q3, low, high = charts.tukey_fences(values)
+    margin = OUTLIER_MIN_SHARE * abs(median)
+    return [i for i, v in enumerate(values) if (v < low or v > high) and abs(v - median) >= margin]
 
 
 def _water_chart(batteries, rows, now):
-    """Water per cell per month for each waterable battery in service: a box per month, outliers named.
-    A flooded battery in service with no water logged in a month counts as zero (missed watering)."""
+    """Water per cell per month for each waterable battery: a box per month for each battery profile
+    (like compared with like), outliers named. A flooded battery in service with no water logged in a
+    month counts as zero (missed watering)."""
     edges = _month_starts(now, WATER_MONTHS)
-    waterable = {r["pk"]: r for r in rows if r["waterable"]}
+    waterable = [r for r in rows if r["waterable"]]
     if not waterable:
         return None
     sums = (
@@ -250,29 +257,41 @@ def _water_chart(batteries, rows, now):
         .annotate(**_buckets("done_at", edges, lambda q: Sum("volume_ml", filter=q)))
     )
     by_battery = {s["battery_id"]: s for s in sums}
+    by_profile = defaultdict(list)
+    for r in waterable:
+        by_profile[r["profile__name"]].append(r)
+    ranked = sorted(by_profile.items(), key=lambda kv: (-len(kv[1]), kv[0]))
+    if len(ranked) > WATER_PROFILES:
+        others = [r for _name, members in ranked[WATER_PROFILES - 1:] for r in members]
+        ranked = ranked[:WATER_PROFILES - 1] + [("Other profiles", others)]
+    series = [(name, *_water_boxes(members, by_battery, edges)) for name, members in ranked]
+    return charts.box_with_outliers(
+        series,
+        f"Water added per cell per month, by battery profile<br><sup>last {WATER_MONTHS} complete months; each box "
+        "holds the middle half of the batteries; marked and named: batteries beyond 1.5 box heights and a quarter "
+        "off the median</sup>",
+        "mL per cell",
+    )
+
+
+def _water_boxes(members, by_battery, edges):
     groups, outliers = [], []
     for i in range(len(edges) - 1):
         month = edges[i].strftime("%b %Y")
         serials, values = [], []
-        for pk, r in waterable.items():
-            total = by_battery.get(pk, {}).get(f"b{i}")
+        for r in members:
+            total = by_battery.get(r["pk"], {}).get(f"b{i}")
             in_use = r["status"] in (Battery.Status.IN_SERVICE, Battery.Status.CHARGING)
             if total is None and not (in_use and r["in_service_date"] <= edges[i].date()):
                 continue
             serials.append(r["serial"])
             values.append(round(float(total or 0) / r["cells"], 1))
         groups.append((month, values))
-        median = sorted(values)[len(values) // 2] if values else 0
-        flagged = sorted(_outliers(values), key=lambda j: -abs(values[j] - median))
+        middle = sorted(values)[len(values) // 2] if values else 0
+        flagged = sorted(_outliers(values), key=lambda j: -abs(values[j] - middle))
         for rank, j in enumerate(flagged):
             outliers.append((month, values[j], serials[j] if rank < OUTLIER_LABELS_PER_MONTH else ""))
-    fig = charts.box_with_outliers(
-        groups, outliers,
-        f"Water added per cell per month<br><sup>one value per battery, last {WATER_MONTHS} complete months; "
-        "the box holds the middle half, ◆ named batteries stand out (1.5 × box height beyond it)</sup>",
-        "mL per cell", box_name="Batteries in service",
-    )
-    return fig
+    return groups, outliers
 
 
 def _fitting_at_taken(field):

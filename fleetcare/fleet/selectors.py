@@ -184,7 +184,7 @@ class BatteryFilters:
         if self.overdue:
             words.append(OVERDUE_KINDS[self.overdue])
         if self.past_life:
-            words.append("past design life")
+            words.append("older than design life")
         return words
 
 
@@ -269,7 +269,7 @@ def sg_heatmap(battery, inspections):
     ):
         if sg is not None and 1 <= position <= cells:
             z[position - 1][index[inspection_id]] = float(sg)
-    x = [f"{timezone.localtime(i.taken_at, battery.site.tzinfo):%d %b %y %H:%M}" for i in recent]
+    x = _column_labels([timezone.localtime(i.taken_at, battery.site.tzinfo) for i in recent])
     y = [f"Cell {n}" for n in range(1, cells + 1)]
     lowest = [(x[col], y[i.lowest_position - 1]) for col, i in enumerate(recent)
               if i.lowest_position and 1 <= i.lowest_position <= cells]
@@ -278,6 +278,12 @@ def sg_heatmap(battery, inspections):
         "lowest cell</sup>", "SG",
         height=max(320, 18 * cells + 120), marks=lowest, marks_name="Lowest cell",
     )
+
+
+def _column_labels(moments):
+    """'2 Mar 26' per reading, with the time added where two readings share a day (columns must differ)."""
+    days = [f"{m.day} {m:%b %y}" for m in moments]
+    return [f"{d} {m:%H:%M}" if days.count(d) > 1 else d for d, m in zip(days, moments)]
 
 
 def water_chart(battery, top_ups):

@@ -8,7 +8,7 @@ def test_tukey_fences_use_the_quartiles_and_one_and_a_half_interquartile_ranges(
 
 
 def test_the_box_whiskers_stop_at_the_last_value_inside_the_fences():
-    fig = charts.box_with_outliers([("Jan", [10, 11, 12, 13, 40])], [("Jan", 40, "B-7")], "t", "mL")
+    fig = charts.box_with_outliers([("48 V", [("Jan", [10, 11, 12, 13, 40])], [("Jan", 40, "B-7")])], "t", "mL")
     box = fig.data[0]
     assert box.upperfence == (13,) and box.lowerfence == (10,)
     assert fig.data[1].text == ("B-7",)

@@ -108,7 +108,7 @@ def test_an_equalizing_older_than_seven_days_or_a_deleted_one_does_not_count(sup
 def test_it_counts_batteries_past_their_design_life(super_client, battery, sealed_battery, traction_profile, site):
     # 5-year design life (profile default; field notes: roughly five years in one-shift use).
     Battery.objects.create(serial="TW-AGED", profile=traction_profile, site=site, in_service_date=dt.date(2018, 3, 1))
-    assert counts(super_client.get(HOME).context, "Care", "Past design life") == [0, 1, 1]
+    assert counts(super_client.get(HOME).context, "Care", "Older than design life (years)") == [0, 1, 1]
 
 
 def test_another_sites_overview_answers_404(super_client, other_site, battery):
@@ -201,3 +201,26 @@ def test_the_spread_chart_follows_the_widest_batteries(super_client, battery, su
     fig = figure(super_client.get(HOME).content.decode(), "chart-worst-spread")
     assert [t["name"] for t in fig["data"]] == ["TW-001", "TW-CALM"]
     assert fig["data"][0]["y"] == [50]
+
+
+def test_water_use_is_judged_against_batteries_of_the_same_profile(super_client, site, traction_profile, supervisor, now):
+    small = type(traction_profile).objects.create(
+        name="24 V 12-cell 620 Ah", technology="flooded", nominal_voltage=24, monoblocks=1, cells_per_block=12,
+        capacity_ah=620, full_charge_sg="1.280", discharged_sg="1.130")
+    last_month = now.replace(day=1) - dt.timedelta(days=10)
+    for k, (profile, ml) in enumerate([(traction_profile, 2400)] * 5 + [(small, 600)] * 5 + [(small, 1300)]):
+        b = Battery.objects.create(serial=f"W-{k:02d}", profile=profile, site=site, in_service_date=dt.date(2024, 1, 1))
+        water(b, supervisor, last_month, ml + k)
+    fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
+    assert [t["name"] for t in fig["data"] if t["type"] == "box"] == ["24 V 12-cell 620 Ah", "48 V 24-cell 775 Ah"]
+    named = [t for t in fig["data"] if t["type"] == "scatter"]
+    assert len(named) == 1 and named[0]["text"] == ["W-10"]  # 108 mL per cell where its like use about 50
+
+
+def test_a_battery_only_slightly_off_a_tight_fleet_is_not_named(super_client, site, traction_profile, supervisor, now):
+    last_month = now.replace(day=1) - dt.timedelta(days=10)
+    for k, ml in enumerate([2400, 2401, 2402, 2403, 2404, 2700]):  # 2,700 is outside the fences but only 12 % up
+        b = Battery.objects.create(serial=f"W-{k}", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1))
+        water(b, supervisor, last_month, ml)
+    fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
+    assert [t["type"] for t in fig["data"]] == ["box"]
