@@ -29,7 +29,8 @@ def replacement_forecast(context, battery):
     user = context.get("request").user if context.get("request") else None
     if user is None or not getattr(user, "is_authenticated", False) or not has_role(user, SUPERVISOR):
         return {"show": False}
-    budget, assumptions = selectors.replacement_budget(Battery.objects.filter(pk=battery.pk), today=timezone.localdate())
+    only = Battery.objects.filter(pk=battery.pk)
+    budget, assumptions = selectors.replacement_budget(only, today=timezone.localdate())
     return {
         "show": True, "battery": battery, "forecast": budget.forecasts[0] if budget.forecasts else None,
         "lines": budget.lines, "currency": assumptions.currency, "floor": assumptions.capacity_floor_percent,
