@@ -18,6 +18,7 @@ class CapacityTestForm(forms.ModelForm):
     def __init__(self, *args, batteries, **kwargs):
         super().__init__(*args, **kwargs)
         self.fields["battery"].queryset = batteries
+        self.fields["battery"].label_from_instance = lambda b: f"{b.serial} · {b.site.code}"
         self.fields["tested_on"].initial = timezone.localdate()
 
     def clean_tested_on(self):
