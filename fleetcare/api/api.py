@@ -144,6 +144,19 @@ def submit_top_up(request, battery_id: int, payload: schemas.TopUpIn):
     return Status(status, body)
 
 
+try:
+    from fleetcare.planner.selectors import tasks_for_today as planned_tasks
+except ImportError:  # without the planner there is no task list: no endpoint rather than an empty one
+    planned_tasks = None
+
+if planned_tasks is not None:
+    @api.get("/tasks/today", response={200: list[schemas.TaskOut], **ERRORS}, url_name="tasks_today",
+             summary="Today's tasks at your sites")
+    def tasks_today(request):
+        """Readings, waterings and equalizing charges due today at your sites, overdue first, as planned."""
+        return [task.as_dict() for task in planned_tasks(request.auth)]
+
+
 @api.get("/offline/pages", response={200: schemas.OfflinePagesOut, **ERRORS}, url_name="offline_pages",
          summary="Pages a tablet keeps for working without a connection")
 def offline_pages(request):

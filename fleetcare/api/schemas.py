@@ -187,6 +187,26 @@ class StatusOut(Schema):
     next_work_due: Optional[list[WorkDueOut]] = Field(description="Planned work, or null when no planner answers.")
 
 
+class TaskOut(Schema):
+    kind: Literal["equalize", "water", "all_cells", "pilot"]
+    title: str
+    battery: int
+    serial: str
+    site: str = Field(description="Site code.")
+    vehicle: str = Field(description="Truck or chair the battery is fitted to, if any.")
+    due_day: dt.date
+    days_overdue: int
+    severity: int
+    why: str
+    start: Optional[dt.datetime] = Field(description="Planned start (equalizing and watering), if planned.")
+    end: Optional[dt.datetime]
+    status: Literal["to_do", "skipped", "not_planned"] = Field(
+        description="not_planned: due, but no charger, airflow or spare battery is free for it in the plan.")
+    skip_reason: str
+    not_planned_reason: str
+    entry_url: str = Field(description="The page where the crew logs it.")
+
+
 class OfflinePagesOut(Schema):
     pages: list[str] = Field(description="Pages (and the battery list) a tablet keeps for use without a connection.")
     assets: list[str] = Field(description="Styles, scripts and icons those pages need.")

@@ -47,3 +47,14 @@ def test_it_lists_active_findings_only(token_client, crew, battery):
 
 def test_another_sites_battery_answers_404(token_client, other_battery):
     assert token_client.get(f"/api/batteries/{other_battery.pk}/status").status_code == 404
+
+
+def test_it_reports_the_next_work_due_when_the_planner_is_installed(token_client, battery):
+    from fleetcare.api.api import planned_tasks
+
+    body = token_client.get(f"/api/batteries/{battery.pk}/status").json()
+    if planned_tasks is None:
+        assert body["next_work_due"] is None
+    else:
+        kinds = {item["kind"] for item in body["next_work_due"]}
+        assert "all_cells" in kinds  # no all-cell reading on record: one is due
