@@ -21,7 +21,10 @@ class FindingQuerySet(models.QuerySet):
         return self.filter(battery__in=batteries)
 
     def visible_to(self, user):
-        return self.filter(battery__in=Battery.objects.visible_to(user))
+        """Findings of the batteries the user may see (the access rules live in fleetcare.accounts.access)."""
+        from fleetcare.accounts.access import visible_batteries
+
+        return self.filter(battery__in=visible_batteries(user))
 
 
 class Finding(models.Model):
