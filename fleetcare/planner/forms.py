@@ -1,0 +1,74 @@
+import uuid
+
+from django import forms
+from django.utils import timezone
+
+from fleetcare.planner.models import EqualizingReading
+from fleetcare.planner.selectors import KINDS
+from fleetcare.readings.forms import SGField, check_temp_c, temp_label, to_celsius
+
+BIG = {"class": "form-control form-control-lg", "autocomplete": "off"}
+
+
+def _when(label):
+    return forms.DateTimeField(label=label, widget=forms.DateTimeInput(
+        attrs={"type": "datetime-local", "class": "form-control form-control-lg"}, format="%Y-%m-%dT%H:%M"))
+
+
+def _now():
+    return timezone.localtime().replace(second=0, microsecond=0)
+
+
+class StartChargeForm(forms.Form):
+    started_at = _when("Charger switched to equalizing at")
+    notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2, "class": "form-control"}))
+    client_uuid = forms.UUIDField(widget=forms.HiddenInput)
+
+    def __init__(self, *args, **kwargs):
+        initial = kwargs.setdefault("initial", {})
+        initial.setdefault("client_uuid", uuid.uuid4())
+        initial.setdefault("started_at", _now())
+        super().__init__(*args, **kwargs)
+
+
+class ReadingForm(forms.Form):
+    taken_at = _when("Taken at")
+    basis = forms.ChoiceField(label="Cells read", choices=EqualizingReading.Basis.choices,
+                              widget=forms.RadioSelect, initial=EqualizingReading.Basis.PILOT)
+    sg = SGField(label="Specific gravity (265 = 1.265)", widget=forms.TextInput(attrs={**BIG, "inputmode": "decimal"}))
+    temp = forms.DecimalField(label="Electrolyte temperature", max_digits=5, decimal_places=1,
+                              widget=forms.TextInput(attrs={**BIG, "inputmode": "decimal"}))
+    volts = forms.DecimalField(label="Battery volts (optional)", required=False, max_digits=6, decimal_places=2,
+                               min_value=0, widget=forms.TextInput(attrs={**BIG, "inputmode": "decimal"}))
+    client_uuid = forms.UUIDField(widget=forms.HiddenInput)
+
+    def __init__(self, *args, site, **kwargs):
+        self.site = site
+        initial = kwargs.setdefault("initial", {})
+        initial.setdefault("client_uuid", uuid.uuid4())
+        initial.setdefault("taken_at", _now())
+        super().__init__(*args, **kwargs)
+        self.fields["temp"].label = f"Electrolyte temperature ({temp_label(site)})"
+
+    def clean_temp(self):
+        temp_c = to_celsius(self.cleaned_data.get("temp"), self.site)
+        problem = check_temp_c(temp_c, self.site)
+        if problem:
+            raise forms.ValidationError(problem)
+        return temp_c
+
+
+class EndChargeForm(forms.Form):
+    ended_at = _when("Charger back to normal (or off) at")
+    notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2, "class": "form-control"}))
+
+    def __init__(self, *args, **kwargs):
+        kwargs.setdefault("initial", {}).setdefault("ended_at", _now())
+        super().__init__(*args, **kwargs)
+
+
+class SkipForm(forms.Form):
+    battery = forms.IntegerField(widget=forms.HiddenInput)
+    kind = forms.ChoiceField(choices=[(k, k) for k in KINDS], widget=forms.HiddenInput)
+    reason = forms.CharField(max_length=200, label="Why not today?",
+                             widget=forms.TextInput(attrs={**BIG, "placeholder": "e.g. truck out on a job, charger fault"}))

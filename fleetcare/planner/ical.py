@@ -1,0 +1,59 @@
+"""The site's plan as an iCalendar file (RFC 5545): UTC times, escaped text, lines folded at 75 octets, CRLF."""
+import datetime as dt
+
+from django.utils import timezone
+
+PRODID = "-//FleetCare//Equalizing and watering plan//EN"
+TITLES = {"equalize": "Equalizing charge", "water": "Water"}
+
+
+def escape(text):
+    return (str(text).replace("\\", "\\\\").replace(";", "\\;").replace(",", "\\,")
+            .replace("\r\n", "\\n").replace("\n", "\\n"))
+
+
+def fold(line):
+    """Split a content line into chunks of at most 75 octets, continuation lines starting with one space."""
+    raw = line.encode("utf-8")
+    if len(raw) <= 75:
+        return [line]
+    parts, current, limit = [], b"", 75
+    for char in line:
+        encoded = char.encode("utf-8")
+        if len(current) + len(encoded) > limit:
+            parts.append(current.decode("utf-8"))
+            current, limit = b"", 74  # the leading space counts
+        current += encoded
+    parts.append(current.decode("utf-8"))
+    return [parts[0]] + [" " + p for p in parts[1:]]
+
+
+def utc(value):
+    return value.astimezone(dt.UTC).strftime("%Y%m%dT%H%M%SZ")
+
+
+def calendar(site, plan, serials, built_at, host="fleetcare"):
+    """The .ics text for a plan whose tasks carry naive site-local times."""
+    lines = ["BEGIN:VCALENDAR", "VERSION:2.0", f"PRODID:{PRODID}", "CALSCALE:GREGORIAN", "METHOD:PUBLISH",
+             f"X-WR-CALNAME:{escape('FleetCare plan: ' + site.name)}"]
+    stamp = utc(built_at)
+    for task in plan.tasks:
+        start = timezone.make_aware(task.start, site.tzinfo)
+        end = timezone.make_aware(task.end, site.tzinfo)
+        serial = serials.get(task.battery_id, task.serial)
+        summary = f"{TITLES.get(task.kind, task.kind)}: {serial}"
+        if task.days_overdue:
+            summary += f" ({task.days_overdue} days overdue)"
+        lines += [
+            "BEGIN:VEVENT",
+            f"UID:{task.kind}-{task.battery_id}-{task.day:%Y%m%d}@{site.code}.{host}",
+            f"DTSTAMP:{stamp}",
+            f"DTSTART:{utc(start)}",
+            f"DTEND:{utc(end)}",
+            f"SUMMARY:{escape(summary)}",
+            f"DESCRIPTION:{escape(task.reason)}",
+            "TRANSP:TRANSPARENT",
+            "END:VEVENT",
+        ]
+    lines.append("END:VCALENDAR")
+    return "".join(part + "\r\n" for line in lines for part in fold(line))

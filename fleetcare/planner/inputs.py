@@ -1,0 +1,304 @@
+"""From the database to the planner's plain data (fleetcare.care.planning), for many sites in a fixed number of queries.
+
+Airflow: the room's baseline is the normal-charging airflow of as many of its batteries as can charge
+at once (every charger unless the room's settings say fewer; the largest batteries, so it is never an
+underestimate), at the normal gassing current. A battery that equalizes takes one of those chargers,
+so the planner adds only what equalizing needs beyond its normal charge:
+ventilation_airflow_m3h(cells, I_gas equalizing - I_gas normal, capacity). IEC/EN 62485-3's formula is
+linear in I_gas, so that difference is exact.
+"""
+import datetime as dt
+import hashlib
+import math
+from collections import defaultdict
+from dataclasses import dataclass, field
+
+from django.db.models import Max, Q
+from django.db.models.functions import Coalesce
+
+from fleetcare import chemistry
+from fleetcare.care import planning
+from fleetcare.care.models import Finding as FindingRow
+from fleetcare.fleet.models import Battery, ChargingRoom, Fitting, ShiftWindow
+from fleetcare.planner import policy as planner_policy
+from fleetcare.planner.models import EqualizingCharge, Policy, SiteSettings
+from fleetcare.readings.models import Inspection, WaterTopUp
+
+PLANNED_STATUSES = (Battery.Status.IN_SERVICE, Battery.Status.CHARGING, Battery.Status.SPARE)
+PLANNER_FINDINGS = ("high_spread", "sulfation", "low_level")
+CHARGE_WINDOW_DAYS = 28
+INPUTS_VERSION = "1"
+
+
+@dataclass
+class BatteryFacts:
+    """What the Django side knows about one battery beyond the planner's view of it."""
+
+    battery: Battery
+    settings: planner_policy.Resolved
+    can_equalize: bool
+    can_water: bool
+    last_equalized: dt.date | None = None
+    last_watered: dt.date | None = None
+    last_all_cells: dt.date | None = None
+    last_reading: dt.date | None = None
+    equalizing_ended_at: dt.datetime | None = None
+    equalized_at: dt.datetime | None = None
+    watered_at: dt.datetime | None = None
+    all_cells_at: dt.datetime | None = None
+    vehicle: str = ""
+    normal_airflow_m3h: float = 0.0
+    equalize_airflow_m3h: float = 0.0
+
+
+@dataclass
+class RoomFacts:
+    room: ChargingRoom
+    charging_at_once: int
+    baseline_airflow_m3h: float
+    baseline_source: str
+
+
+@dataclass
+class SiteInputs:
+    site: object
+    today: dt.date
+    inputs: planning.PlanInputs | None
+    facts: dict = field(default_factory=dict)  # battery pk -> BatteryFacts
+    rooms: dict = field(default_factory=dict)  # room pk -> RoomFacts
+    windows: list = field(default_factory=list)  # ShiftWindow rows
+    settings: SiteSettings | None = None
+    problem: str = ""
+    notes: list = field(default_factory=list)
+
+    @property
+    def fingerprint(self):
+        return hashlib.sha256(f"{INPUTS_VERSION}|{self.inputs!r}".encode()).hexdigest()
+
+
+def site_today(site, now):
+    return now.astimezone(site.tzinfo).date()
+
+
+def _local_date(value, site):
+    return None if value is None else value.astimezone(site.tzinfo).date()
+
+
+def build(sites, now, days):
+    """{site pk: SiteInputs} for the plan of `days` days from each site's today."""
+    sites = list(sites)
+    site_ids = [s.pk for s in sites]
+    by_site = {s.pk: s for s in sites}
+    windows = defaultdict(list)
+    for w in ShiftWindow.objects.filter(site__in=site_ids).order_by("starts_at"):
+        windows[w.site_id].append(w)
+    rooms = list(ChargingRoom.objects.filter(site__in=site_ids).select_related("planner_settings"))
+    batteries = list(
+        Battery.objects.filter(site__in=site_ids, status__in=PLANNED_STATUSES).select_related("profile").order_by("serial")
+    )
+    spares = defaultdict(int)
+    for b in batteries:
+        if b.status == Battery.Status.SPARE:
+            spares[b.site_id] += 1
+    policies = list(Policy.objects.filter(Q(site__in=site_ids) | Q(site__isnull=True)))
+    site_settings = {s.site_id: s for s in SiteSettings.objects.filter(site__in=site_ids)}
+    ids = [b.pk for b in batteries]
+    findings = defaultdict(list)
+    for row in FindingRow.objects.active().filter(battery__in=ids, kind__in=PLANNER_FINDINGS).order_by("pk"):
+        findings[row.battery_id].append(row)
+    charges = {
+        row["battery"]: row for row in EqualizingCharge.objects.filter(battery__in=ids).values("battery").annotate(
+            last=Max(Coalesce("ended_at", "started_at")), last_end=Max("ended_at"))
+    }
+    readings = {
+        row["battery"]: row for row in Inspection.objects.current().filter(battery__in=ids).values("battery").annotate(
+            last_equalized=Max("taken_at", filter=Q(situation=Inspection.Situation.JUST_EQUALIZED)),
+            last_all=Max("taken_at", filter=Q(scope=Inspection.Scope.ALL_CELLS)),
+            last_any=Max("taken_at"),
+        )
+    }
+    since = now - dt.timedelta(days=CHARGE_WINDOW_DAYS)
+    logged = defaultdict(list)
+    for battery_id, taken_at in Inspection.objects.current().post_charge().filter(
+        battery__in=ids, taken_at__gte=since
+    ).values_list("battery", "taken_at"):
+        logged[battery_id].append(taken_at)
+    watered = dict(
+        WaterTopUp.objects.current().filter(battery__in=ids).values("battery").annotate(last=Max("done_at"))
+        .values_list("battery", "last")
+    )
+    vehicles = dict(
+        Fitting.objects.filter(battery__in=ids, removed_at__isnull=True).values_list("battery", "vehicle__asset_number")
+    )
+
+    out = {}
+    for site in sites:
+        today = site_today(site, now)
+        out[site.pk] = SiteInputs(site=site, today=today, inputs=None, windows=windows[site.pk],
+                                  settings=site_settings.get(site.pk))
+    facts_by_site = defaultdict(list)
+    for b in batteries:
+        site = by_site[b.site_id]
+        facts = _facts(b, site, policies, charges.get(b.pk), readings.get(b.pk), watered.get(b.pk), vehicles.get(b.pk, ""))
+        out[site.pk].facts[b.pk] = facts
+        facts_by_site[site.pk].append(facts)
+    for room in rooms:
+        members = [f for f in facts_by_site[room.site_id] if f.battery.charging_room_id == room.pk]
+        out[room.site_id].rooms[room.pk] = _room_facts(room, members)
+    for site in sites:
+        entry = out[site.pk]
+        if not entry.windows:
+            entry.problem = "No shift windows are set for this site, so nothing can be planned (ask an administrator)."
+            continue
+        clipped, entry.notes = clip_windows(entry.windows)
+        cares = []
+        for facts in facts_by_site[site.pk]:
+            care = _battery_care(facts, site, findings.get(facts.battery.pk, ()), logged.get(facts.battery.pk, []), now)
+            if care is not None:
+                cares.append(care)
+        entry.inputs = planning.PlanInputs(
+            site_id=site.pk,
+            start_date=entry.today,
+            days=days,
+            shift_windows=tuple(planning.ShiftWindow(w.starts_at, hours) for w, hours in clipped),
+            rooms=tuple(
+                planning.ChargingRoom(room_id=r.room.pk, equalize_chargers=r.room.equalizing_chargers,
+                                      airflow_m3h=float(r.room.airflow_m3h),
+                                      baseline_airflow_m3h=round(r.baseline_airflow_m3h, 3), name=r.room.name)
+                for r in sorted(entry.rooms.values(), key=lambda r: r.room.pk)
+            ),
+            batteries=tuple(cares),
+            spares_available=spares[site.pk],
+            spares_reserve=site.spares_reserve,
+            waterings_per_day=entry.settings.waterings_per_day if entry.settings else None,
+        )
+    return out
+
+
+def clip_windows(windows):
+    """[(window, hours)] with each window cut short where it would run into the next one (the planner needs
+    windows that do not overlap; cutting only ever shortens them), and a note for each cut."""
+    ordered = sorted(windows, key=lambda w: w.starts_at)
+    out, notes = [], []
+    for i, window in enumerate(ordered):
+        hours = float(window.hours)
+        if len(ordered) > 1:
+            following = ordered[(i + 1) % len(ordered)]
+            start = window.starts_at.hour * 60 + window.starts_at.minute
+            gap = following.starts_at.hour * 60 + following.starts_at.minute - start
+            gap = gap if gap > 0 else gap + 24 * 60
+            if hours * 60 > gap:
+                notes.append(f"{window.name} ({window.starts_at:%H:%M}, {float(window.hours):g} h) runs into "
+                             f"{following.name} at {following.starts_at:%H:%M}: planned as {gap / 60:g} h.")
+                hours = gap / 60
+        out.append((window, hours))
+    return out, notes
+
+
+def _facts(battery, site, policies, charge, reading, watered_at, vehicle):
+    profile = battery.profile
+    settings = planner_policy.resolve(site.pk, profile.pk, policies)
+    facts = BatteryFacts(
+        battery=battery, settings=settings,
+        can_equalize=bool(profile.equalizing_allowed),
+        can_water=bool(profile.is_flooded and profile.watering_allowed),
+        vehicle=vehicle or "",
+    )
+    equalized = [charge and charge["last"], reading and reading["last_equalized"]]
+    equalized = [t for t in equalized if t]
+    facts.equalized_at = max(equalized) if equalized else None
+    facts.last_equalized = _local_date(facts.equalized_at, site)
+    facts.watered_at = watered_at
+    facts.equalizing_ended_at = charge and charge["last_end"]
+    facts.last_watered = _local_date(watered_at, site)
+    if reading:
+        facts.all_cells_at = reading["last_all"]
+        facts.last_all_cells = _local_date(reading["last_all"], site)
+        facts.last_reading = _local_date(reading["last_any"], site)
+    cells, capacity = profile.cell_count, float(profile.capacity_ah)
+    normal = float(settings.charge_gas_current)
+    extra = max(0.0, float(settings.equalize_gas_current) - normal)
+    facts.normal_airflow_m3h = chemistry.ventilation_airflow_m3h(cells, normal, capacity)
+    facts.equalize_airflow_m3h = chemistry.ventilation_airflow_m3h(cells, extra, capacity)
+    return facts
+
+
+def _room_facts(room, members):
+    settings = getattr(room, "planner_settings", None)
+    at_once = room.chargers
+    if settings is not None and settings.charging_at_once is not None:
+        at_once = settings.charging_at_once
+    if settings is not None and settings.baseline_airflow_m3h is not None:
+        return RoomFacts(room, at_once, float(settings.baseline_airflow_m3h), "set for this room")
+    loads = sorted((f.normal_airflow_m3h for f in members), reverse=True)[:at_once]
+    source = (f"normal charging of the {len(loads)} largest of the room's batteries "
+              f"({'every charger' if settings is None or settings.charging_at_once is None else 'set for this room'})")
+    return RoomFacts(room, at_once, sum(loads), source)
+
+
+def charges_logged(logged_times, since_date, site, now):
+    """(charges per day, charges since `since_date`) from post-charge readings in the last four weeks, or None."""
+    if not logged_times:
+        return None
+    per_day = len(logged_times) / CHARGE_WINDOW_DAYS
+    if since_date is None:
+        return per_day, len(logged_times)
+    return per_day, sum(1 for t in logged_times if _local_date(t, site) > since_date)
+
+
+def acted_on(finding, facts):
+    """A finding already answered by an equalizing charge (or a top-up) after it was last seen: the next
+    reading decides whether it stays, so it does not ask for the same work again meanwhile."""
+    done_at = facts.watered_at if finding.kind in planning.WATER_FINDINGS else facts.equalized_at
+    return done_at is not None and done_at > finding.last_seen_at
+
+
+def _battery_care(facts, site, findings, logged_times, now):
+    settings = facts.settings
+    if not facts.can_equalize and not facts.can_water:
+        return None
+    per_day = float(site.charges_per_day) or 1.0
+    logged = charges_logged(logged_times, facts.last_equalized, site, now)
+    if logged is not None:
+        per_day, since = logged
+    elif facts.last_equalized is not None:
+        since = math.floor((site_today(site, now) - facts.last_equalized).days * per_day)
+    else:
+        since = 0
+    per_day = max(per_day, 0.01)
+    eq_days = int(settings.equalize_every_days) or None
+    eq_charges = int(settings.equalize_every_charges) or None
+    water_days = int(settings.water_every_days) or None
+    water_charges = int(settings.water_every_charges) or None
+    if water_charges:
+        by_charges = math.ceil(water_charges / per_day)
+        water_days = min(water_days, by_charges) if water_days else by_charges
+    kinds = set()
+    if facts.can_equalize:
+        kinds |= set(planning.EQUALIZE_FINDINGS)
+    else:
+        eq_days = eq_charges = None
+    if facts.can_water:
+        kinds |= set(planning.WATER_FINDINGS)
+    else:
+        water_days = None
+    battery = facts.battery
+    return planning.BatteryCare(
+        battery_id=battery.pk,
+        serial=battery.serial,
+        room_id=battery.charging_room_id,
+        airflow_m3h=round(facts.equalize_airflow_m3h, 3),
+        equalize_hours=max(0.5, float(settings.equalize_hours)),
+        equalize_every_days=eq_days,
+        equalize_every_charges=eq_charges,
+        charges_per_day=round(per_day, 4),
+        charges_since_equalize=since,
+        last_equalized=facts.last_equalized,
+        water_every_days=water_days,
+        last_watered=facts.last_watered,
+        watering_minutes=float(settings.watering_minutes),
+        findings=tuple(
+            planning.Finding(kind=f.kind, severity=int(f.severity), note=(f.summary or "")[:120])
+            for f in findings if f.kind in kinds and not acted_on(f, facts)
+        ),
+    )

@@ -1,0 +1,58 @@
+import json
+
+from django.core.management.base import BaseCommand, CommandError
+from django.utils import timezone
+
+from fleetcare.care import planning
+from fleetcare.fleet.models import Site
+from fleetcare.planner import inputs as planner_inputs
+from fleetcare.planner.plans import build_and_store
+
+MIN_DAYS, MAX_DAYS = 7, 28
+
+
+class Command(BaseCommand):
+    help = "Print a site's equalizing and watering plan for the next 7 to 28 days (stored for the pages too)."
+
+    def add_arguments(self, parser):
+        parser.add_argument("--site", required=True, help="Site code, e.g. hrw.")
+        parser.add_argument("--days", type=int, default=14, help=f"Days to plan, {MIN_DAYS} to {MAX_DAYS} (default 14).")
+        parser.add_argument("--json", action="store_true", help="Print the plan as JSON.")
+        parser.add_argument("--solver-seconds", type=float, default=planning.SOLVER_SECONDS,
+                            help="Most time the integer program may take for the whole plan.")
+
+    def handle(self, *args, site, days, json: bool, solver_seconds, **options):
+        if not MIN_DAYS <= days <= MAX_DAYS:
+            raise CommandError(f"--days must be between {MIN_DAYS} and {MAX_DAYS}; got {days}.")
+        if solver_seconds <= 0:
+            raise CommandError("--solver-seconds must be more than 0.")
+        found = Site.objects.filter(code=site).first()
+        if found is None:
+            known = ", ".join(Site.objects.order_by("code").values_list("code", flat=True)) or "none"
+            raise CommandError(f"No site with code “{site}”. Known codes: {known}.")
+        entry = planner_inputs.build([found], timezone.now(), days)[found.pk]
+        if entry.inputs is None:
+            raise CommandError(entry.problem)
+        plan = build_and_store(entry, days, solver_seconds)
+        violations = planning.check_limits(plan, entry.inputs)
+        if json:
+            data = plan.to_json_dict()
+            data["site"] = found.code
+            data["timezone"] = found.timezone
+            data["limit_violations"] = [str(v) for v in violations]
+            self.stdout.write(_json_dumps(data))
+            return
+        self.stdout.write(f"{found.name}: {days} days from {entry.today}; {plan.method}")
+        self.stdout.write(f"Overdue battery-days {plan.total_overdue_days} (lower bound {plan.lower_bound_overdue_days}"
+                          f"{', proven best' if plan.proven_optimal else ''})")
+        for task in plan.tasks:
+            late = f"  {task.days_overdue} d late" if task.days_overdue else ""
+            self.stdout.write(f"{task.start:%a %d %b %H:%M}-{task.end:%H:%M}  {task.kind:<9} {task.serial}{late}")
+        for missing in plan.unplaced:
+            self.stdout.write(f"NOT PLANNED  {missing.kind:<9} {missing.serial}: {missing.reason}")
+        for v in violations:
+            self.stderr.write(f"LIMIT BROKEN: {v}")
+
+
+def _json_dumps(data):
+    return json.dumps(data, indent=2, ensure_ascii=False)

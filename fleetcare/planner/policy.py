@@ -1,0 +1,98 @@
+"""What the planner schedules by: built-in defaults with their sources, and how overrides apply.
+
+A `Policy` row for a battery profile overrides a default; a row for a site overrides the profile's; a
+row for that site and profile overrides both. Blank fields inherit. Intervals "by charges" are off
+(0) unless set; where both a day and a charge interval are set, the sooner one counts.
+"""
+from dataclasses import dataclass
+from decimal import Decimal
+
+
+@dataclass(frozen=True)
+class Setting:
+    name: str
+    label: str
+    default: Decimal
+    unit: str
+    source: str
+    integer: bool = False
+
+
+SETTINGS = (
+    Setting("equalize_every_days", "equalize every", Decimal("7"), "days",
+            "common practice (field notes): flooded traction batteries weekly, or every fifth or sixth charge",
+            integer=True),
+    Setting("equalize_every_charges", "equalize every (0 = not by charges)", Decimal("0"), "charges",
+            "off by default; common practice is every fifth or sixth charge (field notes)", integer=True),
+    Setting("equalize_hours", "equalizing charge lasts, beyond the normal charge", Decimal("3"), "h",
+            "FleetCare default (common practice: a few hours); set the charger maker's figure"),
+    Setting("equalize_gas_current", "gassing current while equalizing (I_gas)", Decimal("7"), "A per 100 Ah",
+            "highest I_gas the field notes give for vented cells (IEC/EN 62485-3 as tabulated in makers' "
+            "literature: 2 with a 2.4 V/cell limit, up to 6 without, 5-7 on taper chargers); an equalizing "
+            "charge is a deliberate overcharge without a voltage limit, so the worst tabulated case"),
+    Setting("charge_gas_current", "gassing current on a normal charge (I_gas)", Decimal("2"), "A per 100 Ah",
+            "IEC/EN 62485-3 as tabulated in makers' literature: vented cells on IU charging with a 2.4 V/cell "
+            "limit (field notes)"),
+    Setting("water_every_days", "water every", Decimal("7"), "days",
+            "FleetCare default, not a published figure: water after charging (common practice, field notes); "
+            "set the maker's interval"),
+    Setting("water_every_charges", "water every (0 = not by charges)", Decimal("0"), "charges",
+            "off by default; set it where the maker gives watering by charges", integer=True),
+    Setting("watering_minutes", "watering takes", Decimal("15"), "minutes",
+            "FleetCare default: crew time per battery, for the calendar"),
+    Setting("all_cells_every_days", "read all cells every", Decimal("30"), "days",
+            "common practice (field notes): all cells at a fixed interval, often monthly, and always after "
+            "an equalizing charge", integer=True),
+    Setting("pilot_every_days", "read the pilot cell every", Decimal("7"), "days",
+            "common practice (field notes): the pilot cell every day or week", integer=True),
+)
+BY_NAME = {s.name: s for s in SETTINGS}
+
+
+@dataclass(frozen=True)
+class Value:
+    name: str
+    value: Decimal
+    source: str
+
+
+class Resolved:
+    """All settings for one battery; attribute access gives the Decimal value, .source(name) where it came from."""
+
+    def __init__(self, values):
+        self.values = values
+
+    def __getattr__(self, name):
+        try:
+            return self.__dict__["values"][name].value
+        except KeyError:
+            raise AttributeError(name) from None
+
+    def source(self, name):
+        return self.values[name].source
+
+
+def defaults():
+    return Resolved({s.name: Value(s.name, s.default, s.source) for s in SETTINGS})
+
+
+def layers_for(site_id, profile_id, policies):
+    """The policy rows that apply, weakest first: profile, then site, then site and profile."""
+    layers = [
+        p for p in policies
+        if (p.profile_id == profile_id and p.site_id is None)
+        or (p.site_id == site_id and p.profile_id is None)
+        or (p.site_id == site_id and p.profile_id == profile_id)
+    ]
+    return sorted(layers, key=lambda p: (p.site_id is not None, p.profile_id is not None and p.site_id is not None))
+
+
+def resolve(site_id, profile_id, policies):
+    """Settings for a battery of `profile_id` at `site_id`, from Policy rows the caller loaded once."""
+    values = {s.name: Value(s.name, s.default, s.source) for s in SETTINGS}
+    for policy in layers_for(site_id, profile_id, policies):
+        for s in SETTINGS:
+            value = getattr(policy, s.name)
+            if value is not None:
+                values[s.name] = Value(s.name, Decimal(value), f"planning policy for {policy.scope_label}")
+    return Resolved(values)

@@ -1,0 +1,388 @@
+"""Reads for the planner's pages, the API and the dashboard, each in a fixed number of queries."""
+import datetime as dt
+import math
+from collections import defaultdict
+from dataclasses import dataclass, field
+
+from django.db.models import Q
+from django.urls import reverse
+from django.utils import timezone
+
+from fleetcare.accounts.access import visible_sites
+from fleetcare.care import planning
+from fleetcare.fleet.models import Battery, Site
+from fleetcare.planner import inputs as planner_inputs
+from fleetcare.planner.models import EqualizingCharge, TaskSkip
+from fleetcare.planner.plans import PLAN_DAYS, plans_for
+from fleetcare.readings.models import Inspection, WaterTopUp
+
+EQUALIZE, WATER, ALL_CELLS, PILOT = "equalize", "water", "all_cells", "pilot"
+KINDS = (EQUALIZE, WATER, ALL_CELLS, PILOT)
+KIND_ORDER = {kind: n for n, kind in enumerate(KINDS)}
+
+
+@dataclass
+class TodayTask:
+    """One thing to do today for one battery. `status`: to_do, skipped or not_planned (no room in the plan)."""
+
+    kind: str
+    battery: Battery
+    site: Site
+    due_day: dt.date
+    days_overdue: int
+    why: str
+    severity: int = 0
+    start: dt.datetime | None = None
+    end: dt.datetime | None = None
+    vehicle: str = ""
+    status: str = "to_do"
+    skip_reason: str = ""
+    not_planned_reason: str = ""
+
+    @property
+    def title(self):
+        if self.kind == EQUALIZE:
+            return "Equalizing charge"
+        if self.kind == WATER:
+            return "Water"
+        if self.kind == ALL_CELLS:
+            return "Read all cells" if self.battery.profile.is_flooded else "Read both block voltages"
+        return f"Read the pilot cell (cell {self.battery.pilot_cell})"
+
+    @property
+    def is_overdue(self):
+        return self.days_overdue > 0
+
+    @property
+    def entry_url(self):
+        pk = self.battery.pk
+        if self.kind == EQUALIZE:
+            return reverse("planner:equalizing", args=[pk])
+        if self.kind == WATER:
+            return reverse("readings:top_up", args=[pk])
+        if self.kind == PILOT:
+            return reverse("readings:inspect", args=[pk]) + "?scope=pilot"
+        return reverse("readings:inspect", args=[pk]) + "?scope=all"
+
+    def sort_key(self):
+        return (-self.days_overdue, -self.severity, self.start or dt.datetime.max.replace(tzinfo=dt.UTC),
+                KIND_ORDER[self.kind], self.battery.serial)
+
+    def as_dict(self):
+        return {
+            "kind": self.kind, "title": self.title, "battery": self.battery.pk, "serial": self.battery.serial,
+            "site": self.site.code, "vehicle": self.vehicle, "due_day": self.due_day.isoformat(),
+            "days_overdue": self.days_overdue, "severity": self.severity, "why": self.why,
+            "start": self.start.isoformat() if self.start else None, "end": self.end.isoformat() if self.end else None,
+            "status": self.status, "skip_reason": self.skip_reason, "not_planned_reason": self.not_planned_reason,
+            "entry_url": self.entry_url,
+        }
+
+
+@dataclass
+class DoneItem:
+    kind: str
+    battery: Battery
+    at: dt.datetime
+    by: str
+    url: str
+    detail: str = ""
+
+
+@dataclass
+class SiteDay:
+    site: Site
+    today: dt.date
+    tasks: list = field(default_factory=list)
+    done: list = field(default_factory=list)
+    running: list = field(default_factory=list)
+    problem: str = ""
+
+    @property
+    def to_do(self):
+        return [t for t in self.tasks if t.status != "not_planned"]
+
+    @property
+    def not_planned(self):
+        return [t for t in self.tasks if t.status == "not_planned"]
+
+    @property
+    def overdue_count(self):
+        return sum(1 for t in self.to_do if t.is_overdue)
+
+
+def _aware(site, naive):
+    return timezone.make_aware(naive, site.tzinfo)
+
+
+def reading_tasks(facts, today):
+    """(kind, due day, why) for the all-cell and pilot readings due by today (never before they are due)."""
+    settings = facts.settings
+    found = []
+    every_all = int(settings.all_cells_every_days) or None
+    if facts.equalizing_ended_at and (facts.all_cells_at is None or facts.equalizing_ended_at > facts.all_cells_at):
+        ended = timezone.localtime(facts.equalizing_ended_at, facts.battery.site.tzinfo)
+        found.append((ALL_CELLS, ended.date(), f"after the equalizing charge that ended {ended:%d %b %H:%M}"))
+    elif facts.last_all_cells is None:
+        found.append((ALL_CELLS, today, "no all-cell reading on record"))
+    elif every_all and facts.last_all_cells + dt.timedelta(days=every_all) <= today:
+        found.append((ALL_CELLS, facts.last_all_cells + dt.timedelta(days=every_all),
+                      f"every {every_all} days, last on {facts.last_all_cells:%d %b}"))
+    every_pilot = int(settings.pilot_every_days) or None
+    if facts.battery.profile.is_flooded and every_pilot and not found:
+        if facts.last_reading is None:
+            found.append((PILOT, today, "no reading on record"))
+        elif facts.last_reading + dt.timedelta(days=every_pilot) <= today:
+            found.append((PILOT, facts.last_reading + dt.timedelta(days=every_pilot),
+                          f"every {every_pilot} days, last reading on {facts.last_reading:%d %b}"))
+    return found
+
+
+def _done_today(site_ids, day_starts, earliest):
+    """Records made today at each site: {site pk: [DoneItem]}, running charges {site pk: [charge]}, skips."""
+    done = defaultdict(list)
+    done_keys = set()
+    for i in Inspection.objects.current().filter(battery__site__in=site_ids, taken_at__gte=earliest).select_related(
+        "battery__site", "taken_by"
+    ):
+        if i.taken_at < day_starts[i.battery.site_id]:
+            continue
+        kind = ALL_CELLS if i.scope == Inspection.Scope.ALL_CELLS else PILOT
+        done[i.battery.site_id].append(DoneItem(kind, i.battery, i.taken_at, _name(i.taken_by),
+                                                reverse("readings:inspection", args=[i.pk]), i.get_situation_display()))
+        done_keys.add((i.battery_id, kind))
+        done_keys.add((i.battery_id, PILOT))
+    for t in WaterTopUp.objects.current().filter(battery__site__in=site_ids, done_at__gte=earliest).select_related(
+        "battery__site", "done_by"
+    ):
+        if t.done_at < day_starts[t.battery.site_id]:
+            continue
+        done[t.battery.site_id].append(DoneItem(WATER, t.battery, t.done_at, _name(t.done_by),
+                                                reverse("fleet:battery", args=[t.battery_id]), t.volume_entered))
+        done_keys.add((t.battery_id, WATER))
+    running = defaultdict(list)
+    for c in EqualizingCharge.objects.filter(
+        Q(ended_at__isnull=True) | Q(started_at__gte=earliest), battery__site__in=site_ids
+    ).select_related("battery__site", "by"):
+        if c.ended_at is None:
+            running[c.battery.site_id].append(c)
+        if c.started_at >= day_starts[c.battery.site_id]:
+            done[c.battery.site_id].append(DoneItem(EQUALIZE, c.battery, c.started_at, _name(c.by),
+                                                    reverse("planner:equalizing", args=[c.battery_id]),
+                                                    "running" if c.ended_at is None else "ended"))
+        if c.ended_at is None or c.started_at >= day_starts[c.battery.site_id]:
+            done_keys.add((c.battery_id, EQUALIZE))
+    return done, running, done_keys
+
+
+def _name(user):
+    return (user.get_full_name() or user.username) if user else ""
+
+
+def site_days(sites, now=None):
+    """{site pk: SiteDay}: today's tasks, records and running charges for these sites, in a fixed number of queries."""
+    now = now or timezone.now()
+    sites = list(sites)
+    if not sites:
+        return {}
+    built = planner_inputs.build(sites, now, PLAN_DAYS)
+    plans = plans_for(list(built.values()), now=now)
+    day_starts = {s.pk: _aware(s, dt.datetime.combine(built[s.pk].today, dt.time())) for s in sites}
+    earliest = min(day_starts.values())
+    done, running, done_keys = _done_today([s.pk for s in sites], day_starts, earliest)
+    skips = {}
+    for skip in TaskSkip.objects.filter(battery__site__in=[s.pk for s in sites],
+                                        day__in={b.today for b in built.values()}).order_by("at"):
+        skips[skip.battery_id, skip.kind, skip.day] = skip.reason
+    result = {}
+    for site in sites:
+        entry = built[site.pk]
+        today = entry.today
+        day = SiteDay(site=site, today=today, problem=entry.problem,
+                      done=sorted(done[site.pk], key=lambda d: d.at), running=running[site.pk])
+        plan = plans[site.pk]
+
+        def add(kind, facts, due_day, why, severity=0, start=None, end=None, status="to_do", reason=""):
+            if (facts.battery.pk, kind) in done_keys:
+                return
+            task = TodayTask(kind=kind, battery=facts.battery, site=site, due_day=due_day,
+                             days_overdue=max(0, (today - due_day).days), why=why, severity=severity,
+                             start=start, end=end, vehicle=facts.vehicle, status=status, not_planned_reason=reason)
+            skipped = skips.get((facts.battery.pk, kind, today))
+            if skipped is not None and status == "to_do":
+                task.status, task.skip_reason = "skipped", skipped
+            day.tasks.append(task)
+
+        for task in plan.for_day(today):
+            facts = entry.facts.get(task.battery_id)
+            if facts is not None:
+                add(task.kind, facts, task.due_day, task.reason, task.severity,
+                    _aware(site, task.start), _aware(site, task.end))
+        for missing in plan.unplaced:
+            facts = entry.facts.get(missing.battery_id)
+            if facts is not None and missing.due_day <= today:
+                add(missing.kind, facts, missing.due_day, missing.reason, missing.severity,
+                    status="not_planned", reason=missing.reason)
+        for facts in entry.facts.values():
+            for kind, due_day, why in reading_tasks(facts, today):
+                add(kind, facts, due_day, why)
+        day.tasks.sort(key=TodayTask.sort_key)
+        result[site.pk] = day
+    return result
+
+
+def tasks_for_today(user, now=None):
+    """Today's tasks (to do, skipped or not planned) at every site the user may see, overdue first.
+
+    Each item is a TodayTask; `.as_dict()` gives plain JSON-ready values for the API.
+    """
+    days = site_days(visible_sites(user).order_by("name"), now)
+    tasks = [task for day in days.values() for task in day.tasks]
+    return sorted(tasks, key=TodayTask.sort_key)
+
+
+def first_due(care, today):
+    """(equalize due day, water due day) for a planner battery, as the planner works them out; None = not due ever."""
+
+    def due(triggers):
+        return min(triggers) if triggers else None
+
+    eq = []
+    if care.equalize_every_days:
+        eq.append(today if care.last_equalized is None else care.last_equalized + dt.timedelta(days=care.equalize_every_days))
+    if care.equalize_every_charges:
+        left = care.equalize_every_charges - care.charges_since_equalize
+        eq.append(today + dt.timedelta(days=math.ceil(left / care.charges_per_day)))
+    water = []
+    if care.water_every_days:
+        water.append(today if care.last_watered is None else care.last_watered + dt.timedelta(days=care.water_every_days))
+    for finding in care.findings:
+        (eq if finding.kind in planning.EQUALIZE_FINDINGS else water).append(today)
+    return due(eq), due(water)
+
+
+def due_summary(batteries, now=None):
+    """Counts for the dashboard: batteries whose equalizing charge or watering is overdue (due before today, or
+    never on record) or due today, by the planning policy. Sealed batteries that may not be equalized or
+    watered never count. Fixed number of queries."""
+    now = now or timezone.now()
+    wanted = set(Battery.objects.filter(pk__in=_pks(batteries)).values_list("pk", flat=True))
+    sites = Site.objects.filter(batteries__in=wanted).distinct()
+    counts = {"equalize_overdue": 0, "water_overdue": 0, "equalize_due_today": 0, "water_due_today": 0,
+              "equalize_overdue_ids": [], "water_overdue_ids": []}
+    for entry in planner_inputs.build(sites, now, 1).values():
+        if entry.inputs is None:
+            continue
+        for care in entry.inputs.batteries:
+            if care.battery_id not in wanted:
+                continue
+            eq_due, water_due = first_due(care, entry.today)
+            for kind, due, last in (("equalize", eq_due, care.last_equalized), ("water", water_due, care.last_watered)):
+                if due is None:
+                    continue
+                if due < entry.today or last is None:
+                    counts[f"{kind}_overdue"] += 1
+                    counts[f"{kind}_overdue_ids"].append(care.battery_id)
+                elif due == entry.today:
+                    counts[f"{kind}_due_today"] += 1
+    return counts
+
+
+def _pks(batteries):
+    if hasattr(batteries, "values_list"):
+        return batteries.values_list("pk", flat=True)
+    return [b.pk if hasattr(b, "pk") else b for b in batteries]
+
+
+def work_due_for_battery(battery, now=None):
+    """[{kind, title, due}] for one battery: its next planned equalizing and watering (from the site's stored
+    plan) and any reading due; `due` is an aware datetime. Used by the JSON API."""
+    site = battery.site
+    entry, plan = site_plan(site, now)
+    facts = entry.facts.get(battery.pk)
+    if facts is None:
+        return []
+    titles = {EQUALIZE: "Equalizing charge", WATER: "Water", ALL_CELLS: "Read all cells",
+              PILOT: f"Read the pilot cell (cell {battery.pilot_cell})"}
+    found = {}
+    for task in plan.tasks:
+        if task.battery_id == battery.pk and task.kind not in found:
+            found[task.kind] = _aware(site, task.start)
+    for missing in plan.unplaced:
+        if missing.battery_id == battery.pk and missing.kind not in found:
+            found[missing.kind] = _aware(site, dt.datetime.combine(missing.due_day, dt.time()))
+    for kind, due_day, _ in reading_tasks(facts, entry.today):
+        found.setdefault(kind, _aware(site, dt.datetime.combine(due_day, dt.time())))
+    return [{"kind": k, "title": titles[k], "due": found[k]} for k in KINDS if k in found]
+
+
+@dataclass
+class WeekCell:
+    tasks: list
+    chargers_used: int
+    chargers: int
+    airflow_used: float
+    airflow: float
+
+    @property
+    def over(self):
+        return self.chargers_used > self.chargers or self.airflow_used > self.airflow + 1e-6
+
+
+def site_plan(site, now=None):
+    """(SiteInputs, Plan) for one site's next PLAN_DAYS days, from the stored plan when still current."""
+    now = now or timezone.now()
+    entry = planner_inputs.build([site], now, PLAN_DAYS)[site.pk]
+    return entry, plans_for([entry], now=now)[site.pk]
+
+
+def week_view(site, week=0, now=None):
+    """A site's plan for one week per charging room: days x shift windows, with chargers and airflow used."""
+    entry, plan = site_plan(site, now)
+    first = entry.today + dt.timedelta(days=7 * week)
+    days = [first + dt.timedelta(days=n) for n in range(7)]
+    rooms = []
+    for room_id, room in sorted(entry.rooms.items(), key=lambda r: r[1].room.name):
+        rows = []
+        for day in days:
+            cells = []
+            for window in entry.windows:
+                start = dt.datetime.combine(day, window.starts_at)
+                running = [t for t in plan.tasks if t.kind == planning.EQUALIZE and t.room_id == room_id
+                           and t.start == start]
+                airflow = room.baseline_airflow_m3h + sum(entry.facts[t.battery_id].equalize_airflow_m3h
+                                                          for t in running if t.battery_id in entry.facts)
+                cells.append(WeekCell(running, len(running), room.room.equalizing_chargers, airflow,
+                                      float(room.room.airflow_m3h)))
+            rows.append((day, cells))
+        members = [f for f in entry.facts.values() if f.battery.charging_room_id == room_id and f.can_equalize]
+        smallest = min((f.equalize_airflow_m3h for f in members), default=0.0)
+        free = float(room.room.airflow_m3h) - room.baseline_airflow_m3h
+        warning = ""
+        if free < 0:
+            warning = (f"Normal charging alone needs {room.baseline_airflow_m3h:.0f} m³/h and the ventilation gives "
+                       f"{room.room.airflow_m3h:.0f} m³/h: no equalizing charge can be planned here. Check the "
+                       f"ventilation survey, or how many batteries really charge at once.")
+        elif members and free < smallest:
+            warning = (f"Only {free:.0f} m³/h is left beyond normal charging; one equalizing charge needs "
+                       f"{smallest:.0f} m³/h more: none can be planned here.")
+        rooms.append({"facts": room, "rows": rows, "warning": warning, "free_airflow": free,
+                      "battery_count": len(members)})
+    waterings = defaultdict(int)
+    for t in plan.tasks:
+        if t.kind == planning.WATER:
+            waterings[t.day] += 1
+    return {
+        "site": site, "entry": entry, "plan": plan, "days": days, "week": week, "windows": entry.windows,
+        "rooms": rooms, "waterings": [(d, waterings.get(d, 0)) for d in days],
+        "unplaced": [u for u in plan.unplaced], "weeks": range(PLAN_DAYS // 7),
+        "spares": entry.inputs.spares_available if entry.inputs else 0,
+        "serials": {f.battery.pk: f.battery.serial for f in entry.facts.values()},
+    }
+
+
+def equalizing_record(battery):
+    """The battery's running equalizing charge (with readings) and its recent ones."""
+    charges = list(EqualizingCharge.objects.filter(battery=battery).select_related("by").prefetch_related("readings")[:6])
+    running = next((c for c in charges if c.ended_at is None), None)
+    return {"running": running, "past": [c for c in charges if c is not running][:5]}
