@@ -67,18 +67,18 @@ def tukey_fences(values):
 
 def box_with_outliers(series, title, y_title, x_title=None, height=380):
     """series: [(name, groups, outliers)] with groups [(category, values)] and outliers [(category, value,
-    label)]. Each category gets one box per series, side by side in legend order, whiskers stopping at
-    the last value inside Tukey's fences; outliers sit beside their box as diamonds, named where a label
-    is given, so the batteries that stand out are named, not just coloured. Only box statistics are sent."""
+    label)]. Each category gets one box per series, side by side in legend order, whiskers reaching the
+    lowest and highest value (nothing is hidden); outliers sit beside their box as marked points, named
+    where a label is given, so the batteries that stand out are named, not just coloured. Only box
+    statistics and outliers are sent, never every value."""
     fig = go.Figure()
     for n, (name, groups, outliers) in enumerate(series):
         stats = {"x": [], "q1": [], "median": [], "q3": [], "lowerfence": [], "upperfence": []}
         for category, values in groups:
             if len(values) < 2:
                 continue
-            q1, median, q3, low, high = tukey_fences(values)
-            inside = [v for v in values if low <= v <= high]
-            for key, value in zip(stats, (category, q1, median, q3, min(inside), max(inside))):
+            q1, median, q3, _low, _high = tukey_fences(values)
+            for key, value in zip(stats, (category, q1, median, q3, min(values), max(values))):
                 stats[key].append(value)
         fig.add_trace(go.Box(name=name, offsetgroup=str(n), legendgroup=str(n), **stats))
         if outliers:

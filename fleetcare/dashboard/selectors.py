@@ -267,30 +267,36 @@ def _water_chart(batteries, rows, now):
     series = [(name, *_water_boxes(members, by_battery, edges)) for name, members in ranked]
     return charts.box_with_outliers(
         series,
-        f"Water added per cell per month, by battery profile<br><sup>last {WATER_MONTHS} complete months; each box "
-        "holds the middle half of the batteries; marked and named: batteries beyond 1.5 box heights and a quarter "
-        "off the median</sup>",
+        f"Water added per cell per month, by battery profile<br><sup>last {WATER_MONTHS} complete months · box: middle "
+        "half, whiskers: lowest to highest · named: far off its profile at its own site</sup>",
         "mL per cell",
     )
 
 
 def _water_boxes(members, by_battery, edges):
+    """Box values per month for one profile, and the batteries that stand out against the others of
+    that profile at their own site (sites charge differently, so their water use differs too)."""
     groups, outliers = [], []
     for i in range(len(edges) - 1):
         month = edges[i].strftime("%b %Y")
-        serials, values = [], []
+        values, per_site = [], defaultdict(list)
         for r in members:
             total = by_battery.get(r["pk"], {}).get(f"b{i}")
             in_use = r["status"] in (Battery.Status.IN_SERVICE, Battery.Status.CHARGING)
             if total is None and not (in_use and r["in_service_date"] <= edges[i].date()):
                 continue
-            serials.append(r["serial"])
-            values.append(round(float(total or 0) / r["cells"], 1))
+            value = round(float(total or 0) / r["cells"], 1)
+            values.append(value)
+            per_site[r["site_id"]].append((value, r["serial"]))
         groups.append((month, values))
-        middle = sorted(values)[len(values) // 2] if values else 0
-        flagged = sorted(_outliers(values), key=lambda j: -abs(values[j] - middle))
-        for rank, j in enumerate(flagged):
-            outliers.append((month, values[j], serials[j] if rank < OUTLIER_LABELS_PER_MONTH else ""))
+        flagged = []
+        for peers in per_site.values():
+            site_values = [v for v, _serial in peers]
+            middle = sorted(site_values)[len(site_values) // 2]
+            flagged.extend((abs(peers[j][0] - middle), peers[j]) for j in _outliers(site_values))
+        flagged.sort(key=lambda f: -f[0])
+        for rank, (_distance, (value, serial)) in enumerate(flagged):
+            outliers.append((month, value, serial if rank < OUTLIER_LABELS_PER_MONTH else ""))
     return groups, outliers
 
 

@@ -7,8 +7,9 @@ def test_tukey_fences_use_the_quartiles_and_one_and_a_half_interquartile_ranges(
     assert charts.tukey_fences([1, 2, 3, 4, 5, 6, 7, 8]) == (2.75, 4.5, 6.25, -2.5, 11.5)
 
 
-def test_the_box_whiskers_stop_at_the_last_value_inside_the_fences():
+def test_the_box_whiskers_reach_the_lowest_and_highest_values_so_nothing_is_hidden():
     fig = charts.box_with_outliers([("48 V", [("Jan", [10, 11, 12, 13, 40])], [("Jan", 40, "B-7")])], "t", "mL")
     box = fig.data[0]
-    assert box.upperfence == (13,) and box.lowerfence == (10,)
+    assert box.upperfence == (40,) and box.lowerfence == (10,)
+    assert (box.q1, box.median, box.q3) == ((11,), (12,), (13,))
     assert fig.data[1].text == ("B-7",)

@@ -224,3 +224,14 @@ def test_a_battery_only_slightly_off_a_tight_fleet_is_not_named(super_client, si
         water(b, supervisor, last_month, ml)
     fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
     assert [t["type"] for t in fig["data"]] == ["box"]
+
+
+def test_a_site_that_charges_less_is_not_named_but_its_own_heavy_user_is(super_client, site, other_site, traction_profile,
+                                                                        supervisor, now, django_user_model):
+    other_site.members.add(supervisor)
+    last_month = now.replace(day=1) - dt.timedelta(days=10)
+    for k, (where, ml) in enumerate([(site, 2400)] * 5 + [(other_site, 1200)] * 5 + [(other_site, 2900)]):
+        b = Battery.objects.create(serial=f"W-{k:02d}", profile=traction_profile, site=where, in_service_date=dt.date(2024, 1, 1))
+        water(b, supervisor, last_month, ml + k)
+    fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
+    assert [t["text"] for t in fig["data"] if t["type"] == "scatter"] == [["W-10"]]
