@@ -18,8 +18,8 @@ PRODUCTION_ENV = {
 
 
 def manage(*args, **env):
-    """Run manage.py in a fresh interpreter, so settings are read from this environment only."""
-    clean = {k: v for k, v in os.environ.items() if k not in ("DEBUG", "SECRET_KEY", "ALLOWED_HOSTS", "FLEETCARE_PRODUCTION")}
+    """Run manage.py in a fresh interpreter with a minimal environment, so settings come from `env` only."""
+    clean = {k: v for k, v in os.environ.items() if k in ("PATH", "HOME", "LANG", "LC_ALL", "PYTHONPATH", "TMPDIR")}
     return subprocess.run(
         [sys.executable, "manage.py", *args], cwd=ROOT, env={**clean, **env}, capture_output=True, text=True, timeout=120,
     )
