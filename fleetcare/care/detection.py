@@ -12,8 +12,8 @@ from datetime import timedelta
 
 from django.db import transaction
 from django.db.models import Count, Exists, F, Max, OuterRef, Prefetch
-from django.db.models.functions import RowNumber
 from django.db.models.expressions import Window
+from django.db.models.functions import RowNumber
 from django.utils import timezone
 
 from fleetcare.care import policy as care_policy
