@@ -11,7 +11,7 @@ from ninja.security import APIKeyCookie, HttpBearer
 from ninja.utils import check_csrf
 
 from fleetcare.accounts.access import battery_or_404
-from fleetcare.accounts.roles import CREW, has_role
+from fleetcare.accounts.roles import CREW, has_role, role_of
 from fleetcare.api import schemas, selectors, services
 from fleetcare.api.tokens import user_for_secret
 
@@ -92,6 +92,13 @@ def _invalid(request, exc):
 class BatteryFilter(Schema):
     site: str | None = None
     include_retired: bool = False
+
+
+@api.get("/me", response={200: schemas.MeOut, **ERRORS}, url_name="me", summary="Who you are signed in as")
+def me(request):
+    user = request.auth
+    return {"username": user.get_username(), "name": user.get_full_name(), "role": role_of(user),
+            "sites": [s["code"] for s in selectors.sites_for(user)]}
 
 
 @api.get("/sites", response={200: list[schemas.SiteOut], **ERRORS}, url_name="sites", summary="Your sites")

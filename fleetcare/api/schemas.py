@@ -19,6 +19,13 @@ class ErrorOut(Schema):
     )
 
 
+class MeOut(Schema):
+    username: str
+    name: str
+    role: Literal["crew", "supervisor", "manager", "administrator"]
+    sites: list[str] = Field(description="Codes of the sites you see.")
+
+
 class SiteOut(Schema):
     code: str
     name: str

@@ -173,12 +173,23 @@
 
   function mine(item) { return !item.user || item.user === config.user; }
 
+  function signedInAs() {
+    // Who the session belongs to now (another tab may have signed someone else in since this page loaded).
+    return fetch(config.me, {credentials: "same-origin", headers: {Accept: "application/json"}})
+      .then(function (response) { return response.ok ? response.json() : {}; })
+      .then(function (me) { return me.username || ""; });
+  }
+
   function sendWaiting() {
     if (sending || !navigator.onLine || !config.user) return Promise.resolve();
     sending = true;
-    return allItems().then(function (items) {
+    var user = "";
+    return signedInAs().then(function (username) {
+      user = username;
+      return allItems();
+    }).then(function (items) {
       // Only the crew member who took a reading sends it: it is stored under their name.
-      var waiting = items.filter(function (i) { return i.state !== "rejected" && mine(i); });
+      var waiting = items.filter(function (i) { return i.state !== "rejected" && user && (!i.user || i.user === user); });
       return waiting.reduce(function (chain, item) {
         return chain.then(function () { return sendOne(item); });
       }, Promise.resolve());

@@ -89,3 +89,7 @@ def test_every_api_view_declares_its_least_role():
     assert roles["batteries"] == CREW
     assert roles["submit_inspection"] == CREW
     assert roles["tokens"] == CREW
+
+
+def test_it_says_who_is_signed_in(token_client, crew, battery):
+    assert token_client.get("/api/me").json() == {"username": "crew1", "name": "", "role": "crew", "sites": ["tr", "tw"]}
