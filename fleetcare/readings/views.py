@@ -10,7 +10,11 @@ from django.views.decorators.http import require_http_methods
 
 from fleetcare import chemistry
 from fleetcare.accounts.access import (
-    battery_or_404, inspection_or_404, role_required, top_up_or_404, visible_batteries,
+    battery_or_404,
+    inspection_or_404,
+    role_required,
+    top_up_or_404,
+    visible_batteries,
 )
 from fleetcare.accounts.audit import inspection_versions
 from fleetcare.accounts.forms import ReasonForm

@@ -179,3 +179,21 @@ def test_a_fahrenheit_site_sees_its_temperature_in_fahrenheit(supervisor_client,
     inspection = store_inspection(battery, crew, temp_c=Decimal("30.0"))
     form = supervisor_client.get(reverse("readings:correct", args=[inspection.pk])).context["form"]
     assert form["temp"].value() == Decimal("86.0")  # 30 °C = 86 °F
+
+
+def test_a_sealed_pair_is_corrected_block_by_block(supervisor_client, sealed_battery, crew):
+    cells = [CellEntry(position=1, volts=Decimal("12.71")), CellEntry(position=2, volts=Decimal("12.17"))]
+    old, _ = services.record_inspection(battery=sealed_battery, user=crew, taken_at=TAKEN_AT, situation="rested",
+                                        cells=cells)
+    url = reverse("readings:correct", args=[old.pk])
+    form = supervisor_client.get(url).context["form"]
+    assert (form["volts_1"].value(), form["volts_2"].value()) == (Decimal("12.710"), Decimal("12.170"))
+    response = supervisor_client.post(url, {
+        "situation": "rested", "scope": "all", "taken_at": "2026-11-30T06:15", "temp": "", "notes": "",
+        "client_uuid": str(uuid.uuid4()), "volts_1": "12.71", "volts_2": "12.67",
+        "reason": "Block 2 read with a loose lead; re-read 12.67 V",
+    })
+    assert response.status_code == 302
+    new = Inspection.objects.current().get(battery=sealed_battery)
+    assert new.volts_total == Decimal("25.38")
+    assert list(new.cells.values_list("volts", flat=True)) == [Decimal("12.710"), Decimal("12.670")]
