@@ -1,0 +1,134 @@
+"""The plan as iCalendar (RFC 5545), read back by a strict little parser; the secret feed address."""
+import datetime as dt
+import re
+
+import pytest
+from django.urls import reverse
+
+from fleetcare.care import planning
+from fleetcare.planner import ical
+from fleetcare.planner.models import SiteSettings
+from fleetcare.planner.services import site_settings
+
+
+def parse(body: bytes):
+    """Components as nested dicts; fails on anything RFC 5545 forbids that this feed could get wrong."""
+    assert body.endswith(b"\r\n")
+    physical = body[:-2].split(b"\r\n")
+    for line in physical:
+        assert b"\n" not in line and b"\r" not in line, "bare LF or CR"
+        assert len(line) <= 75, f"line longer than 75 octets: {line!r}"
+    logical = []
+    for line in physical:
+        if line.startswith((b" ", b"\t")):
+            assert logical, "continuation without a line to continue"
+            logical[-1] += line[1:]
+        else:
+            logical.append(line)
+    stack = [{"name": "ROOT", "props": [], "children": []}]
+    for raw in logical:
+        text = raw.decode("utf-8")
+        match = re.fullmatch(r"([A-Z0-9-]+)((?:;[A-Z0-9-]+=[^:;]*)*):(.*)", text)
+        assert match, f"not a content line: {text!r}"
+        name, value = match.group(1), match.group(3)
+        if name == "BEGIN":
+            stack.append({"name": value, "props": [], "children": []})
+        elif name == "END":
+            done = stack.pop()
+            assert done["name"] == value, f"END:{value} closes {done['name']}"
+            stack[-1]["children"].append(done)
+        else:
+            stack[-1]["props"].append((name, value))
+    assert len(stack) == 1, "unclosed component"
+    (calendar,) = stack[0]["children"]
+    assert calendar["name"] == "VCALENDAR"
+    return calendar
+
+
+def props(component):
+    found = {}
+    for name, value in component["props"]:
+        assert name not in found or name.startswith("X-"), f"{name} twice"
+        found[name] = value
+    return found
+
+
+UTC_TIME = re.compile(r"\d{8}T\d{6}Z")
+
+
+def check_calendar(body):
+    calendar = parse(body)
+    head = props(calendar)
+    assert head["VERSION"] == "2.0" and head["PRODID"]
+    events = [c for c in calendar["children"] if c["name"] == "VEVENT"]
+    uids = set()
+    for event in events:
+        p = props(event)
+        for required in ("UID", "DTSTAMP", "DTSTART", "DTEND", "SUMMARY"):
+            assert required in p
+        assert UTC_TIME.fullmatch(p["DTSTAMP"]) and UTC_TIME.fullmatch(p["DTSTART"]) and UTC_TIME.fullmatch(p["DTEND"])
+        assert p["DTEND"] > p["DTSTART"]
+        uids.add(p["UID"])
+    assert len(uids) == len(events)
+    return events
+
+
+def test_folding_splits_at_75_octets_without_breaking_a_character():
+    line = "SUMMARY:" + "Équalizing ünder ventilation – " * 6
+    parts = ical.fold(line)
+    assert all(len(p.encode()) <= 75 for p in parts)
+    assert parts[0] + "".join(p[1:] for p in parts[1:]) == line
+    assert all(p.startswith(" ") for p in parts[1:])
+
+
+def test_text_is_escaped():
+    assert ical.escape("a,b;c\\d\ne") == "a\\,b\\;c\\\\d\\ne"
+
+
+def test_a_plan_with_a_long_reason_gives_a_valid_calendar(site):
+    start = dt.datetime(2026, 3, 30, 22, 0)  # the night the clocks have just gone forward in London
+    task = planning.PlannedTask(
+        battery_id=7, serial="TW-007", kind="equalize", room_id=1, day=start.date(), start=start,
+        end=start + dt.timedelta(hours=3), due_day=start.date(), days_overdue=2, severity=3,
+        reason="high-spread finding (severity 3): spread 0,031 after charge; equalizing every 7 days, last on 2026-03-21",
+    )
+    plan = planning.Plan(site_id=site.pk, start_date=start.date(), days=7, tasks=(task,), unplaced=(),
+                         lower_bound_overdue_days=2, proven_optimal=True, method="test")
+    text = ical.calendar(site, plan, {7: "TW-007"}, dt.datetime(2026, 3, 30, 8, 0, tzinfo=dt.UTC))
+    (event,) = check_calendar(text.encode())
+    p = props(event)
+    assert p["DTSTART"] == "20260330T210000Z"  # 22:00 BST = 21:00 UTC
+    assert p["DTEND"] == "20260331T000000Z"
+    assert p["SUMMARY"] == "Equalizing charge: TW-007 (2 days overdue)"
+    assert "spread 0\\,031" in p["DESCRIPTION"]
+
+
+def test_a_supervisor_downloads_the_sites_plan(warehouse, client, supervisor):
+    client.force_login(supervisor)
+    response = client.get(reverse("planner:plan_ics", args=["tw"]))
+    assert response.status_code == 200
+    assert response["Content-Type"].startswith("text/calendar")
+    events = check_calendar(response.content)
+    assert any("Equalizing charge: TW-F001" in props(e)["SUMMARY"] for e in events)
+    assert any(props(e)["SUMMARY"].startswith("Water: ") for e in events)
+
+
+def test_the_secret_feed_works_without_a_session_and_stops_when_renewed(warehouse, client, supervisor):
+    token = site_settings(warehouse["site"]).feed_token
+    feed = reverse("planner:feed", args=[token])
+    assert client.get(feed).status_code == 200
+    check_calendar(client.get(feed).content)
+    assert client.get(reverse("planner:feed", args=["not-a-token"])).status_code == 404
+    client.force_login(supervisor)
+    assert client.post(reverse("planner:new_feed_token", args=["tw"])).status_code == 302
+    client.logout()
+    assert client.get(feed).status_code == 404
+    new = SiteSettings.objects.get(site=warehouse["site"]).feed_token
+    assert new != token and client.get(reverse("planner:feed", args=[new])).status_code == 200
+
+
+@pytest.mark.parametrize("role_fixture", ["crew"])
+def test_crew_cannot_renew_the_feed_or_download_the_plan(warehouse, client, request, role_fixture):
+    client.force_login(request.getfixturevalue(role_fixture))
+    assert client.post(reverse("planner:new_feed_token", args=["tw"])).status_code == 403
+    assert client.get(reverse("planner:plan_ics", args=["tw"])).status_code == 403
