@@ -4,6 +4,7 @@ from django.core.management.base import BaseCommand
 from fleetcare.budget import demo as budget_demo
 from fleetcare.care.detection import detect_fleet
 from fleetcare.fleet import demo
+from fleetcare.planner import demo as planner_demo
 
 
 class Command(BaseCommand):
@@ -22,6 +23,7 @@ class Command(BaseCommand):
         else:
             self.stdout.write("Demo fleet already loaded; nothing added.")
         budget_demo.load()
+        planner_demo.load()
         self.stdout.write("Sign in at http://%s/accounts/login/ as:" % addrport)
         for username, first, last, role in demo.DEMO_USERS:
             self.stdout.write(f"  {role:<14} {username:<17} password {demo.DEMO_PASSWORD}")
