@@ -30,6 +30,7 @@ KWARG_KINDS = {
     "finding_pk": "finding", "finding_id": "finding",
     "code": "site_code", "site": "site_code", "site_code": "site_code",
     "site_pk": "site", "site_id": "site",
+    "token": "feed_token",
 }
 # For a bare `pk` or `id`, the path word before it says what it names ("findings/<int:pk>/").
 PK_NOUNS = {
@@ -129,6 +130,10 @@ class World:
             return store_inspection(battery, self.reader).pk
         if kind == "top_up":
             return store_top_up(battery, self.reader).pk
+        if kind == "feed_token":
+            from fleetcare.planner.services import site_settings
+
+            return site_settings(battery.site).feed_token
         if kind == "finding":
             from fleetcare.care.models import Finding
 
@@ -176,7 +181,7 @@ def expected(route, role, side):
 
 
 def outcome(response, route, method):
-    """The status as the matrix reads it: a sign-in redirect is 302, any other redirect after a form is success."""
+    """The status as the matrix reads it: a sign-in redirect is 302; any other redirect means the view was reached."""
     status = response.status_code
     if status == 302 and "/accounts/login/" in response.get("Location", ""):
         return 302
@@ -185,7 +190,7 @@ def outcome(response, route, method):
     if method == "POST" and status in (400, 422):
         return MALFORMED
     if status == 302:
-        return f"302 to {response.get('Location')}"
+        return 200  # reached, and sent on (e.g. the planner's home to the user's first site)
     return status
 
 
