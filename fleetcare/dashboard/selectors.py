@@ -47,7 +47,7 @@ SPREAD_WEEKS = 26
 WORST_BATTERIES = 5
 OUTLIER_LABELS_PER_MONTH = 3
 WATER_PROFILES = 4
-OUTLIER_MIN_SHARE = 0.25  # FleetCare default, not a published figure: month-to-month use varies about this much
+OUTLIER_MIN_SHARE = 0.25  # FleetCare default, not a published figure: a smaller difference is not worth naming
 # Where a finding's own name could be mistaken for a count beside it.
 FINDING_LABELS = {"ageing": "Past design life (years or cycles)"}
 
