@@ -96,7 +96,7 @@ def _fleet():
     pagm = BatteryProfile.objects.create(
         name="24 V pair of 12 V 60 Ah AGM blocks", maker="Demo maker", technology="agm", application="mobility",
         nominal_voltage=24, monoblocks=2, cells_per_block=6, capacity_ah=60, capacity_hour_rate=20,
-        watering_allowed=False, equalizing_allowed=False, design_life_years=2, design_cycles=400,
+        watering_allowed=False, equalizing_allowed=False, design_life_years=2, design_cycles=800,
         unit_price=Decimal("310"), weight_kg=Decimal("42"), ocv_rest_hours=Decimal("4"))
     profiles = {"p48": p48, "p24": p24, "agm": pagm}
     since = timezone.localdate() - timedelta(days=HISTORY_DAYS + 30)
