@@ -7,7 +7,7 @@ import csv
 import datetime as dt
 import io
 import uuid
-from collections import defaultdict
+from collections import defaultdict, namedtuple
 from dataclasses import dataclass, field
 from decimal import Decimal, InvalidOperation
 
@@ -19,7 +19,7 @@ from fleetcare import chemistry
 from fleetcare.readings import signals
 from fleetcare.readings.forms import SG_HIGH, SG_LOW, TEMP_HIGH_C, TEMP_LOW_C
 from fleetcare.readings.models import CellReading, Inspection
-from fleetcare.readings.services import CellEntry, build_cells, summarise
+from fleetcare.readings.services import SG_PLACES, CellEntry, _q, corrected_cell_sg, summarise
 
 COLUMNS = ["serial", "taken_at", "situation", "cell", "sg", "temp", "volts", "level"]
 EXPORT_COLUMNS = COLUMNS + ["sg_corrected", "inspection_soc_percent"]
@@ -226,10 +226,26 @@ def _client_uuid(key):
     return uuid.uuid5(IMPORT_NAMESPACE, f"{serial}|{taken_at.isoformat()}|{situation}")
 
 
+# A cell reading before it has an inspection to belong to: what summarise() reads and what is stored.
+_Cell = namedtuple("_Cell", "position sg sg_corrected temp_c volts level")
+
+
+def _cells(inspection, profile, entries, corrected_cache):
+    """The cells of one inspection with their corrected SG, as services.build_cells computes them."""
+    cells = []
+    for entry in entries:
+        temp = entry.temp_c if entry.temp_c is not None else inspection.temp_c
+        key = (profile.pk, entry.sg, temp, inspection.hydrometer_compensated)
+        if key not in corrected_cache:
+            corrected_cache[key] = _q(corrected_cell_sg(profile, entry.sg, temp, inspection.hydrometer_compensated), SG_PLACES)
+        cells.append(_Cell(entry.position, entry.sg, corrected_cache[key], entry.temp_c, entry.volts, entry.level))
+    return cells
+
+
 def _store(groups, group_battery, user, report):
     uuids = {key: _client_uuid(key) for key in groups}
     stored = set(Inspection.objects.filter(client_uuid__in=uuids.values()).values_list("client_uuid", flat=True))
-    inspections, cells_by_inspection = [], []
+    inspections, cells_by_inspection, corrected_cache = [], [], {}
     for key, rows in groups.items():
         if uuids[key] in stored:
             report.inspections_already_stored += 1
@@ -242,18 +258,14 @@ def _store(groups, group_battery, user, report):
             temp_c=(sum(temps) / len(temps)).quantize(Decimal("0.1")) if temps else None,
             client_uuid=uuids[key], notes="Imported from CSV",
         )
-        cells = build_cells(inspection, sorted((entry for _, entry in rows), key=lambda e: e.position))
+        entries = sorted((entry for _, entry in rows), key=lambda e: e.position)
+        cells = _cells(inspection, group_battery[key].profile, entries, corrected_cache)
         summarise(inspection, cells)
         inspections.append(inspection)
         cells_by_inspection.append(cells)
     with transaction.atomic():
         Inspection.objects.bulk_create(inspections, batch_size=500)
-        all_cells = []
-        for inspection, cells in zip(inspections, cells_by_inspection):
-            for cell in cells:
-                cell.inspection = inspection
-            all_cells.extend(cells)
-        _insert_cells(all_cells)
+        _insert_cells(zip(inspections, cells_by_inspection))
         latest = {}
         for inspection in inspections:
             if inspection.battery_id not in latest or inspection.taken_at > latest[inspection.battery_id].taken_at:
@@ -262,14 +274,17 @@ def _store(groups, group_battery, user, report):
             lambda: [signals.inspection_recorded.send(Inspection, inspection=i) for i in latest.values()]
         )
     report.inspections_created = len(inspections)
-    report.cells_created = len(all_cells)
+    report.cells_created = sum(len(cells) for cells in cells_by_inspection)
     report.imported = True
 
 
-def _insert_cells(cells):
+def _insert_cells(inspections_and_cells):
     """Store cell readings; on PostgreSQL with COPY, which is several times faster than INSERT for a big file."""
     if connection.vendor != "postgresql":
-        CellReading.objects.bulk_create(cells, batch_size=2000)
+        CellReading.objects.bulk_create(
+            [CellReading(inspection=inspection, **cell._asdict()) for inspection, cells in inspections_and_cells for cell in cells],
+            batch_size=2000,
+        )
         return
 
     # Rounded as Django rounds a DecimalField on save (half to even, to the field's places).
@@ -282,9 +297,10 @@ def _insert_cells(cells):
         return str(value.quantize(places) if places is not None else value)
 
     buffer = io.StringIO()
-    for c in cells:
-        buffer.write(f"{c.inspection_id}\t{c.position}\t{text(c.sg)}\t{text(c.sg_corrected)}\t"
-                     f"{text(c.temp_c, temp_places)}\t{text(c.volts, volts_places)}\t{c.level}\n")
+    for inspection, cells in inspections_and_cells:
+        for c in cells:
+            buffer.write(f"{inspection.pk}\t{c.position}\t{text(c.sg)}\t{text(c.sg_corrected)}\t"
+                         f"{text(c.temp_c, temp_places)}\t{text(c.volts, volts_places)}\t{c.level}\n")
     buffer.seek(0)
     with connection.cursor() as cursor:
         cursor.copy_expert(
