@@ -3,7 +3,7 @@
 Views declare the least role they need with fleetcare.accounts.access.role_required; site scoping
 (another site's objects answer 404) is separate and done by the access helpers.
 """
-from django.contrib.auth.models import Group
+from django.contrib.auth.models import Group, Permission
 
 CREW = "crew"
 SUPERVISOR = "supervisor"
@@ -14,7 +14,13 @@ RANK = {role: rank for rank, role in enumerate(ROLES)}
 
 
 def ensure_groups():
-    return {name: Group.objects.get_or_create(name=name)[0] for name in ROLES}
+    """The four groups; administrators also hold every Django permission, so they can manage people in the admin.
+
+    The other roles get no admin permissions: the admin is not scoped to sites, the app's pages are.
+    """
+    groups = {name: Group.objects.get_or_create(name=name)[0] for name in ROLES}
+    groups[ADMINISTRATOR].permissions.set(Permission.objects.all())
+    return groups
 
 
 def role_of(user):

@@ -34,3 +34,12 @@ def test_the_password_change_page_is_ours(client, crew):
     response = client.get(reverse("password_change"))
     assert response.status_code == 200
     assert "Change your password" in response.content.decode()
+
+
+def test_administrators_may_manage_people_and_other_roles_get_no_admin_rights(administrator, manager):
+    administrator.is_staff = True
+    administrator.save()
+    assert administrator.has_perm("auth.change_user")
+    assert administrator.has_perm("fleet.add_battery")
+    assert not manager.has_perm("fleet.add_battery")
+    assert not manager.has_perm("auth.change_user")
