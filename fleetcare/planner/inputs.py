@@ -246,6 +246,14 @@ def charges_logged(logged_times, since_date, site, now):
     return per_day, sum(1 for t in logged_times if _local_date(t, site) > since_date)
 
 
+def short_note(summary, limit=100):
+    """The finding's summary, cut at a word boundary."""
+    text = " ".join((summary or "").split())
+    if len(text) <= limit:
+        return text
+    return text[:limit].rsplit(" ", 1)[0].rstrip(",;:") + " …"
+
+
 def acted_on(finding, facts):
     """A finding already answered by an equalizing charge (or a top-up) after it was last seen: the next
     reading decides whether it stays, so it does not ask for the same work again meanwhile."""
@@ -298,7 +306,7 @@ def _battery_care(facts, site, findings, logged_times, now):
         last_watered=facts.last_watered,
         watering_minutes=float(settings.watering_minutes),
         findings=tuple(
-            planning.Finding(kind=f.kind, severity=int(f.severity), note=(f.summary or "")[:120])
+            planning.Finding(kind=f.kind, severity=int(f.severity), note=short_note(f.summary))
             for f in findings if f.kind in kinds and not acted_on(f, facts)
         ),
     )

@@ -50,6 +50,23 @@ class TodayTask:
         return f"Read the pilot cell (cell {self.battery.pilot_cell})"
 
     @property
+    def plain_reason(self):
+        """Why the plan has no room for it, in the crew's words."""
+        reason = self.not_planned_reason
+        found = []
+        if "ventilation" in reason:
+            found.append("not enough ventilation left in the charging room")
+        if "spare" in reason:
+            found.append("no spare battery free to cover the truck")
+        if "charger" in reason:
+            found.append("no equalizing charger free")
+        if "shift window" in reason:
+            found.append("no shift window long enough")
+        if "charging room" in reason and "recorded" in reason:
+            found.append("no charging room recorded for this battery")
+        return "; ".join(found) or reason
+
+    @property
     def is_overdue(self):
         return self.days_overdue > 0
 
@@ -122,7 +139,7 @@ def reading_tasks(facts, today):
     every_all = int(settings.all_cells_every_days) or None
     if facts.equalizing_ended_at and (facts.all_cells_at is None or facts.equalizing_ended_at > facts.all_cells_at):
         ended = timezone.localtime(facts.equalizing_ended_at, facts.battery.site.tzinfo)
-        found.append((ALL_CELLS, ended.date(), f"after the equalizing charge that ended {ended:%d %b %H:%M}"))
+        found.append((ALL_CELLS, ended.date(), f"after the equalizing charge that ended {ended:%-d %b %H:%M}: choose “Just equalized”"))
     elif facts.last_all_cells is None:
         found.append((ALL_CELLS, today, "no all-cell reading on record"))
     elif every_all and facts.last_all_cells + dt.timedelta(days=every_all) <= today:
