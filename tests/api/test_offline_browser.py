@@ -125,7 +125,7 @@ def test_a_refused_reading_is_kept_and_shown_until_the_crew_member_deals_with_it
     page.once("dialog", lambda dialog: dialog.accept())
     page.get_by_role("button", name="Discard").click()
     page.locator("#outbox-empty").wait_for(state="visible")
-    assert page.locator("#fc-outbox").is_hidden()
+    page.locator("#fc-outbox").wait_for(state="hidden")
 
 
 def test_a_reading_whose_answer_was_lost_is_resent_and_still_stored_once(tablet, battery):
@@ -146,23 +146,27 @@ def test_a_reading_whose_answer_was_lost_is_resent_and_still_stored_once(tablet,
     page.unroute("**/inspect/")
     page.goto("/api/outbox/")  # opening any page sends what waits
     page.locator("#outbox-empty").wait_for(state="visible")
-    assert page.locator("#fc-outbox").is_hidden()
+    page.locator("#fc-outbox").wait_for(state="hidden")
     assert Inspection.objects.count() == 1
 
 
 def test_a_kept_reading_waits_for_the_crew_member_who_took_it(tablet, battery, supervisor, live_server, crew):
     """A shared tablet: a reading is stored under the name of whoever took it, never of the next user."""
     context, page = tablet
+    sessions = {}
+    for user in (supervisor, crew):  # signed in before the browser starts: SQLite would lock a write made later
+        client = Client()
+        client.force_login(user)
+        sessions[user.username] = client.cookies["sessionid"].value
+
+    def sign_in_as(user):
+        context.clear_cookies()
+        context.add_cookies([{"name": "sessionid", "value": sessions[user.username], "url": live_server.url}])
+
     page.goto(f"/readings/battery/{battery.pk}/inspect/")
     context.set_offline(True)
     _key_in_reading(page)
     page.locator("#fc-outbox").get_by_text("1 waiting to send").wait_for()
-
-    def sign_in_as(user):
-        client = Client()
-        client.force_login(user)
-        context.clear_cookies()
-        context.add_cookies([{"name": "sessionid", "value": client.cookies["sessionid"].value, "url": live_server.url}])
 
     sign_in_as(supervisor)  # in another tab, say: this page still thinks crew1 is signed in
     context.set_offline(False)
