@@ -84,8 +84,8 @@ def _battery_rows(batteries, now, today):
         batteries.annotate(
             latest_soc=Subquery(current.values("soc_percent")[:1]),
             latest_post_charge_spread=Subquery(post_charge_all.values("sg_spread")[:1]),
-            overdue_equalizing=ExpressionWrapper(fleet.stopgap_overdue_q("equalizing", now), output_field=BooleanField()),
-            overdue_watering=ExpressionWrapper(fleet.stopgap_overdue_q("watering", now), output_field=BooleanField()),
+            overdue_equalizing=ExpressionWrapper(fleet.overdue_q("equalizing", now), output_field=BooleanField()),
+            overdue_watering=ExpressionWrapper(fleet.overdue_q("watering", now), output_field=BooleanField()),
         )
         .values(
             "pk", "serial", "site_id", "status", "in_service_date", "latest_soc", "latest_post_charge_spread",
@@ -164,7 +164,8 @@ def _sections(rows, sites, finding_counts):
         "note": "None open." if Finding is not None and not findings_rows else ("" if Finding is not None else "Findings are not set up yet."),
     })
     sections.append({
-        "title": "Care", "note": f"Overdue: flooded batteries with nothing logged in {fleet.STOPGAP_CARE_INTERVAL_DAYS} days.",
+        "title": "Care", "note": "Overdue: flooded batteries with nothing logged within the planner's interval "
+                                 "(7 days unless a planning policy says otherwise).",
         "rows": [{"label": label, "attention": attention, "cells": cells(label, params, lambda pk, lb=label: counts[(pk, lb)])}
                  for label, params, _test, attention in measures["care"]],
     })

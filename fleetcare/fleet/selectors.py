@@ -1,10 +1,13 @@
 """Reads that feed the fleet pages, each in a fixed number of queries whatever the history length."""
 import datetime as dt
+import operator
 from collections import defaultdict
 from dataclasses import dataclass, field
 from decimal import Decimal
+from functools import reduce
 
 from django.db.models import F, OuterRef, Q, Subquery
+from django.db.models.functions import Coalesce
 from django.utils import timezone
 
 from fleetcare import charts
@@ -15,6 +18,13 @@ try:  # findings come from the care app; the fleet pages work without it
     from fleetcare.care.models import Finding
 except ImportError:  # pragma: no cover - only before the care app has its models
     Finding = None
+
+try:  # the planner owns how often care is due; the fleet pages work without it
+    from fleetcare.planner import policy as planner_policy
+    from fleetcare.planner.models import EqualizingCharge
+    from fleetcare.planner.models import Policy as PlannerPolicy
+except ImportError:  # pragma: no cover - only before the planner app has its models
+    planner_policy = EqualizingCharge = PlannerPolicy = None
 
 HEATMAP_INSPECTIONS = 40
 LIST_PAGE_SIZE = 50
@@ -31,9 +41,9 @@ NO_READING = "none"
 SOC_BAND_LABELS = {key: label for key, label, _, _ in SOC_BANDS} | {NO_READING: "No reading yet"}
 SOC_BAND_SHORT = {"below20": "< 20 %", "20to50": "20–50 %", "50to80": "50–80 %", "80up": "≥ 80 %", NO_READING: "none yet"}
 
-# Stand-in until the planner owns the equalizing and watering interval policy: a flooded battery is
-# overdue when nothing was logged for this many days (weekly equalizing is common practice).
-STOPGAP_CARE_INTERVAL_DAYS = 7
+# How often equalizing and watering are due comes from the planner's policy (per site and profile,
+# 7 days by default); this default is used only where the planner app is not installed.
+DEFAULT_CARE_INTERVAL_DAYS = 7
 OVERDUE_KINDS = {"equalizing": "Equalizing overdue", "watering": "Watering overdue"}
 
 
@@ -54,25 +64,57 @@ def with_latest_reading(batteries):
 
 
 def _care_logged_since(kind, since):
-    """Ids of batteries equalized (a current 'just equalized' inspection) or watered since `since`."""
+    """Conditions matching batteries equalized (a current 'just equalized' inspection or an equalizing
+    charge logged in the planner) or watered since `since`."""
     if kind == "equalizing":
-        return Inspection.objects.current().filter(
-            situation=Inspection.Situation.JUST_EQUALIZED, taken_at__gte=since).values("battery_id")
+        done = [Q(pk__in=Inspection.objects.current().filter(
+            situation=Inspection.Situation.JUST_EQUALIZED, taken_at__gte=since).values("battery_id"))]
+        if EqualizingCharge is not None:
+            done.append(Q(pk__in=EqualizingCharge.objects.annotate(at=Coalesce("ended_at", "started_at"))
+                          .filter(at__gte=since).values("battery_id")))
+        return done
     if kind == "watering":
-        return WaterTopUp.objects.current().filter(done_at__gte=since).values("battery_id")
+        return [Q(pk__in=WaterTopUp.objects.current().filter(done_at__gte=since).values("battery_id"))]
     raise ValueError(kind)
 
 
-def stopgap_overdue_q(kind, now):
-    """Flooded batteries whose profile allows equalizing (or watering) with none logged in the last
-    STOPGAP_CARE_INTERVAL_DAYS: one SQL condition for filter() or an annotation. A stand-in until the
-    planner owns the due dates."""
+def care_intervals(kind):
+    """[(condition on a battery's site and profile, days)] covering every battery once: the planner's
+    equalize_every_days or water_every_days as its policy rows resolve them (one query for the rows).
+    Days of 0 mean never due by time."""
+    if planner_policy is None:
+        return [(Q(), DEFAULT_CARE_INTERVAL_DAYS)]
+    setting = "equalize_every_days" if kind == "equalizing" else "water_every_days"
+    policies = list(PlannerPolicy.objects.all())
+    site_ids = sorted({p.site_id for p in policies if p.site_id})
+    profile_ids = sorted({p.profile_id for p in policies if p.profile_id})
+    out = []
+    for site_id in site_ids + [None]:
+        for profile_id in profile_ids + [None]:
+            where = Q(site_id=site_id) if site_id else ~Q(site_id__in=site_ids)
+            where &= Q(profile_id=profile_id) if profile_id else ~Q(profile_id__in=profile_ids)
+            days = int(getattr(planner_policy.resolve(site_id, profile_id, policies), setting))
+            out.append((where, days))
+    return out
+
+
+def overdue_q(kind, now):
+    """Flooded batteries whose profile allows equalizing (or watering) with none logged within the
+    planner's interval for their site and profile: one SQL condition for filter() or an annotation.
+    (The planner's full plan also counts charges and findings; this is the time-based part of it.)"""
     allowed = "equalizing_allowed" if kind == "equalizing" else "watering_allowed"
-    since = now - dt.timedelta(days=STOPGAP_CARE_INTERVAL_DAYS)
-    return (
-        Q(profile__technology=BatteryProfile.Technology.FLOODED, **{f"profile__{allowed}": True})
-        & ~Q(pk__in=_care_logged_since(kind, since))
-    )
+    by_days = defaultdict(list)
+    for where, days in care_intervals(kind):
+        if days:
+            by_days[days].append(where)
+    due = [
+        reduce(operator.or_, wheres)
+        & reduce(operator.and_, [~done for done in _care_logged_since(kind, now - dt.timedelta(days=days))])
+        for days, wheres in sorted(by_days.items())
+    ]
+    if not due:
+        return Q(pk__isnull=True)  # nothing is ever due by time
+    return Q(profile__technology=BatteryProfile.Technology.FLOODED, **{f"profile__{allowed}": True}) & reduce(operator.or_, due)
 
 
 def design_life_days(years):
@@ -211,7 +253,7 @@ def battery_list(batteries, filters, now):
     if filters.finding and Finding is not None:
         batteries = batteries.filter(pk__in=Finding.objects.active().filter(kind=filters.finding).values("battery_id"))
     if filters.overdue:
-        batteries = batteries.filter(stopgap_overdue_q(filters.overdue, now))
+        batteries = batteries.filter(overdue_q(filters.overdue, now))
     if filters.past_life:
         batteries = batteries.filter(past_design_life_q(timezone.localdate(now)))
     column = F(SORTS[filters.sort])

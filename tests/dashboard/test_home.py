@@ -88,7 +88,7 @@ def test_it_counts_open_findings_by_kind_and_leaves_cleared_ones_out(super_clien
     assert row(context, "Open findings", "Weak cell")["cells"][-1]["url"].endswith("?finding=weak_cell")
 
 
-def test_it_counts_overdue_equalizing_and_watering_by_the_stopgap_seven_day_rule(super_client, battery, sealed_battery,
+def test_it_counts_overdue_equalizing_and_watering_by_the_planners_default_seven_days(super_client, battery, sealed_battery,
                                                                                 supervisor, now):
     read(battery, supervisor, now - dt.timedelta(days=3), "equalized")
     water(battery, supervisor, now - dt.timedelta(days=8), 2400)
@@ -235,3 +235,30 @@ def test_a_site_that_charges_less_is_not_named_but_its_own_heavy_user_is(super_c
         water(b, supervisor, last_month, ml + k)
     fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
     assert [t["text"] for t in fig["data"] if t["type"] == "scatter"] == [["W-10"]]
+
+
+def test_a_planning_policy_sets_how_long_before_watering_is_overdue(super_client, battery, supervisor, now, site):
+    from fleetcare.planner.models import Policy as PlanningPolicy
+
+    water(battery, supervisor, now - dt.timedelta(days=10), 2400)
+    assert counts(super_client.get(HOME).context, "Care", "Watering overdue")[-1] == 1
+    PlanningPolicy.objects.create(site=site, water_every_days=14, note="maker: every two weeks")
+    assert counts(super_client.get(HOME).context, "Care", "Watering overdue")[-1] == 0
+
+
+def test_an_equalizing_charge_logged_in_the_planner_counts_as_equalized(super_client, battery, supervisor, now):
+    from fleetcare.planner.models import EqualizingCharge
+
+    assert counts(super_client.get(HOME).context, "Care", "Equalizing overdue")[-1] == 1
+    EqualizingCharge.objects.create(battery=battery, by=supervisor, started_at=now - dt.timedelta(days=2),
+                                    ended_at=now - dt.timedelta(days=2) + dt.timedelta(hours=3))
+    assert counts(super_client.get(HOME).context, "Care", "Equalizing overdue")[-1] == 0
+
+
+def test_a_profile_equalized_only_by_charge_count_is_never_overdue_by_time(super_client, battery, traction_profile):
+    from fleetcare.planner.models import Policy as PlanningPolicy
+
+    PlanningPolicy.objects.create(profile=traction_profile, equalize_every_days=0, equalize_every_charges=5)
+    context = super_client.get(HOME).context
+    assert counts(context, "Care", "Equalizing overdue")[-1] == 0
+    assert super_client.get(row(context, "Care", "Equalizing overdue")["cells"][-1]["url"]).context["page"].paginator.count == 0
