@@ -197,3 +197,10 @@ def test_a_sealed_pair_is_corrected_block_by_block(supervisor_client, sealed_bat
     new = Inspection.objects.current().get(battery=sealed_battery)
     assert new.volts_total == Decimal("25.38")
     assert list(new.cells.values_list("volts", flat=True)) == [Decimal("12.710"), Decimal("12.670")]
+
+
+def test_a_correction_is_never_kept_for_the_offline_outbox(supervisor_client, battery, crew):
+    """Offline, the outbox would send it as a brand-new reading: the correction page opts out of it."""
+    old = store_inspection(battery, crew)
+    assert "data-offline-api" in supervisor_client.get(reverse("readings:inspect", args=[battery.pk])).content.decode()
+    assert "data-offline-api" not in supervisor_client.get(reverse("readings:correct", args=[old.pk])).content.decode()

@@ -54,3 +54,21 @@ def test_plotly_needs_inline_styles_which_is_why_the_policy_allows_them(tablet, 
 
     # a <style> element (style-src-elem): plotly adds those as it draws; our templates have none
     assert any(v.startswith("style-src-elem") for v in violations_while(tablet, open_record))
+
+
+def test_a_supervisor_corrects_a_cell_in_the_browser(tablet, supervisor, battery, crew):  # noqa: F811
+    inspection = store_inspection(battery, crew, sg="1.272")
+    watch_violations(tablet)
+    sign_in(tablet, "super1")
+
+    def correct():
+        tablet.goto(reverse("readings:inspection", args=[inspection.pk]))
+        tablet.get_by_role("link", name="Correct this reading").click()
+        tablet.fill("#id_reason", "Cell 9 typed as 1.272, hydrometer showed 1.232")
+        tablet.fill("input[name=sg_9]", "1.232")
+        tablet.locator("#save-inspection").click()
+        tablet.get_by_text("Correction saved as a new version").wait_for()
+
+    assert violations_while(tablet, correct) == []
+    assert "History of this reading" in tablet.content()
+    assert "Cell 9 typed as 1.272, hydrometer showed 1.232" in tablet.content()
