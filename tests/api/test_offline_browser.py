@@ -120,6 +120,7 @@ def test_a_refused_reading_is_kept_and_shown_until_the_crew_member_deals_with_it
     row = page.locator("#outbox-list [data-state=rejected]")
     assert "TW-001 was retired" in row.inner_text()
     page.reload()  # still there: nothing is dropped on its own
+    page.locator("#outbox-list [data-state=rejected]").wait_for()
     assert page.locator("#outbox-list [data-state=rejected]").count() == 1
 
     page.once("dialog", lambda dialog: dialog.accept())
