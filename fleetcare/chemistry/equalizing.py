@@ -1,4 +1,5 @@
 """When an equalizing charge has done its work: specific gravity that has stopped rising."""
+from itertools import pairwise
 
 LEVEL_TOLERANCE_SG = 0.001  # one point: what a hydrometer resolves (FleetCare default)
 LEVEL_READINGS = 3
@@ -19,7 +20,7 @@ def sg_has_levelled(readings_sg, tolerance=LEVEL_TOLERANCE_SG, count=LEVEL_READI
     last = [float(sg) for sg in list(readings_sg)[-count:]]
     if len(last) < count:
         return False
-    return all(later - earlier <= tolerance + 1e-12 for earlier, later in zip(last, last[1:]))
+    return all(later - earlier <= tolerance + 1e-12 for earlier, later in pairwise(last))
 
 
 def spaced_readings(minutes, min_gap_minutes=MIN_GAP_MINUTES):

@@ -19,31 +19,31 @@ class Setting:
 
 
 SETTINGS = (
-    Setting("equalize_every_days", "equalize every", Decimal("7"), "days",
+    Setting("equalize_every_days", "equalize every", Decimal(7), "days",
             "common practice (field notes): flooded traction batteries weekly, or every fifth or sixth charge",
             integer=True),
-    Setting("equalize_every_charges", "equalize every (0 = not by charges)", Decimal("0"), "charges",
+    Setting("equalize_every_charges", "equalize every (0 = not by charges)", Decimal(0), "charges",
             "off by default; common practice is every fifth or sixth charge (field notes)", integer=True),
-    Setting("equalize_hours", "equalizing charge lasts, beyond the normal charge", Decimal("3"), "h",
+    Setting("equalize_hours", "equalizing charge lasts, beyond the normal charge", Decimal(3), "h",
             "FleetCare default (common practice: a few hours); set the charger maker's figure"),
-    Setting("equalize_gas_current", "gassing current while equalizing (I_gas)", Decimal("7"), "A per 100 Ah",
+    Setting("equalize_gas_current", "gassing current while equalizing (I_gas)", Decimal(7), "A per 100 Ah",
             "highest I_gas the field notes give for vented cells (IEC/EN 62485-3 as tabulated in makers' "
             "literature: 2 with a 2.4 V/cell limit, up to 6 without, 5-7 on taper chargers); an equalizing "
             "charge is a deliberate overcharge without a voltage limit, so the worst tabulated case"),
-    Setting("charge_gas_current", "gassing current on a normal charge (I_gas)", Decimal("2"), "A per 100 Ah",
+    Setting("charge_gas_current", "gassing current on a normal charge (I_gas)", Decimal(2), "A per 100 Ah",
             "IEC/EN 62485-3 as tabulated in makers' literature: vented cells on IU charging with a 2.4 V/cell "
             "limit (field notes)"),
-    Setting("water_every_days", "water every", Decimal("7"), "days",
+    Setting("water_every_days", "water every", Decimal(7), "days",
             "FleetCare default, not a published figure: water after charging (common practice, field notes); "
             "set the maker's interval"),
-    Setting("water_every_charges", "water every (0 = not by charges)", Decimal("0"), "charges",
+    Setting("water_every_charges", "water every (0 = not by charges)", Decimal(0), "charges",
             "off by default; set it where the maker gives watering by charges", integer=True),
-    Setting("watering_minutes", "watering takes", Decimal("15"), "minutes",
+    Setting("watering_minutes", "watering takes", Decimal(15), "minutes",
             "FleetCare default: crew time per battery, for the calendar"),
-    Setting("all_cells_every_days", "read all cells every", Decimal("30"), "days",
+    Setting("all_cells_every_days", "read all cells every", Decimal(30), "days",
             "common practice (field notes): all cells at a fixed interval, often monthly, and always after "
             "an equalizing charge", integer=True),
-    Setting("pilot_every_days", "read the pilot cell every", Decimal("7"), "days",
+    Setting("pilot_every_days", "read the pilot cell every", Decimal(7), "days",
             "common practice (field notes): the pilot cell every day or week", integer=True),
 )
 BY_NAME = {s.name: s for s in SETTINGS}

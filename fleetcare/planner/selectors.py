@@ -219,7 +219,8 @@ def site_days(sites, now=None):
                       done=sorted(done[site.pk], key=lambda d: d.at), running=running[site.pk])
         plan = plans[site.pk]
 
-        def add(kind, facts, due_day, why, severity=0, start=None, end=None, status="to_do", reason=""):
+        def add(kind, facts, due_day, why, severity=0, start=None, end=None, status="to_do", reason="",
+                site=site, day=day, today=today):
             if (facts.battery.pk, kind) in done_keys:
                 return
             task = TodayTask(kind=kind, battery=facts.battery, site=site, due_day=due_day,

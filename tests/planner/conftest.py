@@ -40,7 +40,7 @@ def inspect(battery, user, when, situation="charged", scope="all", sg="1.285"):
     else:
         cells = [CellEntry(position=p, sg=Decimal(sg), level="ok") for p in positions]
     inspection, _ = record_inspection(battery=battery, user=user, taken_at=when, situation=situation, cells=cells,
-                                      scope=scope, temp_c=Decimal("25.0"), hours_since_charge=Decimal("12"))
+                                      scope=scope, temp_c=Decimal("25.0"), hours_since_charge=Decimal(12))
     return inspection
 
 
@@ -69,7 +69,7 @@ def cared_for(battery, user, now, days_ago=1):
 @pytest.fixture
 def warehouse(site, room, traction_profile, windows, crew, now):
     """Site tw: room 1 (4 chargers, 2 equalize-capable, 60 m³/h airflow set below to fit), 6 trays and 2 spares."""
-    room.airflow_m3h = Decimal("250")
+    room.airflow_m3h = Decimal(250)
     room.save()
     site.spares_reserve = 1
     site.save()

@@ -55,7 +55,7 @@ def test_a_sealed_profile_that_allows_equalizing_is_planned(site, room, windows,
         capacity_ah=200, watering_allowed=False, equalizing_allowed=True)
     b = add_batteries(site, allowed, room, 1, prefix="TW-GEL")[0]
     add_batteries(site, allowed, room, 2, prefix="TW-GSP", status=Battery.Status.SPARE)
-    entry, plan = build(site, now, days=7)
+    _entry, plan = build(site, now, days=7)
     kinds = {(t.battery_id, t.kind) for t in plan.tasks}
     assert (b.pk, "equalize") in kinds
     assert not [t for t in plan.tasks if t.kind == "water"]
@@ -93,7 +93,7 @@ def test_last_dates_come_from_records_and_equalized_readings(warehouse, crew, no
     water(a, crew, now - dt.timedelta(days=5))
     entry, _ = build(warehouse["site"], now, days=7)
     cares = {c.battery_id: c for c in entry.inputs.batteries}
-    local = lambda t: t.astimezone(warehouse["site"].tzinfo).date()  # noqa: E731
+    local = lambda t: t.astimezone(warehouse["site"].tzinfo).date()
     assert cares[a.pk].last_equalized == local(now - dt.timedelta(days=3))
     assert cares[b.pk].last_equalized == local(now - dt.timedelta(days=4))
     assert cares[a.pk].last_watered == local(now - dt.timedelta(days=5))
@@ -129,21 +129,21 @@ def test_room_airflow_follows_iec_62485_3(warehouse):
     RoomSettings.objects.create(room=warehouse["room"], charging_at_once=2)
     entry = planner_inputs.build([warehouse["site"]], dt.datetime.now(dt.UTC), 7)[warehouse["site"].pk]
     assert entry.inputs.rooms[0].baseline_airflow_m3h == pytest.approx(2 * 18.7488, abs=0.01)
-    RoomSettings.objects.filter(room=warehouse["room"]).update(baseline_airflow_m3h=Decimal("100"))
+    RoomSettings.objects.filter(room=warehouse["room"]).update(baseline_airflow_m3h=Decimal(100))
     entry = planner_inputs.build([warehouse["site"]], dt.datetime.now(dt.UTC), 7)[warehouse["site"].pk]
     assert entry.inputs.rooms[0].baseline_airflow_m3h == 100
 
 
 def test_a_room_whose_normal_charging_fills_its_ventilation_plans_no_equalizing(warehouse, now):
-    warehouse["room"].airflow_m3h = Decimal("70")  # four trays on normal charge need 75 m³/h
+    warehouse["room"].airflow_m3h = Decimal(70)  # four trays on normal charge need 75 m³/h
     warehouse["room"].save()
-    entry, plan = build(warehouse["site"], now, days=7)
+    _entry, plan = build(warehouse["site"], now, days=7)
     assert equalizing(plan) == []
     assert all("ventilation" in u.reason for u in plan.unplaced if u.kind == "equalize")
 
 
 def test_overlapping_shift_windows_are_cut_short_not_refused(warehouse, now):
-    ShiftWindow.objects.filter(name="Night").update(hours=Decimal("9"))  # 22:00 + 9 h runs past 05:30
+    ShiftWindow.objects.filter(name="Night").update(hours=Decimal(9))  # 22:00 + 9 h runs past 05:30
     entry, plan = build(warehouse["site"], now, days=7)
     assert [w.hours for w in entry.inputs.shift_windows] == [1.5, 7.5]
     assert "planned as 7.5 h" in entry.notes[0]

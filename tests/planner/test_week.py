@@ -25,7 +25,7 @@ def test_the_second_week_is_shown_on_request(warehouse, client, supervisor):
 
 
 def test_it_warns_when_normal_charging_already_fills_the_ventilation(warehouse, client, supervisor):
-    warehouse["room"].airflow_m3h = Decimal("60")
+    warehouse["room"].airflow_m3h = Decimal(60)
     warehouse["room"].save()
     client.force_login(supervisor)
     text = client.get(reverse("planner:plan", args=["tw"])).content.decode()
