@@ -6,8 +6,11 @@ computed as SQL range filters rather than TruncWeek/TruncMonth, because on SQLit
 run a Python function for every row.
 """
 import datetime as dt
+import operator
 from collections import Counter, defaultdict
 from decimal import Decimal
+from functools import reduce
+from types import SimpleNamespace
 from urllib.parse import urlencode
 
 from django.db.models import BooleanField, Count, ExpressionWrapper, OuterRef, Q, Subquery, Sum
@@ -24,8 +27,11 @@ try:  # findings come from the care app; the page works without it
 except ImportError:  # pragma: no cover - only before the care app has its models
     Finding = None
 try:
+    from fleetcare.care import policy as care_policy
+    from fleetcare.care.models import Policy as CarePolicy
     from fleetcare.care.policy import BY_NAME as CARE_THRESHOLDS
 except ImportError:  # pragma: no cover
+    care_policy = CarePolicy = None
     CARE_THRESHOLDS = {}
 
 
@@ -308,12 +314,26 @@ def _fitting_at_taken(field):
     return Subquery(open_then.values(field)[:1])
 
 
+def deep_discharge_limits():
+    """[(condition on an inspection's battery, state-of-charge limit)] from the findings policy, so the
+    chart counts what the deep-discharge finding counts (one query for the policy rows)."""
+    if care_policy is None:
+        return [(Q(), DEEP_DISCHARGE_SOC)]
+    policies = list(CarePolicy.objects.select_related("site", "profile"))
+    return [
+        (where, care_policy.resolve(SimpleNamespace(site_id=site_id, profile_id=profile_id), policies)
+         .deep_discharge_soc_percent)
+        for where, site_id, profile_id in fleet.policy_partition(policies, prefix="battery__")
+    ]
+
+
 def deep_discharge_by_truck_and_shift(batteries, since):
-    """{(asset number, shift): events}: readings in use or before charge under DEEP_DISCHARGE_SOC, each
-    counted against the truck and shift the battery was fitted to when it was read. One query."""
+    """{(asset number, shift): events}: readings in use or before charge under the deep-discharge limit,
+    each counted against the truck and shift the battery was fitted to when it was read. Two queries."""
+    under = reduce(operator.or_, [where & Q(soc_percent__lt=limit) for where, limit in deep_discharge_limits()])
     grouped = (
         Inspection.objects.current()
-        .filter(battery__in=batteries, taken_at__gte=since, soc_percent__lt=DEEP_DISCHARGE_SOC,
+        .filter(under, battery__in=batteries, taken_at__gte=since,
                 situation__in=(Inspection.Situation.IN_USE, Inspection.Situation.BEFORE_CHARGE))
         .annotate(truck=_fitting_at_taken("vehicle__asset_number"), shift=_fitting_at_taken("shift"))
         .values("truck", "shift").annotate(n=Count("pk")).order_by()
@@ -332,8 +352,8 @@ def _deep_discharge_chart(batteries, now):
     shifts = sorted({shift for _truck, shift in counts})
     return charts.stacked_bars(
         trucks, [(shift, [counts.get((t, shift), 0) for t in trucks], None) for shift in shifts],
-        f"Deep discharge by truck and shift<br><sup>readings under {DEEP_DISCHARGE_SOC:.0f} % in use or before charge, "
-        f"last {DEEP_DISCHARGE_DAYS} days</sup>",
+        f"Deep discharge by truck and shift<br><sup>readings in use or before charge under the findings limit "
+        f"({DEEP_DISCHARGE_SOC:.0f} % unless a policy says otherwise), last {DEEP_DISCHARGE_DAYS} days</sup>",
         "Readings", barmode="group",
     )
 

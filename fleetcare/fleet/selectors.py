@@ -78,6 +78,21 @@ def _care_logged_since(kind, since):
     raise ValueError(kind)
 
 
+def policy_partition(policies, prefix=""):
+    """[(condition, site_id, profile_id)] splitting batteries by the sites and profiles that policy rows
+    name (None: any other), so each battery falls in exactly one part and one policy resolution serves
+    the whole part. `prefix` is the path to the battery from the queried model (e.g. "battery__")."""
+    site_ids = sorted({p.site_id for p in policies if p.site_id})
+    profile_ids = sorted({p.profile_id for p in policies if p.profile_id})
+    parts = []
+    for site_id in site_ids + [None]:
+        for profile_id in profile_ids + [None]:
+            where = Q(**{f"{prefix}site_id": site_id}) if site_id else ~Q(**{f"{prefix}site_id__in": site_ids})
+            where &= Q(**{f"{prefix}profile_id": profile_id}) if profile_id else ~Q(**{f"{prefix}profile_id__in": profile_ids})
+            parts.append((where, site_id, profile_id))
+    return parts
+
+
 def care_intervals(kind):
     """[(condition on a battery's site and profile, days)] covering every battery once: the planner's
     equalize_every_days or water_every_days as its policy rows resolve them (one query for the rows).
@@ -86,16 +101,10 @@ def care_intervals(kind):
         return [(Q(), DEFAULT_CARE_INTERVAL_DAYS)]
     setting = "equalize_every_days" if kind == "equalizing" else "water_every_days"
     policies = list(PlannerPolicy.objects.all())
-    site_ids = sorted({p.site_id for p in policies if p.site_id})
-    profile_ids = sorted({p.profile_id for p in policies if p.profile_id})
-    out = []
-    for site_id in site_ids + [None]:
-        for profile_id in profile_ids + [None]:
-            where = Q(site_id=site_id) if site_id else ~Q(site_id__in=site_ids)
-            where &= Q(profile_id=profile_id) if profile_id else ~Q(profile_id__in=profile_ids)
-            days = int(getattr(planner_policy.resolve(site_id, profile_id, policies), setting))
-            out.append((where, days))
-    return out
+    return [
+        (where, int(getattr(planner_policy.resolve(site_id, profile_id, policies), setting)))
+        for where, site_id, profile_id in policy_partition(policies)
+    ]
 
 
 def overdue_q(kind, now):

@@ -262,3 +262,13 @@ def test_a_profile_equalized_only_by_charge_count_is_never_overdue_by_time(super
     context = super_client.get(HOME).context
     assert counts(context, "Care", "Equalizing overdue")[-1] == 0
     assert super_client.get(row(context, "Care", "Equalizing overdue")["cells"][-1]["url"]).context["page"].paginator.count == 0
+
+
+def test_deep_discharge_follows_a_sites_findings_policy(battery, supervisor, now, site):
+    from fleetcare.care.models import Policy as CarePolicy
+
+    read(battery, supervisor, now - dt.timedelta(days=2), "before_charge", sg="1.178", scope="pilot")  # 25 %
+    since = now - dt.timedelta(days=90)
+    assert selectors.deep_discharge_by_truck_and_shift(Battery.objects.all(), since) == {}
+    CarePolicy.objects.create(site=site, deep_discharge_soc_percent=30, note="site rule: stop at 30 %")
+    assert selectors.deep_discharge_by_truck_and_shift(Battery.objects.all(), since) == {("FL-01", "No shift set"): 1}
