@@ -352,8 +352,8 @@ def _deep_discharge_chart(batteries, now):
     shifts = sorted({shift for _truck, shift in counts})
     return charts.stacked_bars(
         trucks, [(shift, [counts.get((t, shift), 0) for t in trucks], None) for shift in shifts],
-        f"Deep discharge by truck and shift<br><sup>readings in use or before charge under the findings limit "
-        f"({DEEP_DISCHARGE_SOC:.0f} % unless a policy says otherwise), last {DEEP_DISCHARGE_DAYS} days</sup>",
+        f"Deep discharge by truck and shift<br><sup>in use or before charge, under {DEEP_DISCHARGE_SOC:.0f} % "
+        f"(or the site's limit), last {DEEP_DISCHARGE_DAYS} days</sup>",
         "Readings", barmode="group",
     )
 
