@@ -34,7 +34,8 @@ class StartChargeForm(forms.Form):
 class ReadingForm(forms.Form):
     taken_at = _when("Taken at")
     basis = forms.ChoiceField(label="Cells read", choices=EqualizingReading.Basis.choices,
-                              widget=forms.RadioSelect, initial=EqualizingReading.Basis.PILOT)
+                              widget=forms.Select(attrs={"class": "form-select form-select-lg"}),
+                              initial=EqualizingReading.Basis.PILOT)
     sg = SGField(label="Specific gravity (265 = 1.265)", widget=forms.TextInput(attrs={**BIG, "inputmode": "decimal"}))
     temp = forms.DecimalField(label="Electrolyte temperature", max_digits=5, decimal_places=1,
                               widget=forms.TextInput(attrs={**BIG, "inputmode": "decimal"}))

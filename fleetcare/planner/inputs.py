@@ -13,7 +13,7 @@ import math
 from collections import defaultdict
 from dataclasses import dataclass, field
 
-from django.db.models import Max, Q
+from django.db.models import Count, Max, Q
 from django.db.models.functions import Coalesce
 
 from fleetcare import chemistry
@@ -44,6 +44,7 @@ class BatteryFacts:
     last_reading: dt.date | None = None
     equalizing_ended_at: dt.datetime | None = None
     equalized_at: dt.datetime | None = None
+    equalizing_now: bool = False
     watered_at: dt.datetime | None = None
     all_cells_at: dt.datetime | None = None
     vehicle: str = ""
@@ -108,7 +109,8 @@ def build(sites, now, days):
         findings[row.battery_id].append(row)
     charges = {
         row["battery"]: row for row in EqualizingCharge.objects.filter(battery__in=ids).values("battery").annotate(
-            last=Max(Coalesce("ended_at", "started_at")), last_end=Max("ended_at"))
+            last=Max(Coalesce("ended_at", "started_at")), last_end=Max("ended_at"),
+            running=Count("pk", filter=Q(ended_at__isnull=True)))
     }
     readings = {
         row["battery"]: row for row in Inspection.objects.current().filter(battery__in=ids).values("battery").annotate(
@@ -210,6 +212,7 @@ def _facts(battery, site, policies, charge, reading, watered_at, vehicle):
     facts.last_equalized = _local_date(facts.equalized_at, site)
     facts.watered_at = watered_at
     facts.equalizing_ended_at = charge and charge["last_end"]
+    facts.equalizing_now = bool(charge and charge["running"])
     facts.last_watered = _local_date(watered_at, site)
     if reading:
         facts.all_cells_at = reading["last_all"]
@@ -257,7 +260,12 @@ def short_note(summary, limit=100):
 def acted_on(finding, facts):
     """A finding already answered by an equalizing charge (or a top-up) after it was last seen: the next
     reading decides whether it stays, so it does not ask for the same work again meanwhile."""
-    done_at = facts.watered_at if finding.kind in planning.WATER_FINDINGS else facts.equalized_at
+    if finding.kind in planning.WATER_FINDINGS:
+        done_at = facts.watered_at
+    elif facts.equalizing_now:
+        return True
+    else:
+        done_at = facts.equalized_at
     return done_at is not None and done_at > finding.last_seen_at
 
 

@@ -159,3 +159,15 @@ def test_the_stored_plan_is_reused_until_a_record_changes_it(warehouse, crew, no
     water(warehouse["trays"][0], crew, now - dt.timedelta(minutes=5))
     changed = plans_for([planner_inputs.build([site], now, 14)[site.pk]], now=now)[site.pk]
     assert changed.to_json_dict() != first.to_json_dict()
+
+
+def test_a_running_equalizing_charge_answers_the_finding(warehouse, crew, now):
+    from fleetcare.planner.models import EqualizingCharge
+
+    target = warehouse["trays"][0]
+    EqualizingCharge.objects.create(battery=target, by=crew, started_at=now - dt.timedelta(hours=3))
+    finding(target, "sulfation", now)  # seen after the charge began
+    entry, plan = build(warehouse["site"], now, days=7)
+    care = next(c for c in entry.inputs.batteries if c.battery_id == target.pk)
+    assert care.findings == () and care.last_equalized == entry.today
+    assert not [t for t in equalizing(plan) if t.battery_id == target.pk]
