@@ -153,3 +153,17 @@ def test_todays_list_takes_a_fixed_number_of_queries(warehouse, traction_profile
 
 
 QUERIES_FOR_TODAY = 22
+
+
+def test_a_supervisor_also_gets_the_week_plan_and_crew_does_not(warehouse, client, crew, supervisor):
+    week = reverse("planner:plan", args=["tw"])
+    client.force_login(supervisor)
+    assert week in client.get(reverse("planner:today", args=["tw"])).content.decode()
+    client.force_login(crew)
+    assert week not in client.get(reverse("planner:today", args=["tw"])).content.decode()
+
+
+def test_a_user_with_several_sites_chooses_one(crew_client, site, care_site):
+    text = crew_client.get(reverse("planner:home")).content.decode()
+    assert reverse("planner:today", args=["tw"]) in text and reverse("planner:today", args=["tr"]) in text
+    assert reverse("planner:plan", args=["tw"]) not in text  # the week plan is for supervisors
