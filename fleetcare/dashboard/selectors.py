@@ -5,6 +5,7 @@ its latest figures, then one grouped or bucketed query per chart. Time buckets (
 computed as SQL range filters rather than TruncWeek/TruncMonth, because on SQLite those truncations
 run a Python function for every row.
 """
+
 import datetime as dt
 import operator
 from collections import Counter, defaultdict
@@ -42,7 +43,7 @@ def _care_default(name, fallback):
 
 # Fleet-wide chart guides use the findings policy's built-in defaults (a site's own override still
 # drives its findings; the charts only draw the guide line and count events against it).
-DEEP_DISCHARGE_SOC = _care_default("deep_discharge_soc_percent", Decimal("20"))  # field notes: 80 % DoD, common practice
+DEEP_DISCHARGE_SOC = _care_default("deep_discharge_soc_percent", Decimal(20))  # field notes: 80 % DoD, common practice
 EQUALIZE_SPREAD_SG = _care_default("equalize_spread_sg", Decimal("0.020"))  # field notes: common practice
 
 SHOWN_STATUSES = (Battery.Status.IN_SERVICE, Battery.Status.CHARGING, Battery.Status.SPARE, Battery.Status.REPAIR)
@@ -94,9 +95,21 @@ def _battery_rows(batteries, now, today):
             overdue_watering=ExpressionWrapper(fleet.overdue_q("watering", now), output_field=BooleanField()),
         )
         .values(
-            "pk", "serial", "site_id", "status", "in_service_date", "latest_soc", "latest_post_charge_spread",
-            "overdue_equalizing", "overdue_watering", "profile__technology", "profile__watering_allowed",
-            "profile__design_life_years", "profile__monoblocks", "profile__cells_per_block", "profile__name",
+            "pk",
+            "serial",
+            "site_id",
+            "status",
+            "in_service_date",
+            "latest_soc",
+            "latest_post_charge_spread",
+            "overdue_equalizing",
+            "overdue_watering",
+            "profile__technology",
+            "profile__watering_allowed",
+            "profile__design_life_years",
+            "profile__monoblocks",
+            "profile__cells_per_block",
+            "profile__name",
         )
         .order_by("serial")
     )
@@ -113,8 +126,11 @@ def _open_findings_by_site_and_kind(batteries):
     if Finding is None:
         return {}
     grouped = (
-        Finding.objects.active().filter(battery__in=batteries)
-        .values("battery__site_id", "kind").annotate(n=Count("battery", distinct=True)).order_by()
+        Finding.objects.active()
+        .filter(battery__in=batteries)
+        .values("battery__site_id", "kind")
+        .annotate(n=Count("battery", distinct=True))
+        .order_by()
     )
     return {(g["battery__site_id"], g["kind"]): g["n"] for g in grouped}
 
@@ -130,7 +146,9 @@ def _sections(rows, sites, finding_counts):
     """The count table: sections of measures, each measure a row of counts per site and in all."""
     measures = {"status": [], "soc": [], "findings": [], "care": []}
     for status in SHOWN_STATUSES:
-        measures["status"].append((Battery.Status(status).label, {"status": status}, lambda r, s=status: r["status"] == s, False))
+        measures["status"].append(
+            (Battery.Status(status).label, {"status": status}, lambda r, s=status: r["status"] == s, False)
+        )
     for key, label in fleet.SOC_BAND_LABELS.items():
         measures["soc"].append((label, {"soc": key}, lambda r, k=key: r["soc_band"] == k, key in ("below20", "20to50")))
     measures["care"] = [
@@ -144,6 +162,7 @@ def _sections(rows, sites, finding_counts):
             for label, _params, test, _attention in measures[group]:
                 if test(r):
                     counts[(r["site_id"], label)] += 1
+
     def cells(label, params, count_for):
         out = [{"count": count_for(s.pk), "url": _list_url(params, s.code), "where": s.name} for s in sites]
         out.append({"count": sum(c["count"] for c in out), "url": _list_url(params, ""), "where": "all my sites"})
@@ -152,12 +171,26 @@ def _sections(rows, sites, finding_counts):
     sections = []
     for title, group, note in (
         ("Batteries by status", "status", ""),
-        ("State of charge at the latest reading", "soc", "Below 20 %: over-discharged. Below 50 %: sulfates if left standing."),
+        (
+            "State of charge at the latest reading",
+            "soc",
+            "Below 20 %: over-discharged. Below 50 %: sulfates if left standing.",
+        ),
     ):
-        sections.append({"title": title, "note": note, "rows": [
-            {"label": label, "attention": attention, "cells": cells(label, params, lambda pk, lb=label: counts[(pk, lb)])}
-            for label, params, _test, attention in measures[group]
-        ]})
+        sections.append(
+            {
+                "title": title,
+                "note": note,
+                "rows": [
+                    {
+                        "label": label,
+                        "attention": attention,
+                        "cells": cells(label, params, lambda pk, lb=label: counts[(pk, lb)]),
+                    }
+                    for label, params, _test, attention in measures[group]
+                ],
+            }
+        )
     findings_rows = []
     if Finding is not None:
         for kind, label in Finding.Kind.choices:
@@ -165,16 +198,30 @@ def _sections(rows, sites, finding_counts):
             row_cells = cells(label, {"finding": kind}, lambda pk, k=kind: finding_counts.get((pk, k), 0))
             if row_cells[-1]["count"]:
                 findings_rows.append({"label": label, "attention": True, "cells": row_cells})
-    sections.append({
-        "title": "Open findings (batteries)", "rows": findings_rows,
-        "note": "None open." if Finding is not None and not findings_rows else ("" if Finding is not None else "Findings are not set up yet."),
-    })
-    sections.append({
-        "title": "Care", "note": "Overdue: flooded batteries with nothing logged within the planner's interval "
-                                 "(7 days unless a planning policy says otherwise).",
-        "rows": [{"label": label, "attention": attention, "cells": cells(label, params, lambda pk, lb=label: counts[(pk, lb)])}
-                 for label, params, _test, attention in measures["care"]],
-    })
+    sections.append(
+        {
+            "title": "Open findings (batteries)",
+            "rows": findings_rows,
+            "note": "None open."
+            if Finding is not None and not findings_rows
+            else ("" if Finding is not None else "Findings are not set up yet."),
+        }
+    )
+    sections.append(
+        {
+            "title": "Care",
+            "note": "Overdue: flooded batteries with nothing logged within the planner's interval "
+            "(7 days unless a planning policy says otherwise).",
+            "rows": [
+                {
+                    "label": label,
+                    "attention": attention,
+                    "cells": cells(label, params, lambda pk, lb=label: counts[(pk, lb)]),
+                }
+                for label, params, _test, attention in measures["care"]
+            ],
+        }
+    )
     return sections
 
 
@@ -188,8 +235,10 @@ def _soc_chart(rows, sites):
         if per_band:
             stacks.append((site.name, [per_band[b] for b in bands], None))
     return charts.stacked_bars(
-        [fleet.SOC_BAND_SHORT[b] for b in bands], stacks,
-        "State of charge now<br><sup>each battery at its latest reading, stacked by site</sup>", "Batteries",
+        [fleet.SOC_BAND_SHORT[b] for b in bands],
+        stacks,
+        "State of charge now<br><sup>each battery at its latest reading, stacked by site</sup>",
+        "Batteries",
     )
 
 
@@ -225,9 +274,11 @@ def _findings_chart(batteries, now):
     edges = _week_starts(now, FINDINGS_WEEKS)
     opened = _buckets("opened_at", edges, lambda q: Count("pk", filter=q))
     cleared = _buckets("cleared_at", edges, lambda q: Count("pk", filter=q))
-    totals = Finding.objects.filter(battery__in=batteries).filter(
-        Q(opened_at__gte=edges[0]) | Q(cleared_at__gte=edges[0])
-    ).aggregate(**{f"o{k}": v for k, v in opened.items()}, **{f"c{k}": v for k, v in cleared.items()})
+    totals = (
+        Finding.objects.filter(battery__in=batteries)
+        .filter(Q(opened_at__gte=edges[0]) | Q(cleared_at__gte=edges[0]))
+        .aggregate(**{f"o{k}": v for k, v in opened.items()}, **{f"c{k}": v for k, v in cleared.items()})
+    )
     if not any(totals.values()):
         return None
     weeks = [e.date().isoformat() for e in edges[:-1]]
@@ -236,7 +287,8 @@ def _findings_chart(batteries, now):
         weeks,
         [("Opened", [totals[f"ob{i}"] for i in range(n)], "/"), ("Cleared", [totals[f"cb{i}"] for i in range(n)], ".")],
         f"Findings per week<br><sup>opened and cleared, last {FINDINGS_WEEKS} weeks (bars start on Monday)</sup>",
-        "Findings", barmode="group",
+        "Findings",
+        barmode="group",
     )
 
 
@@ -259,8 +311,10 @@ def _water_chart(batteries, rows, now):
     if not waterable:
         return None
     sums = (
-        WaterTopUp.objects.current().filter(battery__in=batteries, done_at__gte=edges[0], done_at__lt=edges[-1])
-        .values("battery_id").order_by()
+        WaterTopUp.objects.current()
+        .filter(battery__in=batteries, done_at__gte=edges[0], done_at__lt=edges[-1])
+        .values("battery_id")
+        .order_by()
         .annotate(**_buckets("done_at", edges, lambda q: Sum("volume_ml", filter=q)))
     )
     by_battery = {s["battery_id"]: s for s in sums}
@@ -269,8 +323,8 @@ def _water_chart(batteries, rows, now):
         by_profile[r["profile__name"]].append(r)
     ranked = sorted(by_profile.items(), key=lambda kv: (-len(kv[1]), kv[0]))
     if len(ranked) > WATER_PROFILES:
-        others = [r for _name, members in ranked[WATER_PROFILES - 1:] for r in members]
-        ranked = ranked[:WATER_PROFILES - 1] + [("Other profiles", others)]
+        others = [r for _name, members in ranked[WATER_PROFILES - 1 :] for r in members]
+        ranked = ranked[: WATER_PROFILES - 1] + [("Other profiles", others)]
     series = [(name, *_water_boxes(members, by_battery, edges)) for name, members in ranked]
     return charts.box_with_outliers(
         series,
@@ -308,9 +362,11 @@ def _water_boxes(members, by_battery, edges):
 
 
 def _fitting_at_taken(field):
-    open_then = Fitting.objects.filter(battery=OuterRef("battery_id"), fitted_at__lte=OuterRef("taken_at")).filter(
-        Q(removed_at__isnull=True) | Q(removed_at__gt=OuterRef("taken_at"))
-    ).order_by("-fitted_at")
+    open_then = (
+        Fitting.objects.filter(battery=OuterRef("battery_id"), fitted_at__lte=OuterRef("taken_at"))
+        .filter(Q(removed_at__isnull=True) | Q(removed_at__gt=OuterRef("taken_at")))
+        .order_by("-fitted_at")
+    )
     return Subquery(open_then.values(field)[:1])
 
 
@@ -321,8 +377,12 @@ def deep_discharge_limits():
         return [(Q(), DEEP_DISCHARGE_SOC)]
     policies = list(CarePolicy.objects.select_related("site", "profile"))
     return [
-        (where, care_policy.resolve(SimpleNamespace(site_id=site_id, profile_id=profile_id), policies)
-         .deep_discharge_soc_percent)
+        (
+            where,
+            care_policy.resolve(
+                SimpleNamespace(site_id=site_id, profile_id=profile_id), policies
+            ).deep_discharge_soc_percent,
+        )
         for where, site_id, profile_id in fleet.policy_partition(policies, prefix="battery__")
     ]
 
@@ -333,10 +393,16 @@ def deep_discharge_by_truck_and_shift(batteries, since):
     under = reduce(operator.or_, [where & Q(soc_percent__lt=limit) for where, limit in deep_discharge_limits()])
     grouped = (
         Inspection.objects.current()
-        .filter(under, battery__in=batteries, taken_at__gte=since,
-                situation__in=(Inspection.Situation.IN_USE, Inspection.Situation.BEFORE_CHARGE))
+        .filter(
+            under,
+            battery__in=batteries,
+            taken_at__gte=since,
+            situation__in=(Inspection.Situation.IN_USE, Inspection.Situation.BEFORE_CHARGE),
+        )
         .annotate(truck=_fitting_at_taken("vehicle__asset_number"), shift=_fitting_at_taken("shift"))
-        .values("truck", "shift").annotate(n=Count("pk")).order_by()
+        .values("truck", "shift")
+        .annotate(n=Count("pk"))
+        .order_by()
     )
     return {(g["truck"] or "Not fitted", g["shift"] or "No shift set"): g["n"] for g in grouped}
 
@@ -351,25 +417,35 @@ def _deep_discharge_chart(batteries, now):
     trucks = [t for t, _n in sorted(per_truck.items(), key=lambda kv: (-kv[1], kv[0]))[:15]]
     shifts = sorted({shift for _truck, shift in counts})
     return charts.stacked_bars(
-        trucks, [(shift, [counts.get((t, shift), 0) for t in trucks], None) for shift in shifts],
+        trucks,
+        [(shift, [counts.get((t, shift), 0) for t in trucks], None) for shift in shifts],
         f"Deep discharge by truck and shift<br><sup>in use or before charge, under {DEEP_DISCHARGE_SOC:.0f} % "
         f"(or the site's limit), last {DEEP_DISCHARGE_DAYS} days</sup>",
-        "Readings", barmode="group",
+        "Readings",
+        barmode="group",
     )
 
 
 def _spread_chart(rows, now):
     """Post-charge corrected-SG spread over time for the batteries whose latest spread is widest."""
-    worst = sorted((r for r in rows if r["latest_post_charge_spread"] is not None),
-                   key=lambda r: (-r["latest_post_charge_spread"], r["serial"]))[:WORST_BATTERIES]
+    worst = sorted(
+        (r for r in rows if r["latest_post_charge_spread"] is not None),
+        key=lambda r: (-r["latest_post_charge_spread"], r["serial"]),
+    )[:WORST_BATTERIES]
     if not worst:
         return None
     serial = {r["pk"]: r["serial"] for r in worst}
     readings = (
-        Inspection.objects.current().post_charge()
-        .filter(battery_id__in=serial, scope=Inspection.Scope.ALL_CELLS, sg_spread__isnull=False,
-                taken_at__gte=now - dt.timedelta(weeks=SPREAD_WEEKS))
-        .order_by("taken_at").values_list("battery_id", "taken_at", "sg_spread")
+        Inspection.objects.current()
+        .post_charge()
+        .filter(
+            battery_id__in=serial,
+            scope=Inspection.Scope.ALL_CELLS,
+            sg_spread__isnull=False,
+            taken_at__gte=now - dt.timedelta(weeks=SPREAD_WEEKS),
+        )
+        .order_by("taken_at")
+        .values_list("battery_id", "taken_at", "sg_spread")
     )
     series = defaultdict(lambda: ([], []))
     for battery_id, taken_at, spread in readings:
@@ -377,8 +453,10 @@ def _spread_chart(rows, now):
         series[battery_id][1].append(round(float(spread) * 1000))
     fig = charts.line(
         [(serial[pk], *series[pk]) for pk in serial if pk in series],
-        f"Spread after charge: the {len(worst)} widest<br><sup>corrected SG, all-cell readings, last {SPREAD_WEEKS} weeks</sup>",
-        "Spread (points of SG)", height=360,
+        f"Spread after charge: the {len(worst)} widest"
+        f"<br><sup>corrected SG, all-cell readings, last {SPREAD_WEEKS} weeks</sup>",
+        "Spread (points of SG)",
+        height=360,
     )
     guide = round(float(EQUALIZE_SPREAD_SG) * 1000)
     return charts.reference_line(fig, guide, f"{guide} points: equalizing charge due")

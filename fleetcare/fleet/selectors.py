@@ -1,9 +1,9 @@
 """Reads that feed the fleet pages, each in a fixed number of queries whatever the history length."""
+
 import datetime as dt
 import operator
 from collections import defaultdict
 from dataclasses import dataclass, field
-from decimal import Decimal
 from functools import reduce
 
 from django.db.models import F, OuterRef, Q, Subquery
@@ -39,7 +39,13 @@ SOC_BANDS = (
 )
 NO_READING = "none"
 SOC_BAND_LABELS = {key: label for key, label, _, _ in SOC_BANDS} | {NO_READING: "No reading yet"}
-SOC_BAND_SHORT = {"below20": "< 20 %", "20to50": "20–50 %", "50to80": "50–80 %", "80up": "≥ 80 %", NO_READING: "none yet"}
+SOC_BAND_SHORT = {
+    "below20": "< 20 %",
+    "20to50": "20–50 %",
+    "50to80": "50–80 %",
+    "80up": "≥ 80 %",
+    NO_READING: "none yet",
+}
 
 # How often equalizing and watering are due comes from the planner's policy (per site and profile,
 # 7 days by default); this default is used only where the planner app is not installed.
@@ -67,11 +73,21 @@ def _care_logged_since(kind, since):
     """Conditions matching batteries equalized (a current 'just equalized' inspection or an equalizing
     charge logged in the planner) or watered since `since`."""
     if kind == "equalizing":
-        done = [Q(pk__in=Inspection.objects.current().filter(
-            situation=Inspection.Situation.JUST_EQUALIZED, taken_at__gte=since).values("battery_id"))]
+        done = [
+            Q(
+                pk__in=Inspection.objects.current()
+                .filter(situation=Inspection.Situation.JUST_EQUALIZED, taken_at__gte=since)
+                .values("battery_id")
+            )
+        ]
         if EqualizingCharge is not None:
-            done.append(Q(pk__in=EqualizingCharge.objects.annotate(at=Coalesce("ended_at", "started_at"))
-                          .filter(at__gte=since).values("battery_id")))
+            done.append(
+                Q(
+                    pk__in=EqualizingCharge.objects.annotate(at=Coalesce("ended_at", "started_at"))
+                    .filter(at__gte=since)
+                    .values("battery_id")
+                )
+            )
         return done
     if kind == "watering":
         return [Q(pk__in=WaterTopUp.objects.current().filter(done_at__gte=since).values("battery_id"))]
@@ -88,7 +104,11 @@ def policy_partition(policies, prefix=""):
     for site_id in site_ids + [None]:
         for profile_id in profile_ids + [None]:
             where = Q(**{f"{prefix}site_id": site_id}) if site_id else ~Q(**{f"{prefix}site_id__in": site_ids})
-            where &= Q(**{f"{prefix}profile_id": profile_id}) if profile_id else ~Q(**{f"{prefix}profile_id__in": profile_ids})
+            where &= (
+                Q(**{f"{prefix}profile_id": profile_id})
+                if profile_id
+                else ~Q(**{f"{prefix}profile_id__in": profile_ids})
+            )
             parts.append((where, site_id, profile_id))
     return parts
 
@@ -123,7 +143,9 @@ def overdue_q(kind, now):
     ]
     if not due:
         return Q(pk__isnull=True)  # nothing is ever due by time
-    return Q(profile__technology=BatteryProfile.Technology.FLOODED, **{f"profile__{allowed}": True}) & reduce(operator.or_, due)
+    return Q(profile__technology=BatteryProfile.Technology.FLOODED, **{f"profile__{allowed}": True}) & reduce(
+        operator.or_, due
+    )
 
 
 def design_life_days(years):
@@ -172,8 +194,14 @@ def finding_kinds():
 
 
 SORTS = {
-    "serial": "serial", "site": "site__name", "profile": "profile__name", "status": "status",
-    "fitted": "current_asset", "latest": "latest_taken_at", "soc": "latest_soc", "spread": "latest_spread",
+    "serial": "serial",
+    "site": "site__name",
+    "profile": "profile__name",
+    "status": "status",
+    "fitted": "current_asset",
+    "latest": "latest_taken_at",
+    "soc": "latest_soc",
+    "spread": "latest_spread",
     "in_service": "in_service_date",
 }
 
@@ -216,8 +244,14 @@ class BatteryFilters:
     def as_params(self, **changes):
         """The filters as query-string pairs (for links that keep them), with some changed."""
         values = {
-            "q": self.query, "site": self.site, "profile": self.profile, "status": self.status, "soc": self.soc,
-            "finding": self.finding, "overdue": self.overdue, "past_life": "1" if self.past_life else "",
+            "q": self.query,
+            "site": self.site,
+            "profile": self.profile,
+            "status": self.status,
+            "soc": self.soc,
+            "finding": self.finding,
+            "overdue": self.overdue,
+            "past_life": "1" if self.past_life else "",
             "sort": ("-" if self.descending else "") + self.sort if self.sort != "serial" or self.descending else "",
         }
         values.update(changes)
@@ -245,8 +279,11 @@ def battery_list(batteries, filters, now):
     if filters.query:
         batteries = batteries.filter(
             Q(serial__icontains=filters.query)
-            | Q(pk__in=Fitting.objects.filter(
-                removed_at__isnull=True, vehicle__asset_number__icontains=filters.query).values("battery_id"))
+            | Q(
+                pk__in=Fitting.objects.filter(
+                    removed_at__isnull=True, vehicle__asset_number__icontains=filters.query
+                ).values("battery_id")
+            )
         )
     if filters.site:
         batteries = batteries.filter(site__code=filters.site)
@@ -322,12 +359,21 @@ def sg_heatmap(battery, inspections):
             z[position - 1][index[inspection_id]] = float(sg)
     x = _column_labels([timezone.localtime(i.taken_at, battery.site.tzinfo) for i in recent])
     y = [f"Cell {n}" for n in range(1, cells + 1)]
-    lowest = [(x[col], y[i.lowest_position - 1]) for col, i in enumerate(recent)
-              if i.lowest_position and 1 <= i.lowest_position <= cells]
+    lowest = [
+        (x[col], y[i.lowest_position - 1])
+        for col, i in enumerate(recent)
+        if i.lowest_position and 1 <= i.lowest_position <= cells
+    ]
     return charts.heatmap(
-        x, y, z, "Corrected SG by cell and reading<br><sup>a weak cell shows as a dark stripe; × marks each reading's "
-        "lowest cell</sup>", "SG",
-        height=max(320, 18 * cells + 120), marks=lowest, marks_name="Lowest cell",
+        x,
+        y,
+        z,
+        "Corrected SG by cell and reading<br><sup>a weak cell shows as a dark stripe; × marks each reading's "
+        "lowest cell</sup>",
+        "SG",
+        height=max(320, 18 * cells + 120),
+        marks=lowest,
+        marks_name="Lowest cell",
     )
 
 

@@ -10,8 +10,14 @@ from fleetcare.fleet import selectors
 from fleetcare.fleet.models import Battery, BatteryProfile
 
 COLUMNS = (
-    ("Serial", "serial"), ("Site", "site"), ("Profile", "profile"), ("Status", "status"), ("Fitted to", "fitted"),
-    ("Latest reading", "latest"), ("State of charge", "soc"), ("Spread (points)", "spread"),
+    ("Serial", "serial"),
+    ("Site", "site"),
+    ("Profile", "profile"),
+    ("Status", "status"),
+    ("Fitted to", "fitted"),
+    ("Latest reading", "latest"),
+    ("State of charge", "soc"),
+    ("Spread (points)", "spread"),
 )
 
 
@@ -21,14 +27,22 @@ def battery_list(request):
     batteries = selectors.battery_list(visible_batteries(request.user), filters, timezone.now())
     page = Paginator(batteries, selectors.LIST_PAGE_SIZE).get_page(request.GET.get("page"))
     sites = visible_sites(request.user)
-    return render(request, "fleet/battery_list.html", {
-        "page": page, "filters": filters, "columns": _sort_links(filters),
-        "page_query": urlencode(filters.as_params()),
-        "sites": sites, "statuses": Battery.Status.choices,
-        "profiles": BatteryProfile.objects.filter(batteries__site__in=sites).distinct(),
-        "soc_bands": list(selectors.SOC_BAND_LABELS.items()), "finding_kinds": selectors.finding_kinds(),
-        "overdue_kinds": list(selectors.OVERDUE_KINDS.items()),
-    })
+    return render(
+        request,
+        "fleet/battery_list.html",
+        {
+            "page": page,
+            "filters": filters,
+            "columns": _sort_links(filters),
+            "page_query": urlencode(filters.as_params()),
+            "sites": sites,
+            "statuses": Battery.Status.choices,
+            "profiles": BatteryProfile.objects.filter(batteries__site__in=sites).distinct(),
+            "soc_bands": list(selectors.SOC_BAND_LABELS.items()),
+            "finding_kinds": selectors.finding_kinds(),
+            "overdue_kinds": list(selectors.OVERDUE_KINDS.items()),
+        },
+    )
 
 
 def _sort_links(filters):
@@ -37,10 +51,13 @@ def _sort_links(filters):
     for label, key in COLUMNS:
         current = filters.sort == key
         sort = f"-{key}" if current and not filters.descending else key
-        links.append({
-            "label": label, "url": "?" + urlencode(filters.as_params(sort=sort)),
-            "order": ("descending" if filters.descending else "ascending") if current else "",
-        })
+        links.append(
+            {
+                "label": label,
+                "url": "?" + urlencode(filters.as_params(sort=sort)),
+                "order": ("descending" if filters.descending else "ascending") if current else "",
+            }
+        )
     return links
 
 

@@ -1,4 +1,5 @@
 """A small fleet builder for the dashboard tests: batteries with readings, water, fittings and findings."""
+
 import datetime as dt
 from decimal import Decimal
 
@@ -20,8 +21,9 @@ def read(battery, user, when, situation="charged", sg="1.290", scope="all", weak
         cells = [CellEntry(position=p, sg=Decimal(sg)) for p in range(1, battery.profile.cell_count + 1)]
         if weak:
             cells[weak[0] - 1] = CellEntry(position=weak[0], sg=Decimal(weak[1]))
-    inspection, _ = record_inspection(battery=battery, user=user, taken_at=when, situation=situation, cells=cells,
-                                      scope=scope, temp_c=Decimal("25"))
+    inspection, _ = record_inspection(
+        battery=battery, user=user, taken_at=when, situation=situation, cells=cells, scope=scope, temp_c=Decimal(25)
+    )
     return inspection
 
 
@@ -42,8 +44,9 @@ def build_fleet(site, traction_profile, supervisor, now):
     def build(n, prefix="F"):
         batteries = []
         for k in range(n):
-            b = Battery.objects.create(serial=f"{prefix}-{k:03d}", profile=traction_profile, site=site,
-                                       in_service_date=dt.date(2024, 1, 1))
+            b = Battery.objects.create(
+                serial=f"{prefix}-{k:03d}", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1)
+            )
             truck = Vehicle.objects.create(asset_number=f"{prefix}-T{k:03d}", kind=Vehicle.Kind.REACH, site=site)
             Fitting.objects.create(battery=b, vehicle=truck, fitted_at=now - dt.timedelta(weeks=10), shift="Day")
             for week in range(8):
@@ -51,8 +54,13 @@ def build_fleet(site, traction_profile, supervisor, now):
                 read(b, supervisor, when, "equalized" if week % 2 else "charged", weak=(3, "1.250"))
                 read(b, supervisor, when - dt.timedelta(days=2), "before_charge", sg="1.160", scope="pilot")
                 water(b, supervisor, when, 2400)
-            Finding.objects.create(battery=b, kind=Finding.Kind.WEAK_CELL, opened_at=now - dt.timedelta(days=3),
-                                   last_seen_at=now, positions=[3])
+            Finding.objects.create(
+                battery=b,
+                kind=Finding.Kind.WEAK_CELL,
+                opened_at=now - dt.timedelta(days=3),
+                last_seen_at=now,
+                positions=[3],
+            )
             batteries.append(b)
         return batteries
 

@@ -8,7 +8,7 @@ from tests.dashboard.conftest import read, water
 
 
 def figure(html, element_id):
-    found = re.search(rf'<script type="application/json" id="{element_id}-data">(.*?)</script>', html, re.S)
+    found = re.search(rf'<script type="application/json" id="{element_id}-data">(.*?)</script>', html, re.DOTALL)
     return json.loads(found.group(1)) if found else None
 
 

@@ -30,7 +30,7 @@ def counts(context, title, label):
 
 
 def figure(html, element_id):
-    found = re.search(rf'<script type="application/json" id="{element_id}-data">(.*?)</script>', html, re.S)
+    found = re.search(rf'<script type="application/json" id="{element_id}-data">(.*?)</script>', html, re.DOTALL)
     return json.loads(found.group(1)) if found else None
 
 
@@ -49,25 +49,36 @@ def test_crew_see_the_overview_with_the_big_log_a_reading_button(crew_client, ba
     assert re.search(r'class="btn btn-primary btn-lg[^"]*" href="/readings/[^"]*">Log a reading<', html)
 
 
-def test_it_counts_batteries_by_status_per_site_and_for_all_sites(super_client, battery, sealed_battery, other_battery,
-                                                                  traction_profile, site):
-    Battery.objects.create(serial="TW-002", profile=traction_profile, site=site, status="spare", in_service_date=dt.date(2025, 1, 1))
-    Battery.objects.create(serial="TW-OLD", profile=traction_profile, site=site, status="retired", in_service_date=dt.date(2015, 1, 1))
+def test_it_counts_batteries_by_status_per_site_and_for_all_sites(
+    super_client, battery, sealed_battery, other_battery, traction_profile, site
+):
+    Battery.objects.create(
+        serial="TW-002", profile=traction_profile, site=site, status="spare", in_service_date=dt.date(2025, 1, 1)
+    )
+    Battery.objects.create(
+        serial="TW-OLD", profile=traction_profile, site=site, status="retired", in_service_date=dt.date(2015, 1, 1)
+    )
     context = super_client.get(HOME).context
     assert [c["name"] for c in context["columns"]] == ["Test residence", "Test warehouse", "All my sites"]
     assert counts(context, "Batteries by status", "In service") == [1, 1, 2]  # the other site's battery is not mine
     assert counts(context, "Batteries by status", "Spare") == [0, 1, 1]  # retired ones are left out
     spare_all = row(context, "Batteries by status", "Spare")["cells"][-1]
     assert spare_all["url"] == reverse("fleet:batteries") + "?status=spare"
-    assert row(context, "Batteries by status", "Spare")["cells"][1]["url"] == reverse("fleet:batteries") + "?status=spare&site=tw"
+    assert (
+        row(context, "Batteries by status", "Spare")["cells"][1]["url"]
+        == reverse("fleet:batteries") + "?status=spare&site=tw"
+    )
 
 
-def test_it_bands_state_of_charge_at_each_batterys_latest_reading(super_client, battery, sealed_battery, supervisor, now,
-                                                                 traction_profile, site):
+def test_it_bands_state_of_charge_at_each_batterys_latest_reading(
+    super_client, battery, sealed_battery, supervisor, now, traction_profile, site
+):
     # Profile: full 1.290, discharged 1.140, SOC linear between (field notes: common practice).
     read(battery, supervisor, now - dt.timedelta(days=2), "charged", sg="1.290")  # 100 %
     read(battery, supervisor, now - dt.timedelta(hours=3), "before_charge", sg="1.155", scope="pilot")  # 10 %
-    second = Battery.objects.create(serial="TW-002", profile=traction_profile, site=site, in_service_date=dt.date(2025, 1, 1))
+    second = Battery.objects.create(
+        serial="TW-002", profile=traction_profile, site=site, in_service_date=dt.date(2025, 1, 1)
+    )
     read(second, supervisor, now - dt.timedelta(hours=1), "before_charge", sg="1.215", scope="pilot")  # 50 %
     assert Inspection.objects.current().get(battery=second).soc_percent == 50
     context = super_client.get(HOME).context
@@ -79,8 +90,12 @@ def test_it_bands_state_of_charge_at_each_batterys_latest_reading(super_client, 
 
 def test_it_counts_open_findings_by_kind_and_leaves_cleared_ones_out(super_client, battery, sealed_battery, now):
     Finding.objects.create(battery=battery, kind="weak_cell", opened_at=now, last_seen_at=now)
-    Finding.objects.create(battery=sealed_battery, kind="weak_block", state="acknowledged", opened_at=now, last_seen_at=now)
-    Finding.objects.create(battery=battery, kind="sulfation", state="cleared", opened_at=now, last_seen_at=now, cleared_at=now)
+    Finding.objects.create(
+        battery=sealed_battery, kind="weak_block", state="acknowledged", opened_at=now, last_seen_at=now
+    )
+    Finding.objects.create(
+        battery=battery, kind="sulfation", state="cleared", opened_at=now, last_seen_at=now, cleared_at=now
+    )
     context = super_client.get(HOME).context
     labels = [r["label"] for r in section(context, "Open findings")["rows"]]
     assert labels == ["Weak cell", "Weak block in a pair"]
@@ -88,8 +103,9 @@ def test_it_counts_open_findings_by_kind_and_leaves_cleared_ones_out(super_clien
     assert row(context, "Open findings", "Weak cell")["cells"][-1]["url"].endswith("?finding=weak_cell")
 
 
-def test_it_counts_overdue_equalizing_and_watering_by_the_planners_default_seven_days(super_client, battery, sealed_battery,
-                                                                                supervisor, now):
+def test_it_counts_overdue_equalizing_and_watering_by_the_planners_default_seven_days(
+    super_client, battery, sealed_battery, supervisor, now
+):
     read(battery, supervisor, now - dt.timedelta(days=3), "equalized")
     water(battery, supervisor, now - dt.timedelta(days=8), 2400)
     context = super_client.get(HOME).context
@@ -117,8 +133,9 @@ def test_another_sites_overview_answers_404(super_client, other_site, battery):
 
 
 @pytest.mark.parametrize("size", [3, 30])
-def test_it_is_built_in_a_fixed_number_of_queries_whatever_the_fleet_size(super_client, build_fleet, size,
-                                                                          django_assert_max_num_queries):
+def test_it_is_built_in_a_fixed_number_of_queries_whatever_the_fleet_size(
+    super_client, build_fleet, size, django_assert_max_num_queries
+):
     build_fleet(size)
     with django_assert_max_num_queries(14):
         response = super_client.get(HOME)
@@ -153,9 +170,13 @@ def test_deep_discharge_counts_against_the_truck_and_shift_the_battery_was_fitte
     fitting.removed_at = now - dt.timedelta(days=10)
     fitting.save()
     Fitting.objects.create(battery=battery, vehicle=night_truck, fitted_at=now - dt.timedelta(days=10), shift="Night")
-    read(battery, supervisor, now - dt.timedelta(days=20), "before_charge", sg="1.155", scope="pilot")  # 10 %: FL-01 Day
+    read(
+        battery, supervisor, now - dt.timedelta(days=20), "before_charge", sg="1.155", scope="pilot"
+    )  # 10 %: FL-01 Day
     read(battery, supervisor, now - dt.timedelta(days=5), "in_use", sg="1.155", scope="pilot")  # FL-02 Night
-    read(battery, supervisor, now - dt.timedelta(days=4), "before_charge", sg="1.160", scope="pilot")  # 13 %: FL-02 Night
+    read(
+        battery, supervisor, now - dt.timedelta(days=4), "before_charge", sg="1.160", scope="pilot"
+    )  # 13 %: FL-02 Night
     read(battery, supervisor, now - dt.timedelta(days=3), "before_charge", sg="1.200", scope="pilot")  # 40 %: not deep
     read(battery, supervisor, now - dt.timedelta(days=2), "rested", sg="1.155", scope="pilot")  # rested: not counted
     counts = selectors.deep_discharge_by_truck_and_shift(Battery.objects.all(), now - dt.timedelta(days=90))
@@ -166,18 +187,23 @@ def test_the_water_chart_names_the_battery_that_stands_out(super_client, site, t
     # Tukey's fences (1.5 interquartile ranges beyond the quartiles): a common statistical convention.
     last_month = now.replace(day=1) - dt.timedelta(days=10)
     for k, ml in enumerate([2400, 2500, 2300, 2450, 2350, 7200]):
-        b = Battery.objects.create(serial=f"W-{k}", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1))
+        b = Battery.objects.create(
+            serial=f"W-{k}", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1)
+        )
         water(b, supervisor, last_month, ml)
     fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
     outliers = fig["data"][1]
     assert outliers["text"] == ["W-5"] and outliers["y"] == [300.0]  # 7,200 mL over 24 cells
 
 
-def test_a_flooded_battery_in_service_with_no_water_logged_counts_as_zero(super_client, site, traction_profile,
-                                                                          supervisor, now):
+def test_a_flooded_battery_in_service_with_no_water_logged_counts_as_zero(
+    super_client, site, traction_profile, supervisor, now
+):
     last_month = now.replace(day=1) - dt.timedelta(days=10)
     for k in range(6):
-        b = Battery.objects.create(serial=f"W-{k}", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1))
+        b = Battery.objects.create(
+            serial=f"W-{k}", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1)
+        )
         if k:
             water(b, supervisor, last_month, 2400 + 24 * k)
     fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
@@ -186,8 +212,14 @@ def test_a_flooded_battery_in_service_with_no_water_logged_counts_as_zero(super_
 
 def test_the_findings_chart_counts_openings_and_clearings_per_week(super_client, battery, now):
     Finding.objects.create(battery=battery, kind="weak_cell", opened_at=now, last_seen_at=now)
-    Finding.objects.create(battery=battery, kind="sulfation", state="cleared", opened_at=now - dt.timedelta(weeks=3),
-                           last_seen_at=now, cleared_at=now)
+    Finding.objects.create(
+        battery=battery,
+        kind="sulfation",
+        state="cleared",
+        opened_at=now - dt.timedelta(weeks=3),
+        last_seen_at=now,
+        cleared_at=now,
+    )
     fig = figure(super_client.get(HOME).content.decode(), "chart-findings-weekly")
     opened, cleared = fig["data"]
     assert sum(opened["y"]) == 2 and opened["y"][-1] == 1
@@ -196,17 +228,28 @@ def test_the_findings_chart_counts_openings_and_clearings_per_week(super_client,
 
 def test_the_spread_chart_follows_the_widest_batteries(super_client, battery, supervisor, now, traction_profile, site):
     read(battery, supervisor, now - dt.timedelta(days=1), "charged", weak=(9, "1.240"))  # 50 points
-    calm = Battery.objects.create(serial="TW-CALM", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1))
+    calm = Battery.objects.create(
+        serial="TW-CALM", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1)
+    )
     read(calm, supervisor, now - dt.timedelta(days=1), "charged", weak=(2, "1.280"))  # 10 points
     fig = figure(super_client.get(HOME).content.decode(), "chart-worst-spread")
     assert [t["name"] for t in fig["data"]] == ["TW-001", "TW-CALM"]
     assert fig["data"][0]["y"] == [50]
 
 
-def test_water_use_is_judged_against_batteries_of_the_same_profile(super_client, site, traction_profile, supervisor, now):
+def test_water_use_is_judged_against_batteries_of_the_same_profile(
+    super_client, site, traction_profile, supervisor, now
+):
     small = type(traction_profile).objects.create(
-        name="24 V 12-cell 620 Ah", technology="flooded", nominal_voltage=24, monoblocks=1, cells_per_block=12,
-        capacity_ah=620, full_charge_sg="1.280", discharged_sg="1.130")
+        name="24 V 12-cell 620 Ah",
+        technology="flooded",
+        nominal_voltage=24,
+        monoblocks=1,
+        cells_per_block=12,
+        capacity_ah=620,
+        full_charge_sg="1.280",
+        discharged_sg="1.130",
+    )
     last_month = now.replace(day=1) - dt.timedelta(days=10)
     for k, (profile, ml) in enumerate([(traction_profile, 2400)] * 5 + [(small, 600)] * 5 + [(small, 1300)]):
         b = Battery.objects.create(serial=f"W-{k:02d}", profile=profile, site=site, in_service_date=dt.date(2024, 1, 1))
@@ -220,18 +263,23 @@ def test_water_use_is_judged_against_batteries_of_the_same_profile(super_client,
 def test_a_battery_only_slightly_off_a_tight_fleet_is_not_named(super_client, site, traction_profile, supervisor, now):
     last_month = now.replace(day=1) - dt.timedelta(days=10)
     for k, ml in enumerate([2400, 2401, 2402, 2403, 2404, 2700]):  # 2,700 is outside the fences but only 12 % up
-        b = Battery.objects.create(serial=f"W-{k}", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1))
+        b = Battery.objects.create(
+            serial=f"W-{k}", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1)
+        )
         water(b, supervisor, last_month, ml)
     fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
     assert [t["type"] for t in fig["data"]] == ["box"]
 
 
-def test_a_site_that_charges_less_is_not_named_but_its_own_heavy_user_is(super_client, site, other_site, traction_profile,
-                                                                        supervisor, now, django_user_model):
+def test_a_site_that_charges_less_is_not_named_but_its_own_heavy_user_is(
+    super_client, site, other_site, traction_profile, supervisor, now, django_user_model
+):
     other_site.members.add(supervisor)
     last_month = now.replace(day=1) - dt.timedelta(days=10)
     for k, (where, ml) in enumerate([(site, 2400)] * 5 + [(other_site, 1200)] * 5 + [(other_site, 2900)]):
-        b = Battery.objects.create(serial=f"W-{k:02d}", profile=traction_profile, site=where, in_service_date=dt.date(2024, 1, 1))
+        b = Battery.objects.create(
+            serial=f"W-{k:02d}", profile=traction_profile, site=where, in_service_date=dt.date(2024, 1, 1)
+        )
         water(b, supervisor, last_month, ml + k)
     fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
     assert [t["text"] for t in fig["data"] if t["type"] == "scatter"] == [["W-10"]]
@@ -250,8 +298,12 @@ def test_an_equalizing_charge_logged_in_the_planner_counts_as_equalized(super_cl
     from fleetcare.planner.models import EqualizingCharge
 
     assert counts(super_client.get(HOME).context, "Care", "Equalizing overdue")[-1] == 1
-    EqualizingCharge.objects.create(battery=battery, by=supervisor, started_at=now - dt.timedelta(days=2),
-                                    ended_at=now - dt.timedelta(days=2) + dt.timedelta(hours=3))
+    EqualizingCharge.objects.create(
+        battery=battery,
+        by=supervisor,
+        started_at=now - dt.timedelta(days=2),
+        ended_at=now - dt.timedelta(days=2) + dt.timedelta(hours=3),
+    )
     assert counts(super_client.get(HOME).context, "Care", "Equalizing overdue")[-1] == 0
 
 
@@ -261,7 +313,10 @@ def test_a_profile_equalized_only_by_charge_count_is_never_overdue_by_time(super
     PlanningPolicy.objects.create(profile=traction_profile, equalize_every_days=0, equalize_every_charges=5)
     context = super_client.get(HOME).context
     assert counts(context, "Care", "Equalizing overdue")[-1] == 0
-    assert super_client.get(row(context, "Care", "Equalizing overdue")["cells"][-1]["url"]).context["page"].paginator.count == 0
+    assert (
+        super_client.get(row(context, "Care", "Equalizing overdue")["cells"][-1]["url"]).context["page"].paginator.count
+        == 0
+    )
 
 
 def test_deep_discharge_follows_a_sites_findings_policy(battery, supervisor, now, site):
