@@ -25,6 +25,8 @@ self.addEventListener("activate", function (event) {
 });
 
 function keepable(url) {
+  // Searches (find?q=...) are not kept: offline, the offline page filters the kept battery list instead.
+  if (url.search && !/^\?scope=(all|pilot)$/.test(url.search)) return false;
   return url.pathname === BATTERY_LIST || KEPT_PAGES.some(function (pattern) { return pattern.test(url.pathname); });
 }
 

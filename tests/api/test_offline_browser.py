@@ -181,3 +181,17 @@ def test_a_kept_reading_waits_for_the_crew_member_who_took_it(tablet, battery, s
     page.goto("/api/outbox/")
     page.locator("#outbox-empty").wait_for(state="visible")
     assert Inspection.objects.get().taken_by == crew
+
+
+def test_offline_a_search_lists_the_kept_batteries_and_opens_their_entry_screen(tablet, battery, sealed_battery):
+    context, page = tablet
+    page.goto("/readings/find/")
+    page.wait_for_function("() => document.documentElement.dataset.precached !== undefined")
+
+    context.set_offline(True)
+    page.goto("/readings/find/?q=FL-01&then=inspect")  # the search itself needs the server: the offline page answers
+    page.get_by_role("heading", name="No connection").wait_for()
+    page.get_by_role("link", name="TW-001 · in FL-01 · tw").wait_for()
+    assert page.locator("#offline-battery-list a").count() == 1  # filtered by the truck number searched for
+    page.get_by_role("link", name="TW-001 · in FL-01 · tw").click()
+    page.get_by_role("heading", name="All-cell reading · TW-001").wait_for()
