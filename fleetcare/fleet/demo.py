@@ -72,16 +72,16 @@ def _fleet():
                               timezone="Europe/London", charges_per_day=Decimal("1.6"), spares_reserve=1)
     psd = Site.objects.create(name="Pellow Street depot", code="psd", kind=Site.Kind.WAREHOUSE,
                               timezone="America/Chicago", temp_unit=Site.TempUnit.FAHRENHEIT,
-                              volume_unit=Site.VolumeUnit.US_FL_OZ, charges_per_day=Decimal("1.0"), spares_reserve=1)
+                              volume_unit=Site.VolumeUnit.US_FL_OZ, charges_per_day=Decimal("1.0"), spares_reserve=0)
     elm = Site.objects.create(name="Elmstead House care residence", code="elm", kind=Site.Kind.CARE_HOME,
                               timezone="Europe/London", charges_per_day=Decimal("1.0"))
-    for site, windows in ((hrw, [("Between shifts", "05:30", 1.5), ("Night", "22:00", 8)]),
+    for site, windows in ((hrw, [("Between shifts", "05:30", 1.5), ("Night", "22:00", 7)]),
                           (psd, [("Night", "20:00", 10)]), (elm, [("Overnight", "21:00", 9)])):
         for name, start, hours in windows:
             ShiftWindow.objects.create(site=site, name=name, starts_at=time.fromisoformat(start), hours=Decimal(str(hours)))
     rooms = {
-        "hrw": ChargingRoom.objects.create(site=hrw, name="Charging room A", chargers=10, equalizing_chargers=4, airflow_m3h=Decimal("180")),
-        "psd": ChargingRoom.objects.create(site=psd, name="Battery bay", chargers=6, equalizing_chargers=2, airflow_m3h=Decimal("90")),
+        "hrw": ChargingRoom.objects.create(site=hrw, name="Charging room A", chargers=10, equalizing_chargers=4, airflow_m3h=Decimal("400")),
+        "psd": ChargingRoom.objects.create(site=psd, name="Battery bay", chargers=6, equalizing_chargers=2, airflow_m3h=Decimal("200")),
     }
     p48 = BatteryProfile.objects.create(
         name="48 V 24-cell 775 Ah flooded", maker="Demo maker", technology="flooded", application="traction",
@@ -113,7 +113,7 @@ def _fleet():
         for shift, offset in (("Day", 0), ("Night", 6)):
             b = battery(f"HRW-B{n + offset:02d}", p48, hrw, rooms["hrw"], years_old=5.6 if n == 1 else None)
             Fitting.objects.create(battery=b, vehicle=truck, fitted_at=fitted_at, shift=shift)
-    for n in range(13, 15):
+    for n in range(13, 16):
         battery(f"HRW-B{n:02d}", p48, hrw, rooms["hrw"], status=Battery.Status.SPARE)
     for n in range(1, 5):  # pallet trucks, one battery each
         truck = Vehicle.objects.create(asset_number=f"HRW-PT{n:02d}", kind=Vehicle.Kind.PALLET, site=hrw)

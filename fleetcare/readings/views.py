@@ -58,7 +58,10 @@ def inspect(request, pk):
                 messages.info(request, "This inspection was already saved; nothing was stored twice.")
             return redirect("readings:inspection", pk=inspection.pk)
     else:
-        form = InspectionForm(battery=battery, initial={"scope": scope})
+        initial = {"scope": scope}
+        if request.GET.get("situation") in Inspection.Situation.values:
+            initial["situation"] = request.GET["situation"]
+        form = InspectionForm(battery=battery, initial=initial)
     return render(request, "readings/inspect.html", {
         "battery": battery, "profile": battery.profile, "form": form, "scope": scope,
         "tray_columns": selectors.tray_columns(battery.profile.positions),

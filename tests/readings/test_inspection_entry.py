@@ -147,3 +147,10 @@ def test_a_voltage_taken_soon_after_charge_gives_no_soc(crew_client, sealed_batt
 
 def test_another_sites_battery_answers_404(crew_client, other_battery):
     assert crew_client.get(reverse("readings:inspect", args=[other_battery.pk])).status_code == 404
+
+
+def test_the_situation_can_be_preset_by_a_link(crew_client, battery):
+    response = crew_client.get(reverse("readings:inspect", args=[battery.pk]) + "?situation=equalized")
+    assert response.context["form"]["situation"].value() == "equalized"
+    html = response.content.decode()
+    assert '<option value="equalized" selected>' in html
