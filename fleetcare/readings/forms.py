@@ -6,10 +6,11 @@ from django import forms
 from django.utils import timezone
 
 from fleetcare import chemistry
-from fleetcare.fleet.models import Site
+from fleetcare.fleet.models import Battery, Site
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 from fleetcare.readings.services import CellEntry
 
+RETIRED_MESSAGE = "This battery is retired: nothing can be logged against it. Check the serial, or ask a supervisor."
 SG_LOW, SG_HIGH = Decimal("1.000"), Decimal("1.350")
 TEMP_LOW_C, TEMP_HIGH_C = Decimal("-30"), Decimal("70")
 
@@ -126,6 +127,8 @@ class InspectionForm(forms.Form):
 
     def clean(self):
         data = super().clean()
+        if self.battery.status == Battery.Status.RETIRED:
+            raise forms.ValidationError(RETIRED_MESSAGE)
         scope = data.get("scope") or Inspection.Scope.ALL_CELLS
         if self.profile.reads_by_block:
             self._clean_blocks(data, scope)
@@ -210,6 +213,8 @@ class TopUpForm(forms.Form):
 
     def clean(self):
         data = super().clean()
+        if self.battery.status == Battery.Status.RETIRED:
+            raise forms.ValidationError(RETIRED_MESSAGE)
         if not self.battery.profile.watering_allowed:
             raise forms.ValidationError("This battery is sealed: it must not be watered.")
         volume = data.get("volume")

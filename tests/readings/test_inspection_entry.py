@@ -154,3 +154,11 @@ def test_the_situation_can_be_preset_by_a_link(crew_client, battery):
     assert response.context["form"]["situation"].value() == "equalized"
     html = response.content.decode()
     assert '<option value="equalized" selected>' in html
+
+
+def test_a_retired_battery_takes_no_readings(crew_client, battery):
+    battery.status = "retired"
+    battery.save()
+    response = crew_client.post(reverse("readings:inspect", args=[battery.pk]), post_data(battery))
+    assert "This battery is retired" in response.content.decode()
+    assert Inspection.objects.count() == 0
