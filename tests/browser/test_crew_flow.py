@@ -1,4 +1,5 @@
-"""The crew's round on a tablet: sign in, find the battery, key in 24 cells with the keyboard alone, read the result and its findings."""
+"""The crew's round on a tablet: sign in, today's list, find the battery, key in 24 cells with the keyboard alone,
+read the result and its findings, and see the task done."""
 import re
 from decimal import Decimal
 
@@ -20,6 +21,13 @@ def test_it_logs_a_24_cell_inspection_from_the_keyboard_alone(tablet, crew, batt
     sign_in(page, "crew1")
     page.get_by_role("heading", name="Fleet overview").wait_for()
     screenshot(page, "crew-1-overview")
+
+    page.get_by_role("link", name="Today's work").first.click()
+    page.get_by_role("link", name="Test warehouse").click()
+    page.get_by_role("heading", name="Today's work · Test warehouse").wait_for()
+    # the planner's list for today: TW-001 has no all-cell reading on record, so reading it is due
+    assert "Read all cells" in page.locator("li.fc-task", has_text="TW-001").inner_text()
+    screenshot(page, "crew-1-today")
 
     page.get_by_role("link", name="Log a reading").first.click()
     page.wait_for_url(re.compile(r"/readings/find/"))
@@ -53,6 +61,12 @@ def test_it_logs_a_24_cell_inspection_from_the_keyboard_alone(tablet, crew, batt
     findings = page.locator(".fc-findings-panel").inner_text()
     assert "Weak cell" in findings and "cell 9" in findings
     assert "equalizing" in findings.lower()
+
+    page.get_by_role("link", name="Today's work").first.click()
+    page.get_by_role("link", name="Test warehouse").click()
+    done = page.locator("h2:has-text('Done today') + ul").inner_text()
+    assert "All cells read" in done and "TW-001" in done and "crew1" in done
+    screenshot(page, "crew-5-today-done")
 
     inspection = Inspection.objects.current().get(battery=battery)
     assert inspection.taken_by.username == "crew1"
