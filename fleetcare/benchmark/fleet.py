@@ -95,10 +95,12 @@ def build(size, user_model):
     Fitting.objects.bulk_create([Fitting(battery=b, vehicle=v, fitted_at=start) for b, v in zip(in_service, vehicles)])
     inspections, cells = _readings(start, profile, users[CREW])
     _top_ups(start, users[CREW])
-    # A steady-state database, not a freshly loaded one: set hint bits and the visibility map, refresh statistics.
+    # A steady-state database, not a freshly loaded one: set hint bits and the visibility map, refresh
+    # statistics (VACUUM cannot run inside a transaction, as in a test: there only ANALYZE).
+    command = "ANALYZE" if connection.in_atomic_block else "VACUUM ANALYZE"
     with connection.cursor() as cursor:
         for table in ("readings_inspection", "readings_cellreading", "readings_watertopup", "fleet_battery", "fleet_fitting"):
-            cursor.execute(f"VACUUM ANALYZE {table}")
+            cursor.execute(f"{command} {table}")
     return Fleet(size, sites, profile, users[SUPERVISOR], users[CREW], users[MANAGER], batteries, inspections, cells)
 
 

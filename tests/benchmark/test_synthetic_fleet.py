@@ -1,0 +1,36 @@
+"""The benchmark's fleet is made by SQL; its summary fields must equal what the Python code computes."""
+from decimal import Decimal
+
+import pytest
+from django.contrib.auth import get_user_model
+from django.db import connection
+
+from fleetcare.benchmark import fleet as fleet_data
+from fleetcare.readings.models import CellReading, Inspection
+
+pytestmark = pytest.mark.skipif(connection.vendor != "postgresql", reason="the benchmark fleet is generated with PostgreSQL SQL")
+
+
+@pytest.fixture
+def small_fleet(db):
+    return fleet_data.build(2, get_user_model())
+
+
+def test_it_generates_three_years_of_weekly_all_cell_and_daily_pilot_readings(small_fleet):
+    assert small_fleet.inspections == 2 * fleet_data.DAYS
+    assert Inspection.objects.filter(scope="all").count() == 2 * 157  # days 0, 7, ... 1092
+    assert small_fleet.cells == 2 * (157 * 24 + (fleet_data.DAYS - 157))
+    assert CellReading.objects.count() == small_fleet.cells
+
+
+def test_its_sql_summaries_equal_the_python_ones(small_fleet):
+    checked, mismatches = fleet_data.verify_sample(count=400)
+    assert checked == 400
+    assert mismatches == []
+
+
+def test_its_weak_battery_shows_a_low_cell_9_after_three_years(small_fleet):
+    # battery 0 is the first of every 25 to grow a weak cell 9 (0.05 points a day)
+    latest = Inspection.objects.filter(battery__serial="B00001", scope="all").order_by("-taken_at").first()
+    assert latest.lowest_position == 9
+    assert latest.sg_spread > Decimal("0.040")
