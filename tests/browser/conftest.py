@@ -26,7 +26,9 @@ def in_ci():
     return os.environ.get("CI", "").lower() in ("1", "true", "yes")
 
 
-@pytest.fixture(scope="session")
+# Module scope, not session: Playwright's sync API allows one running instance per thread, and other
+# test folders start their own; each module's browser is closed before the next module opens one.
+@pytest.fixture(scope="module")
 def browser():
     if not os.access(CHROMIUM, os.X_OK):
         reason = f"no chromium at {CHROMIUM}: install Debian's package (apt-get install chromium); Playwright must not download one"
