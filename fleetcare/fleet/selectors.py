@@ -312,7 +312,7 @@ def battery_record(battery):
         Inspection.objects.current().filter(battery=battery).select_related("taken_by").order_by("-taken_at")
     )
     fittings = list(Fitting.objects.filter(battery=battery).select_related("vehicle"))
-    top_ups = list(WaterTopUp.objects.current().filter(battery=battery).select_related("done_by").order_by("-done_at"))
+    top_ups = list(WaterTopUp.objects.current().filter(battery=battery).select_related("done_by", "battery__profile").order_by("-done_at"))
     return {
         "battery": battery,
         "profile": battery.profile,

@@ -266,13 +266,8 @@ def _store(groups, group_battery, user, report):
     with transaction.atomic():
         Inspection.objects.bulk_create(inspections, batch_size=500)
         _insert_cells(zip(inspections, cells_by_inspection))
-        latest = {}
-        for inspection in inspections:
-            if inspection.battery_id not in latest or inspection.taken_at > latest[inspection.battery_id].taken_at:
-                latest[inspection.battery_id] = inspection
-        transaction.on_commit(
-            lambda: [signals.inspection_recorded.send(Inspection, inspection=i) for i in latest.values()]
-        )
+        battery_ids = sorted({inspection.battery_id for inspection in inspections})
+        transaction.on_commit(lambda: signals.inspections_imported.send(Inspection, battery_ids=battery_ids))
     report.inspections_created = len(inspections)
     report.cells_created = sum(len(cells) for cells in cells_by_inspection)
     report.imported = True

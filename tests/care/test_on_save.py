@@ -33,3 +33,18 @@ def test_removing_the_reading_that_showed_a_fault_clears_it(battery, crew, super
     with django_capture_on_commit_callbacks(execute=True):
         remove_inspection(wrong, user=supervisor, reason="Typed into the wrong battery")
     assert Finding.objects.active().filter(battery=battery).count() == 0
+
+
+def test_an_imported_file_is_checked_once_for_all_its_batteries(battery, crew, watered,
+                                                                django_capture_on_commit_callbacks):
+    from fleetcare.fleet.models import Battery
+    from fleetcare.readings.csv_io import import_readings
+
+    taken = timezone.localtime(timezone.now() - dt.timedelta(hours=2)).strftime("%Y-%m-%dT%H:%M")
+    rows = "".join(f"TW-001,{taken},charged,{n},{'1.245' if n == 9 else '1.285'},25,,ok\n" for n in range(1, 25))
+    with django_capture_on_commit_callbacks(execute=True) as callbacks:
+        import_readings("serial,taken_at,situation,cell,sg,temp,volts,level\n" + rows, user=crew,
+                        batteries=Battery.objects.all())
+    assert len(callbacks) == 1
+    weak = Finding.objects.get(battery=battery, kind="weak_cell")
+    assert weak.positions == [9]
