@@ -199,7 +199,7 @@ def _flooded_history(rng, today, crew, b, inspections, cells_per, top_ups):
                     sg -= 0.012 + (120 - age_days) * 0.0004
                 level = "low" if rng.random() < 0.01 else "ok"
                 entries.append(CellEntry(position=cell, sg=_observed(sg, temp, profile), level=level))
-            situation = Inspection.Situation.JUST_EQUALIZED if day.isocalendar().week % 2 == 0 else Inspection.Situation.JUST_CHARGED
+            situation = Inspection.Situation.JUST_EQUALIZED  # the weekend charge ends with an equalizing charge
             if b.serial == LEFT_FLAT and age_days < 40:
                 pass  # the forgotten spare: nobody charged or read it properly for weeks
             else:
