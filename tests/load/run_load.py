@@ -298,26 +298,39 @@ class Outage:
     def note(self, text):
         self.log.append(f"{time.strftime('%H:%M:%S')} {text}")
 
+    @staticmethod
+    def _ready():
+        for _ in range(60):
+            if subprocess.run(["pg_isready", "-q", "-h", HOST], check=False).returncode == 0:
+                return True
+            time.sleep(0.5)
+        return False
+
     def run(self):
         time.sleep(self.after)
         started = time.monotonic()
         if self.mode == "server":
             version = sorted(os.listdir("/etc/postgresql"))[0]
-            self.note(f"pg_ctlcluster {version} main stop")
-            subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", "stop"], check=True)  # fast mode
-            time.sleep(self.seconds)
-            self.note(f"pg_ctlcluster {version} main start")
-            subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", "start"], check=True)
-            for _ in range(60):
-                if subprocess.run(["pg_isready", "-q", "-h", HOST]).returncode == 0:
-                    break
-                time.sleep(0.5)
+            command = ["pg_ctlcluster", "--skip-systemctl-redirect", version, "main"]
+            try:
+                self.note(f"pg_ctlcluster {version} main stop")
+                subprocess.run([*command, "stop"], check=False, timeout=30)  # fast mode
+                time.sleep(self.seconds)
+            finally:
+                for _ in range(3):  # whatever happened above, PostgreSQL is started again
+                    self.note(f"pg_ctlcluster {version} main start")
+                    subprocess.run([*command, "start"], check=False, timeout=60)
+                    if self._ready():
+                        break
         else:
             self.note(f"refusing connections to {self.database} and closing the open ones")
-            admin_sql(self.database_url, f'ALTER DATABASE "{self.database}" ALLOW_CONNECTIONS false')
-            admin_sql(self.database_url, f"SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE datname = '{self.database}'")
-            time.sleep(self.seconds)
-            admin_sql(self.database_url, f'ALTER DATABASE "{self.database}" ALLOW_CONNECTIONS true')
+            try:
+                admin_sql(self.database_url, f'ALTER DATABASE "{self.database}" ALLOW_CONNECTIONS false')
+                admin_sql(self.database_url,
+                          f"SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE datname = '{self.database}'")
+                time.sleep(self.seconds)
+            finally:
+                admin_sql(self.database_url, f'ALTER DATABASE "{self.database}" ALLOW_CONNECTIONS true')
             self.note(f"{self.database} accepts connections again")
         self.down_s = round(time.monotonic() - started, 1)
 
@@ -461,6 +474,9 @@ def main():
             results["phases"].append(phase)
     finally:
         stop_gunicorn(server)
+        if args.outage == "server" and not Outage._ready():  # never leave PostgreSQL down
+            version = sorted(os.listdir("/etc/postgresql"))[0]
+            subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", "start"], check=False, timeout=60)
 
     failures = verdict(results)
     results["failures"] = failures
