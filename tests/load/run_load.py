@@ -8,6 +8,8 @@ loads 50 batteries and 50 crew logins, starts gunicorn (2 workers by default) on
 1. steady: every tablet signs in, then for --seconds (60) loops: GET the entry page for the CSRF
    token, POST a 24-cell inspection with a client UUID of its own; about 10 % are sent twice at
    once (a double tap), about 5 % lose their answer and are sent again on the next round (a retry).
+   With --via api the reading goes as JSON to /api/batteries/<id>/inspections instead (session
+   sign-in, CSRF header), with the same double taps and resends.
 2. outage (with --outage): the same traffic while PostgreSQL goes away for a few seconds in the
    middle: "database" refuses connections to this database only (harmless to anyone else);
    "server" stops and starts the PostgreSQL cluster (pg_ctlcluster), which every user of it notices.
@@ -78,8 +80,9 @@ class Stats:
 class Tablet:
     """One crew member's tablet: a cookie jar, one battery, a list of submissions waiting to be confirmed."""
 
-    def __init__(self, base, username, battery_pk, stats, rng):
+    def __init__(self, base, username, battery_pk, stats, rng, via="form"):
         self.base, self.username, self.battery_pk, self.stats, self.rng = base, username, battery_pk, stats, rng
+        self.via = via
         self.jar = http.cookiejar.CookieJar()
         self.opener = urllib.request.build_opener(urllib.request.HTTPCookieProcessor(self.jar), NoRedirect)
         self.pending = []          # submissions not yet confirmed, resent with the same UUID
@@ -87,10 +90,14 @@ class Tablet:
         self.sent = set()          # every UUID ever posted
         self.signed_in = False
 
-    def request(self, kind, path, data=None):
+    def request(self, kind, path, data=None, json_body=None):
         """(status, location or body); status 0 for a refused or broken connection."""
         body = urllib.parse.urlencode(data).encode() if data is not None else None
         req = urllib.request.Request(self.base + path, data=body)
+        if json_body is not None:
+            req = urllib.request.Request(self.base + path, data=json.dumps(json_body).encode(), headers={
+                "Content-Type": "application/json", "X-CSRFToken": self.csrf_cookie() or "",
+            })
         started = time.perf_counter()
         try:
             with self.opener.open(req, timeout=REQUEST_TIMEOUT_S) as response:
@@ -122,8 +129,41 @@ class Tablet:
             "attempts": 0, **cells,
         }
 
+    def csrf_cookie(self):
+        return next((c.value for c in self.jar if c.name == "csrftoken"), None)
+
     def submit(self, submission):
-        """Send once; True when the server confirmed it (a redirect to the stored inspection)."""
+        return self.submit_api(submission) if self.via == "api" else self.submit_form(submission)
+
+    def submit_api(self, submission):
+        """POST the reading as JSON to /api/ (session sign-in, CSRF header); True when stored or already stored."""
+        submission["attempts"] += 1
+        payload = {
+            "client_uuid": submission["client_uuid"], "situation": submission["situation"], "scope": "all",
+            "taken_at": submission["taken_at"], "temp": submission["temp"], "notes": submission["notes"],
+            "cells": [{"position": p, "sg": submission[f"sg_{p}"]} for p in range(1, CELLS + 1)],
+        }
+        self.sent.add(submission["client_uuid"])
+        status, body = self.request("post", f"/api/batteries/{self.battery_pk}/inspections", json_body=payload)
+        if status in (401, 403):
+            self.signed_in = False
+            return False
+        if status not in (200, 201):
+            if 400 <= status < 500:
+                self.stats.error(f"{self.username}: API refused the reading ({status}): {body[:200]}")
+            return False
+        try:
+            inspection_id = json.loads(body)["id"]
+        except (ValueError, KeyError):
+            self.stats.error(f"{self.username}: API answer without an id: {body[:200]}")
+            return False
+        previous = self.confirmed.setdefault(submission["client_uuid"], inspection_id)
+        if previous != inspection_id:
+            self.stats.error(f"{submission['client_uuid']} answered {previous} then {inspection_id}")
+        return True
+
+    def submit_form(self, submission):
+        """Send once through the tablet form; True when the server confirmed it (a redirect to the stored inspection)."""
         submission["attempts"] += 1
         status, page = self.request("get", f"/readings/battery/{self.battery_pk}/inspect/")
         if status in (302, 403) and not self.sign_in():
@@ -428,6 +468,8 @@ def main():
     parser.add_argument("--think", type=float, default=3.0, help="Mean seconds a tablet waits between submissions.")
     parser.add_argument("--workers", type=int, default=2)
     parser.add_argument("--threads", type=int, default=4, help="gunicorn threads per worker (gthread).")
+    parser.add_argument("--via", choices=["form", "api"], default="form",
+                        help="Submit through the tablet form (GET for the CSRF token, then POST) or the JSON API.")
     parser.add_argument("--outage", choices=["none", "database", "server"], default="none")
     parser.add_argument("--outage-seconds", type=float, default=8)
     parser.add_argument("--outage-phase-seconds", type=float, default=40)
@@ -458,9 +500,9 @@ def main():
     server = start_gunicorn(port, args.workers, args.threads, env)
     base = f"http://{HOST}:{port}"
     rng = random.Random(2026)
-    tablets = [Tablet(base, username, pk, None, random.Random(rng.random())) for username, pk in world]
+    tablets = [Tablet(base, username, pk, None, random.Random(rng.random()), args.via) for username, pk in world]
     results = {"date": dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"), "cpus": os.cpu_count(),
-               "tablets": args.tablets, "gunicorn": f"{args.workers} workers x {args.threads} threads", "phases": []}
+               "tablets": args.tablets, "via": args.via, "gunicorn": f"{args.workers} workers x {args.threads} threads", "phases": []}
     try:
         results["sign_in"] = sign_in_all(tablets)
         steady = run_phase("steady", tablets, args.seconds, args.think, drain_s=30)
@@ -503,14 +545,14 @@ def verdict(results):
         if phase["client_errors"]:
             failures.append(f"{name}: client errors {phase['client_errors'][:3]}")
         if name == "steady":
-            bad = {k: v for k, v in phase["requests"].items() if k.split()[1] not in ("200", "302")}
+            bad = {k: v for k, v in phase["requests"].items() if k.split()[1] not in ("200", "201", "302")}
             if bad:
-                failures.append(f"steady: responses other than 200/302: {bad}")
+                failures.append(f"steady: responses other than 200/201/302: {bad}")
         else:
             bad = {k: v for k, v in phase["requests"].items()
-                   if k.split()[1] not in ("0", "200", "302") and not k.split()[1].startswith("5")}
+                   if k.split()[1] not in ("0", "200", "201", "302") and not k.split()[1].startswith("5")}
             if bad:
-                failures.append(f"{name}: responses other than 200/302/5xx/refused: {bad}")
+                failures.append(f"{name}: responses other than 200/201/302/5xx/refused: {bad}")
     return failures
 
 
