@@ -46,10 +46,13 @@ class ImportReport:
 
 def _decimal(text, name, line, errors):
     try:
-        return Decimal(text)
+        value = Decimal(text)
     except InvalidOperation:
+        value = None
+    if value is None or not value.is_finite():
         errors.append((line, f"{name} “{text}” is not a number."))
         return None
+    return value
 
 
 class _Memo:

@@ -111,3 +111,10 @@ def test_the_export_reimports_to_the_same_readings(crew_client, battery, crew):
     report = run(exported, crew)
     assert report.ok
     assert set(CellReading.objects.values_list("sg_corrected", flat=True)) == {Decimal("1.284")}
+
+
+@pytest.mark.parametrize("bad", ["NaN", "inf", "-Infinity", "sNaN"])
+def test_a_non_finite_number_is_reported_not_crashed_on(battery, crew, bad):
+    report = run(HEADER + inspection_rows().replace(",25,", f",{bad},", 1), crew)
+    assert report.errors == [(2, f"temp “{bad}” is not a number.")]
+    assert Inspection.objects.count() == 0
