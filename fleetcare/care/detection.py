@@ -83,13 +83,19 @@ def load(batteries, now):
         data[row["battery_id"]].last_charge_at = row["last"]
         data[row["battery_id"]].charges_logged = row["n"]
 
+    # Only "low" reports matter, and only while no later reading of that cell says OK: start from the
+    # (rare, partially indexed) low reports instead of ranking every cell reading in the history.
+    later_ok = CellReading.objects.filter(
+        inspection__in=Inspection.objects.current(), inspection__battery_id=OuterRef("inspection__battery_id"),
+        position=OuterRef("position"), level=CellReading.Level.OK,
+        inspection__taken_at__gt=OuterRef("inspection__taken_at"), inspection__taken_at__lte=now,
+    )
     levels = (
-        CellReading.objects.filter(inspection__in=current).exclude(level="")
-        .annotate(
-            battery=F("inspection__battery_id"), taken_at=F("inspection__taken_at"),
-            rank=Window(RowNumber(), partition_by=[F("inspection__battery_id"), F("position")],
-                        order_by=[F("inspection__taken_at").desc(), F("inspection_id").desc()]),
-        ).filter(rank=1).values("battery", "position", "level", "taken_at")
+        CellReading.objects.filter(inspection__in=current, level=CellReading.Level.LOW)
+        .annotate(battery=F("inspection__battery_id"), taken_at=F("inspection__taken_at"))
+        .exclude(Exists(later_ok))
+        .order_by("battery", "position", "taken_at")
+        .values("battery", "position", "level", "taken_at")
     )
     for row in levels:
         data[row["battery"]].latest_levels[row["position"]] = (row["level"], row["taken_at"])

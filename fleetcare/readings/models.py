@@ -99,6 +99,7 @@ class CellReading(models.Model):
     class Meta:
         ordering = ["inspection", "position"]
         constraints = [models.UniqueConstraint(fields=["inspection", "position"], name="one_reading_per_position")]
+        indexes = [models.Index(fields=["inspection"], condition=models.Q(level="low"), name="cell_low_level")]
 
     def __str__(self):
         return f"{self.inspection_id}#{self.position}"
