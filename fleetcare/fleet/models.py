@@ -16,10 +16,12 @@ def validate_timezone(value):
 
 class SiteQuerySet(models.QuerySet):
     def for_user(self, user):
-        """Sites the user may see: all for superusers, otherwise the sites they belong to."""
+        """Sites the user may see: all for administrators, otherwise the sites they belong to."""
+        from fleetcare.accounts.roles import ADMINISTRATOR, has_role
+
         if not user.is_authenticated:
             return self.none()
-        if user.is_superuser:
+        if has_role(user, ADMINISTRATOR):
             return self
         return self.filter(members=user)
 

@@ -3,22 +3,33 @@ from django.contrib import admin
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 
 
-class CellReadingInline(admin.TabularInline):
+class ReadOnlyAdmin:
+    """Readings are corrected as new revisions on the reading's own page, never edited in place here."""
+
+    def has_add_permission(self, request, obj=None):
+        return False
+
+    def has_change_permission(self, request, obj=None):
+        return False
+
+    def has_delete_permission(self, request, obj=None):
+        return False
+
+
+class CellReadingInline(ReadOnlyAdmin, admin.TabularInline):
     model = CellReading
     extra = 0
-    readonly_fields = ["sg_corrected"]
 
 
 @admin.register(Inspection)
-class InspectionAdmin(admin.ModelAdmin):
+class InspectionAdmin(ReadOnlyAdmin, admin.ModelAdmin):
     list_display = ["battery", "taken_at", "situation", "scope", "soc_percent", "sg_spread", "is_current"]
     list_filter = ["situation", "scope", "battery__site"]
     search_fields = ["battery__serial"]
     inlines = [CellReadingInline]
-    readonly_fields = ["sg_mean", "sg_min", "sg_max", "sg_spread", "lowest_position", "volts_total", "soc_percent", "soc_basis"]
 
 
 @admin.register(WaterTopUp)
-class WaterTopUpAdmin(admin.ModelAdmin):
+class WaterTopUpAdmin(ReadOnlyAdmin, admin.ModelAdmin):
     list_display = ["battery", "done_at", "volume_ml", "water_type", "before_charge"]
     list_filter = ["battery__site"]

@@ -78,8 +78,9 @@ class InspectionForm(forms.Form):
     notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2, "class": "form-control"}))
     client_uuid = forms.UUIDField(widget=forms.HiddenInput)
 
-    def __init__(self, *args, battery, **kwargs):
+    def __init__(self, *args, battery, correcting=False, **kwargs):
         self.battery = battery
+        self.correcting = correcting  # a supervisor correcting stored history, which a retired battery keeps
         self.profile = battery.profile
         self.site = battery.site
         initial = kwargs.setdefault("initial", {})
@@ -127,7 +128,7 @@ class InspectionForm(forms.Form):
 
     def clean(self):
         data = super().clean()
-        if self.battery.status == Battery.Status.RETIRED:
+        if self.battery.status == Battery.Status.RETIRED and not self.correcting:
             raise forms.ValidationError(RETIRED_MESSAGE)
         scope = data.get("scope") or Inspection.Scope.ALL_CELLS
         if self.profile.reads_by_block:

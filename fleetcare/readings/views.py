@@ -110,7 +110,7 @@ def correct_inspection(request, pk):
     battery = old.battery
     scope = request.GET.get("scope", old.scope)
     if request.method == "POST":
-        form = InspectionForm(request.POST, battery=battery)
+        form = InspectionForm(request.POST, battery=battery, correcting=True)
         reason = ReasonForm(request.POST)
         if form.is_valid() and reason.is_valid():
             fields = form.record_kwargs()
@@ -125,7 +125,7 @@ def correct_inspection(request, pk):
                              if created else "This correction was already saved; nothing was stored twice.")
             return redirect("readings:inspection", pk=new.pk)
     else:
-        form = InspectionForm(battery=battery, initial={**stored_values(old), "scope": scope})
+        form = InspectionForm(battery=battery, initial={**stored_values(old), "scope": scope}, correcting=True)
         reason = ReasonForm()
     return render(request, "readings/correct.html", {
         "battery": battery, "profile": battery.profile, "form": form, "scope": scope, "reason_form": reason,

@@ -204,3 +204,12 @@ def test_a_correction_is_never_kept_for_the_offline_outbox(supervisor_client, ba
     old = store_inspection(battery, crew)
     assert "data-offline-api" in supervisor_client.get(reverse("readings:inspect", args=[battery.pk])).content.decode()
     assert "data-offline-api" not in supervisor_client.get(reverse("readings:correct", args=[old.pk])).content.decode()
+
+
+def test_a_retired_batterys_history_can_still_be_corrected(supervisor_client, battery, crew):
+    inspection = store_inspection(battery, crew, sg="1.265", temp_c=Decimal("30.0"))
+    battery.status = "retired"
+    battery.save()
+    response = supervisor_client.post(reverse("readings:correct", args=[inspection.pk]), correction_post(CORRECTED))
+    assert response.status_code == 302
+    assert Inspection.objects.current().get(battery=battery).supersedes_id == inspection.pk

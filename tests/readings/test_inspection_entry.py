@@ -162,3 +162,16 @@ def test_a_retired_battery_takes_no_readings(crew_client, battery):
     response = crew_client.post(reverse("readings:inspect", args=[battery.pk]), post_data(battery))
     assert "This battery is retired" in response.content.decode()
     assert Inspection.objects.count() == 0
+
+
+def test_the_admin_cannot_edit_readings_in_place(client, django_user_model, battery, crew_client):
+    crew_client.post(reverse("readings:inspect", args=[battery.pk]), post_data(battery))
+    inspection = Inspection.objects.get()
+    admin = django_user_model.objects.create_superuser("root1", password="not-a-real-password-1")
+    client.force_login(admin)
+    page = client.get(reverse("admin:readings_inspection_change", args=[inspection.pk]))
+    assert page.status_code == 200
+    assert b'name="situation"' not in page.content  # shown, not editable
+    client.post(reverse("admin:readings_inspection_change", args=[inspection.pk]), {"situation": "rested"})
+    inspection.refresh_from_db()
+    assert inspection.situation == "charged"
