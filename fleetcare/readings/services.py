@@ -107,10 +107,9 @@ def record_inspection(*, battery, user, taken_at, situation, cells, scope=Inspec
 
     A client UUID seen before returns the stored inspection untouched, so a tablet may resend freely.
     """
-    if client_uuid is not None:
-        existing = Inspection.objects.filter(client_uuid=client_uuid).first()
-        if existing is not None:
-            return existing, False
+    existing = _already_stored(Inspection, client_uuid)
+    if existing is not None:
+        return existing, False
     inspection = Inspection(
         battery=battery, taken_by=user, taken_at=taken_at, situation=situation, scope=scope,
         temp_c=temp_c, hydrometer_compensated=hydrometer_compensated, hours_since_charge=hours_since_charge,
@@ -120,21 +119,38 @@ def record_inspection(*, battery, user, taken_at, situation, cells, scope=Inspec
         inspection.client_uuid = client_uuid
     rows = build_cells(inspection, cells)
     summarise(inspection, rows)
+
+    def write():
+        if supersedes is not None:
+            _retire(supersedes)
+        inspection.save()
+        for row in rows:
+            row.inspection = inspection
+        CellReading.objects.bulk_create(rows)
+        transaction.on_commit(lambda: signals.inspection_recorded.send(Inspection, inspection=inspection))
+
+    return _store_once(inspection, write)
+
+
+def _already_stored(model, client_uuid):
+    if client_uuid is None:
+        return None
+    return model.objects.filter(client_uuid=client_uuid).first()
+
+
+def _store_once(record, write):
+    """Run write() atomically; if a resend with the same client UUID won the race, answer with that one.
+
+    Returns (record, created) like get_or_create."""
     try:
         with transaction.atomic():
-            if supersedes is not None:
-                _retire(supersedes)
-            inspection.save()
-            for row in rows:
-                row.inspection = inspection
-            CellReading.objects.bulk_create(rows)
-            transaction.on_commit(lambda: signals.inspection_recorded.send(Inspection, inspection=inspection))
+            write()
     except IntegrityError:
-        existing = Inspection.objects.filter(client_uuid=inspection.client_uuid).first()
+        existing = _already_stored(type(record), record.client_uuid)
         if existing is None:
             raise
         return existing, False
-    return inspection, True
+    return record, True
 
 
 class RevisionError(Exception):
@@ -224,23 +240,18 @@ def remove_top_up(top_up, *, user, reason):
 def record_top_up(*, battery, user, done_at, volume_ml, volume_entered="", before_charge=False,
                   water_type=WaterTopUp.WaterType.DISTILLED, notes="", client_uuid=None):
     """Store one water top-up. Returns (top_up, created); a repeated client UUID stores nothing new."""
-    if client_uuid is not None:
-        existing = WaterTopUp.objects.filter(client_uuid=client_uuid).first()
-        if existing is not None:
-            return existing, False
+    existing = _already_stored(WaterTopUp, client_uuid)
+    if existing is not None:
+        return existing, False
     top_up = WaterTopUp(
         battery=battery, done_by=user, done_at=done_at, volume_ml=volume_ml, volume_entered=volume_entered,
         before_charge=before_charge, water_type=water_type, notes=notes,
     )
     if client_uuid is not None:
         top_up.client_uuid = client_uuid
-    try:
-        with transaction.atomic():
-            top_up.save()
-            transaction.on_commit(lambda: signals.top_up_recorded.send(WaterTopUp, top_up=top_up))
-    except IntegrityError:
-        existing = WaterTopUp.objects.filter(client_uuid=top_up.client_uuid).first()
-        if existing is None:
-            raise
-        return existing, False
-    return top_up, True
+
+    def write():
+        top_up.save()
+        transaction.on_commit(lambda: signals.top_up_recorded.send(WaterTopUp, top_up=top_up))
+
+    return _store_once(top_up, write)
