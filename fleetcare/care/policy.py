@@ -6,6 +6,8 @@ site overrides the profile's; a row for that site and profile overrides both. Bl
 from dataclasses import dataclass
 from decimal import Decimal
 
+from fleetcare import policy_layers
+
 
 @dataclass(frozen=True)
 class Threshold:
@@ -76,17 +78,8 @@ class Value:
         }
 
 
-class Resolved:
+class Resolved(policy_layers.Resolved):
     """All thresholds for one battery; attribute access gives the Decimal value."""
-
-    def __init__(self, values):
-        self.values = values
-
-    def __getattr__(self, name):
-        try:
-            return self.__dict__["values"][name].value
-        except KeyError:
-            raise AttributeError(name) from None
 
     def evidence(self, name):
         return self.values[name].as_evidence()
@@ -99,14 +92,7 @@ def defaults():
 def resolve(battery, policies):
     """Thresholds for `battery` from a list of Policy rows (the caller loads them once for the fleet)."""
     values = {t.name: Value(t.name, t.default, t.source) for t in THRESHOLDS}
-    layers = [
-        p for p in policies
-        if (p.profile_id == battery.profile_id and p.site_id is None)
-        or (p.site_id == battery.site_id and p.profile_id is None)
-        or (p.site_id == battery.site_id and p.profile_id == battery.profile_id)
-    ]
-    layers.sort(key=lambda p: (p.site_id is not None, p.profile_id is not None and p.site_id is not None))
-    for policy in layers:
+    for policy in policy_layers.layers_for(battery.site_id, battery.profile_id, policies):
         for t in THRESHOLDS:
             value = getattr(policy, t.name)
             if value is not None:

@@ -7,6 +7,8 @@ row for that site and profile overrides both. Blank fields inherit. Intervals "b
 from dataclasses import dataclass
 from decimal import Decimal
 
+from fleetcare import policy_layers
+
 
 @dataclass(frozen=True)
 class Setting:
@@ -56,17 +58,8 @@ class Value:
     source: str
 
 
-class Resolved:
+class Resolved(policy_layers.Resolved):
     """All settings for one battery; attribute access gives the Decimal value, .source(name) where it came from."""
-
-    def __init__(self, values):
-        self.values = values
-
-    def __getattr__(self, name):
-        try:
-            return self.__dict__["values"][name].value
-        except KeyError:
-            raise AttributeError(name) from None
 
     def source(self, name):
         return self.values[name].source
@@ -76,21 +69,10 @@ def defaults():
     return Resolved({s.name: Value(s.name, s.default, s.source) for s in SETTINGS})
 
 
-def layers_for(site_id, profile_id, policies):
-    """The policy rows that apply, weakest first: profile, then site, then site and profile."""
-    layers = [
-        p for p in policies
-        if (p.profile_id == profile_id and p.site_id is None)
-        or (p.site_id == site_id and p.profile_id is None)
-        or (p.site_id == site_id and p.profile_id == profile_id)
-    ]
-    return sorted(layers, key=lambda p: (p.site_id is not None, p.profile_id is not None and p.site_id is not None))
-
-
 def resolve(site_id, profile_id, policies):
     """Settings for a battery of `profile_id` at `site_id`, from Policy rows the caller loaded once."""
     values = {s.name: Value(s.name, s.default, s.source) for s in SETTINGS}
-    for policy in layers_for(site_id, profile_id, policies):
+    for policy in policy_layers.layers_for(site_id, profile_id, policies):
         for s in SETTINGS:
             value = getattr(policy, s.name)
             if value is not None:
