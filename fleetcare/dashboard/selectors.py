@@ -14,7 +14,7 @@ from functools import reduce
 from types import SimpleNamespace
 from urllib.parse import urlencode
 
-from django.db.models import BooleanField, Count, ExpressionWrapper, OuterRef, Q, Subquery, Sum
+from django.db.models import BooleanField, Count, ExpressionWrapper, Max, Min, OuterRef, Q, Subquery, Sum
 from django.urls import reverse
 from django.utils import timezone
 
@@ -337,14 +337,20 @@ def _water_chart(batteries, rows, now):
 def _water_boxes(members, by_battery, edges):
     """Box values per month for one profile, and the batteries that stand out against the others of
     that profile at their own site (sites charge differently, so their water use differs too)."""
+    months = range(len(edges) - 1)
+    month_days = [edges[i].date() for i in months]
+    in_use = (Battery.Status.IN_SERVICE, Battery.Status.CHARGING)
+    per_battery = []
+    for r in members:
+        sums = by_battery.get(r["pk"], {})
+        per_battery.append((r, [sums.get(f"b{i}") for i in months], r["status"] in in_use))
     groups, outliers = [], []
-    for i in range(len(edges) - 1):
+    for i in months:
         month = edges[i].strftime("%b %Y")
         values, per_site = [], defaultdict(list)
-        for r in members:
-            total = by_battery.get(r["pk"], {}).get(f"b{i}")
-            in_use = r["status"] in (Battery.Status.IN_SERVICE, Battery.Status.CHARGING)
-            if total is None and not (in_use and r["in_service_date"] <= edges[i].date()):
+        for r, totals, working in per_battery:
+            total = totals[i]
+            if total is None and not (working and r["in_service_date"] <= month_days[i]):
                 continue
             value = round(float(total or 0) / r["cells"], 1)
             values.append(value)
@@ -380,11 +386,15 @@ def deep_discharge_limits():
 
 def deep_discharge_by_truck_and_shift(batteries, since):
     """{(asset number, shift): events}: readings in use or before charge under the deep-discharge limit,
-    each counted against the truck and shift the battery was fitted to when it was read. Two queries:
-    the events, then the fittings of the batteries they belong to, matched here (a correlated
-    subquery per event was the slowest part of the page at fleet scale)."""
+    each counted against the truck and shift the battery was fitted to when it was read (the latest
+    fitting that covers it).
+
+    Three queries whatever the fleet size: events counted per battery with their first and last time;
+    the fittings of those batteries; and the single events of only those batteries whose span of
+    events is not inside one fitting (a battery moved to another truck meanwhile), matched here.
+    Counting in SQL spares fetching every event: about 13,000 rows at 1,000 batteries."""
     under = reduce(operator.or_, [where & Q(soc_percent__lt=limit) for where, limit in deep_discharge_limits()])
-    events = list(
+    events = (
         Inspection.objects.current()
         .filter(
             under,
@@ -393,24 +403,43 @@ def deep_discharge_by_truck_and_shift(batteries, since):
             situation__in=(Inspection.Situation.IN_USE, Inspection.Situation.BEFORE_CHARGE),
         )
         .order_by()
-        .values_list("battery_id", "taken_at")
     )
+    per_battery = {
+        row["battery_id"]: row
+        for row in events.values("battery_id").annotate(n=Count("pk"), first=Min("taken_at"), last=Max("taken_at"))
+    }
     fittings = defaultdict(list)
     for battery_id, fitted_at, removed_at, truck, shift in (
-        Fitting.objects.filter(battery_id__in={battery_id for battery_id, _ in events})
+        Fitting.objects.filter(battery_id__in=per_battery)
         .filter(Q(removed_at__isnull=True) | Q(removed_at__gt=since))
         .order_by("-fitted_at")
         .values_list("battery_id", "fitted_at", "removed_at", "vehicle__asset_number", "shift")
     ):
         fittings[battery_id].append((fitted_at, removed_at, truck, shift))
-    counts = Counter()
-    for battery_id, taken_at in events:
-        truck, shift = next(
-            ((t, sh) for fitted_at, removed_at, t, sh in fittings[battery_id]
-             if fitted_at <= taken_at and (removed_at is None or removed_at > taken_at)),
-            (None, None),
-        )
-        counts[(truck or "Not fitted", shift or "No shift set")] += 1
+
+    def covers(fitting, start, end):
+        fitted_at, removed_at, _truck, _shift = fitting
+        return fitted_at <= start and (removed_at is None or removed_at > end)
+
+    def overlaps(fitting, start, end):
+        fitted_at, removed_at, _truck, _shift = fitting
+        return fitted_at <= end and (removed_at is None or removed_at > start)
+
+    counts, moved = Counter(), []
+    for battery_id, row in per_battery.items():
+        touching = [f for f in fittings[battery_id] if overlaps(f, row["first"], row["last"])]
+        if not touching:
+            counts[("Not fitted", "No shift set")] += row["n"]
+        elif len(touching) == 1 and covers(touching[0], row["first"], row["last"]):
+            _fitted_at, _removed_at, truck, shift = touching[0]
+            counts[(truck, shift or "No shift set")] += row["n"]
+        else:
+            moved.append(battery_id)
+    if moved:
+        for battery_id, taken_at in events.filter(battery_id__in=moved).values_list("battery_id", "taken_at"):
+            fitting = next((f for f in fittings[battery_id] if covers(f, taken_at, taken_at)), None)
+            truck, shift = (fitting[2], fitting[3]) if fitting else (None, None)
+            counts[(truck or "Not fitted", shift or "No shift set")] += 1
     return dict(counts)
 
 

@@ -71,7 +71,30 @@ class Inspection(models.Model):
 
     class Meta:
         ordering = ["-taken_at"]
-        indexes = [models.Index(fields=["battery", "-taken_at"], name="inspection_battery_time")]
+        indexes = [
+            models.Index(fields=["battery", "-taken_at"], name="inspection_battery_time"),
+            # The latest post-charge all-cell reading of each battery (overview, findings): a short index
+            # scan instead of reading a battery's whole history and sorting it.
+            models.Index(
+                fields=["battery", "-taken_at"],
+                condition=models.Q(
+                    is_current=True, deleted_at__isnull=True, situation__in=["charged", "equalized"], scope="all",
+                    sg_spread__isnull=False,
+                ),
+                name="inspection_post_charge_time",
+            ),
+            # Readings low enough to count as deep discharge (the default limit is 20 %; a site may raise it
+            # up to 30 % and still be served from here), read from the index alone on PostgreSQL.
+            models.Index(
+                fields=["battery", "taken_at"],
+                include=["soc_percent"],
+                condition=models.Q(
+                    is_current=True, deleted_at__isnull=True, situation__in=["in_use", "before_charge"],
+                    soc_percent__lt=30,
+                ),
+                name="inspection_low_charge_time",
+            ),
+        ]
 
     def __str__(self):
         return f"{self.battery} {self.taken_at:%Y-%m-%d %H:%M} {self.get_situation_display()}"
@@ -135,6 +158,13 @@ class WaterTopUp(models.Model):
 
     class Meta:
         ordering = ["-done_at"]
+        indexes = [
+            # Water per battery over a span of months, read from the index alone on PostgreSQL.
+            models.Index(
+                fields=["battery", "done_at"], include=["volume_ml"], condition=models.Q(deleted_at__isnull=True),
+                name="top_up_battery_time",
+            ),
+        ]
 
     def __str__(self):
         return f"{self.battery} {self.done_at:%Y-%m-%d} {self.volume_ml} mL"

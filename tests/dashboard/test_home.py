@@ -183,6 +183,33 @@ def test_deep_discharge_counts_against_the_truck_and_shift_the_battery_was_fitte
     assert counts == {("FL-01", "Day"): 1, ("FL-02", "Night"): 2}
 
 
+def test_deep_discharge_counts_whole_batteries_and_moved_ones_alike(battery, supervisor, now, site, traction_profile):
+    # Three cases in one fleet: a battery in one truck all along (counted per battery in SQL), a battery
+    # that moved trucks inside the window (matched event by event) and one never fitted.
+    moved = Battery.objects.create(serial="TW-MOV", profile=traction_profile, site=site, in_service_date=dt.date(2025, 1, 1))
+    loose = Battery.objects.create(serial="TW-LSE", profile=traction_profile, site=site, in_service_date=dt.date(2025, 1, 1))
+    day_truck = Vehicle.objects.create(asset_number="FL-07", kind="forklift", site=site)
+    night_truck = Vehicle.objects.create(asset_number="FL-08", kind="forklift", site=site)
+    Fitting.objects.create(battery=moved, vehicle=day_truck, fitted_at=now - dt.timedelta(days=60),
+                           removed_at=now - dt.timedelta(days=15), shift="Day")
+    Fitting.objects.create(battery=moved, vehicle=night_truck, fitted_at=now - dt.timedelta(days=12), shift="Night")
+    battery.fittings.update(fitted_at=now - dt.timedelta(days=60))
+    for days in (40, 30, 5):
+        read(battery, supervisor, now - dt.timedelta(days=days), "before_charge", sg="1.155", scope="pilot")
+    for days in (50, 14, 13, 2):  # 14 and 13 days ago: between the two fittings, so not fitted
+        read(moved, supervisor, now - dt.timedelta(days=days), "in_use", sg="1.155", scope="pilot")
+    read(loose, supervisor, now - dt.timedelta(days=3), "before_charge", sg="1.155", scope="pilot")
+    with CaptureQueriesContext(connection) as queries:
+        counts = selectors.deep_discharge_by_truck_and_shift(Battery.objects.all(), now - dt.timedelta(days=90))
+    assert counts == {
+        ("FL-01", "No shift set"): 3,
+        ("FL-07", "Day"): 1,
+        ("FL-08", "Night"): 1,
+        ("Not fitted", "No shift set"): 3,
+    }
+    assert len(queries.captured_queries) == 4  # policy rows, events per battery, fittings, the moved battery's events
+
+
 def test_the_water_chart_names_the_battery_that_stands_out(super_client, site, traction_profile, supervisor, now):
     # Tukey's fences (1.5 interquartile ranges beyond the quartiles): a common statistical convention.
     last_month = now.replace(day=1) - dt.timedelta(days=10)
