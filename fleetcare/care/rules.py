@@ -24,6 +24,40 @@ REPLACE_CAUTION = (
 GAS_CAUTION = "Heavy water use means heavy gassing: check that the charging room's ventilation copes."
 
 
+@dataclass(frozen=True, slots=True)
+class Cell:
+    position: int
+    sg_corrected: object
+    volts: object
+    level: str
+
+    FIELDS = ("position", "sg_corrected", "volts", "level")
+
+
+@dataclass(frozen=True, slots=True)
+class Reading:
+    """An inspection as the rules read it: its summary, and its cells where a rule needs them.
+    Detection loads thousands of these per pass; a plain row costs a fraction of a model instance."""
+
+    pk: int
+    battery_id: int
+    taken_at: datetime
+    situation: str
+    scope: str
+    hours_since_charge: object
+    sg_mean: object
+    sg_min: object
+    sg_max: object
+    sg_spread: object
+    lowest_position: object
+    soc_percent: object
+    has_low_level: bool = False
+    cells: tuple = ()
+
+    FIELDS = ("pk", "battery_id", "taken_at", "situation", "scope", "hours_since_charge", "sg_mean", "sg_min",
+              "sg_max", "sg_spread", "lowest_position", "soc_percent")
+
+
 @dataclass
 class Detected:
     kind: str
@@ -59,9 +93,9 @@ class BatteryData:
     battery: object
     policy: object
     now: datetime
-    post_charge: list = field(default_factory=list)  # all-cell post-charge inspections, newest first, with cells
-    block_readings: list = field(default_factory=list)  # all-cell inspections of block batteries, newest first
-    recent: list = field(default_factory=list)  # current inspections in the look-back, newest first
+    post_charge: list = field(default_factory=list)  # Readings: all-cell post-charge, newest first, with cells
+    block_readings: list = field(default_factory=list)  # Readings: all-cell of block batteries, newest first, with cells
+    recent: list = field(default_factory=list)  # Readings: current inspections in the look-back, newest first
     last_charge_at: datetime | None = None
     charges_logged: int = 0
     top_ups: list = field(default_factory=list)  # recent top-ups, newest first
@@ -102,7 +136,7 @@ def _inspection_ref(inspection):
 
 
 def _cell_values(inspection):
-    return [(c.position, c.sg_corrected) for c in inspection.cells.all() if c.sg_corrected is not None]
+    return [(c.position, c.sg_corrected) for c in inspection.cells if c.sg_corrected is not None]
 
 
 def weak_cells(inspection, policy):
@@ -484,7 +518,7 @@ def water_before_charge(data):
 
 
 def _block_volts(inspection, blocks):
-    volts = {c.position: c.volts for c in inspection.cells.all() if c.volts is not None}
+    volts = {c.position: c.volts for c in inspection.cells if c.volts is not None}
     return volts if len(volts) == blocks else None
 
 
