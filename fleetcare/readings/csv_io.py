@@ -9,9 +9,10 @@ import io
 import uuid
 from collections import defaultdict, namedtuple
 from dataclasses import dataclass, field
+from operator import itemgetter
 from decimal import Decimal, InvalidOperation
 
-from django.db import connection, transaction
+from django.db import connection, models, transaction
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
@@ -19,7 +20,7 @@ from fleetcare import chemistry
 from fleetcare.readings import signals
 from fleetcare.readings.forms import SG_HIGH, SG_LOW, TEMP_HIGH_C, TEMP_LOW_C
 from fleetcare.readings.models import CellReading, Inspection
-from fleetcare.readings.services import SG_PLACES, CellEntry, _q, corrected_cell_sg, summarise
+from fleetcare.readings.services import SG_PLACES, _q, corrected_cell_sg, summarise
 
 COLUMNS = ["serial", "taken_at", "situation", "cell", "sg", "temp", "volts", "level"]
 EXPORT_COLUMNS = COLUMNS + ["sg_corrected", "inspection_soc_percent"]
@@ -44,19 +45,20 @@ class ImportReport:
         return not self.errors
 
 
-def _decimal(text, name, line, errors):
+_UNSEEN = object()
+
+
+def _decimal(text):
+    """(finite Decimal, None) or (None, None) when the text is not a number."""
     try:
         value = Decimal(text)
     except InvalidOperation:
-        value = None
-    if value is None or not value.is_finite():
-        errors.append((line, f"{name} “{text}” is not a number."))
         return None
-    return value
+    return value if value.is_finite() else None
 
 
 class _Memo:
-    """What a file repeats row after row, worked out once per import: battery facts, times, SG and temperatures."""
+    """What a file repeats row after row, worked out once per import: battery facts, times, SG and numbers."""
 
     def __init__(self, batteries):
         self.batteries = batteries
@@ -65,6 +67,8 @@ class _Memo:
         self.times = {}
         self.sgs = {}
         self.decimals = {}
+        self.cells = {}
+        self.positions = {}
 
     def battery_facts(self, battery):
         facts = self.facts.get(battery.pk)
@@ -90,137 +94,217 @@ class _Memo:
 
     def sg(self, text):
         """(SG to 0.001, None) or (None, the parser's message)."""
-        if text not in self.sgs:
+        found = self.sgs.get(text)
+        if found is None:
             try:
-                self.sgs[text] = (Decimal(str(chemistry.parse_sg(text))).quantize(Decimal("0.001")), None)
+                found = (Decimal(str(chemistry.parse_sg(text))).quantize(Decimal("0.001")), None)
             except ValueError as exc:
-                self.sgs[text] = (None, str(exc))
-        return self.sgs[text]
+                found = (None, str(exc))
+            self.sgs[text] = found
+        return found
 
-    def decimal(self, text, name, line, errors):
-        value = self.decimals.get(text)
-        if value is None:
-            value = _decimal(text, name, line, errors)
-            if value is not None:
-                self.decimals[text] = value
-        return value
+    def decimal(self, text):
+        if text not in self.decimals:
+            self.decimals[text] = _decimal(text)
+        return self.decimals[text]
+
+    def position(self, text):
+        """A cell number as written -> the number, or None unless it is a whole number from 1."""
+        if text not in self.positions:
+            cleaned = text.strip()
+            self.positions[text] = int(cleaned) if cleaned.isdecimal() and int(cleaned) >= 1 else None
+        return self.positions[text]
+
+    def clean_cells(self, battery):
+        """{(sg, temp, volts, level) as written: clean_cell's answer} for batteries of this one's profile."""
+        return self.cells.setdefault(battery.profile_id, {})
+
+    def clean_cell(self, battery, facts, texts):
+        """A good row's cell values for a battery of this profile: (sg, temp, volts, level, corrected SG,
+        the row's COPY text after its position); None if the texts have anything wrong (the caller then
+        checks the row in full for its messages). Callers keep the answer per distinct texts."""
+        sg_text, temp_text, volts_text, level = (text.strip() for text in texts)
+        messages, values = _check_cell("", facts, "1", sg_text, temp_text, volts_text, level.lower(), self, False)
+        if messages:
+            return None
+        sg, temp, volts, level = values
+        corrected = _q(corrected_cell_sg(battery.profile, sg, temp, False), SG_PLACES)
+        text = _copy_text
+        copy_tail = f"{text(sg)}\t{text(corrected)}\t{text(temp, TEMP_PLACES)}\t{text(volts, VOLTS_PLACES)}\t{level}\n"
+        return sg, temp, volts, level, corrected, copy_tail
 
 
-def _parse_row(line, row, memo, errors):
-    """Validate one row; return (group key, battery, CellEntry) or None."""
-    before = len(errors)
-    serial = (row.get("serial") or "").strip()
+def _check_group(serial, taken_text, situation_text, raw_situation, memo):
+    """The columns every row of one inspection shares, checked once: (messages, battery, facts, taken_at, situation)."""
+    messages = []
     battery = memo.batteries.get(serial)
     if not serial:
-        errors.append((line, "serial is empty."))
+        messages.append("serial is empty.")
     elif battery is None:
-        errors.append((line, f"no battery with serial “{serial}” at your sites."))
+        messages.append(f"no battery with serial “{serial}” at your sites.")
     facts = memo.battery_facts(battery) if battery is not None else None
-    taken_text = (row.get("taken_at") or "").strip()
     taken_at = memo.taken_at(taken_text, battery)
     if taken_at is None:
-        errors.append((line, f"taken_at “{taken_text}” is not a date and time like 2026-03-01T07:30."))
+        messages.append(f"taken_at “{taken_text}” is not a date and time like 2026-03-01T07:30.")
     elif taken_at > memo.latest_allowed:
-        errors.append((line, f"taken_at {taken_text} is in the future."))
-    situation = SITUATIONS.get((row.get("situation") or "").strip().lower())
+        messages.append(f"taken_at {taken_text} is in the future.")
+    situation = SITUATIONS.get(situation_text.lower())
     if situation is None:
-        errors.append((line, f"situation “{row.get('situation', '')}” is not one of {', '.join(Inspection.Situation.values)}."))
-    cell_text = (row.get("cell") or "").strip()
-    position = int(cell_text) if cell_text.isdigit() else None
+        messages.append(f"situation “{raw_situation}” is not one of {', '.join(Inspection.Situation.values)}.")
+    return messages, battery, facts, taken_at, situation
+
+
+def _check_cell(serial, facts, cell_text, sg_text, temp_text, volts_text, level, memo, shared_faults):
+    """One row's own columns: (messages, (sg, temp, volts, level) or None). shared_faults: the row's inspection
+    columns are bad, so a missing value is not worth its own message."""
+    messages = []
+    position = int(cell_text) if cell_text.isdecimal() else None
     if position is None:
-        errors.append((line, f"cell “{cell_text}” is not a whole number."))
+        messages.append(f"cell “{cell_text}” is not a whole number.")
     elif facts is not None and not 1 <= position <= facts[0]:
-        errors.append((line, f"cell {position} does not exist: {serial} has {facts[0]}."))
+        messages.append(f"cell {position} does not exist: {serial} has {facts[0]}.")
     sg = None
-    sg_text = (row.get("sg") or "").strip()
     if sg_text:
         sg, problem = memo.sg(sg_text)
         if problem:
-            errors.append((line, f"sg: {problem}"))
+            messages.append(f"sg: {problem}")
         elif not SG_LOW <= sg <= SG_HIGH:
-            errors.append((line, f"sg {sg} is outside 1.000–1.350."))
+            messages.append(f"sg {sg} is outside 1.000–1.350.")
         elif facts is not None and not facts[1]:
-            errors.append((line, f"sg given for {serial}, a sealed battery: it cannot be read with a hydrometer."))
+            messages.append(f"sg given for {serial}, a sealed battery: it cannot be read with a hydrometer.")
     temp = None
-    temp_text = (row.get("temp") or "").strip()
     if temp_text:
-        temp = memo.decimal(temp_text, "temp", line, errors)
-        if temp is not None and not TEMP_LOW_C <= temp <= TEMP_HIGH_C:
-            errors.append((line, f"temp {temp} °C is outside −30 to 70 °C."))
+        temp = memo.decimal(temp_text)
+        if temp is None:
+            messages.append(f"temp “{temp_text}” is not a number.")
+        elif not TEMP_LOW_C <= temp <= TEMP_HIGH_C:
+            messages.append(f"temp {temp} °C is outside −30 to 70 °C.")
     volts = None
-    volts_text = (row.get("volts") or "").strip()
     if volts_text:
-        volts = memo.decimal(volts_text, "volts", line, errors)
-        if volts is not None and facts is not None:
+        volts = memo.decimal(volts_text)
+        if volts is None:
+            messages.append(f"volts “{volts_text}” is not a number.")
+        elif facts is not None:
             _, _, cells, low, high, low_d, high_d = facts
             if not low_d <= volts <= high_d:
-                errors.append((line, f"volts {volts} is not plausible for {cells} cell(s) ({low:.2f}–{high:.2f} V)."))
-    if sg is None and volts is None and not errors[before:]:
-        errors.append((line, "neither sg nor volts given."))
-    if sg is not None and temp is None and not errors[before:]:
-        errors.append((line, "sg given without temp (°C)."))
-    level = (row.get("level") or "").strip().lower()
+                messages.append(f"volts {volts} is not plausible for {cells} cell(s) ({low:.2f}–{high:.2f} V).")
+    if sg is None and volts is None and not messages and not shared_faults:
+        messages.append("neither sg nor volts given.")
+    if sg is not None and temp is None and not messages and not shared_faults:
+        messages.append("sg given without temp (°C).")
     if level not in ("", "ok", "low"):
-        errors.append((line, f"level “{level}” must be ok, low or empty."))
-    if len(errors) > before:
+        messages.append(f"level “{level}” must be ok, low or empty.")
+    if messages or shared_faults:
+        return messages, None
+    return messages, (sg, temp, volts, level)
+
+
+def _read_rows(text, report):
+    """(column index by name, rows) with empty lines skipped, or None after reporting why the file can't be read."""
+    reader = csv.reader(io.StringIO(text, newline=""))  # newline="": also old-Mac \r line endings
+    try:
+        header = next(reader, None) or []
+        rows = [row for row in reader if row]
+    except csv.Error as exc:
+        report.errors.append((reader.line_num or 1, f"the file cannot be read as CSV ({exc}). Save it as CSV (UTF-8) and try again."))
         return None
-    entry = CellEntry(position=position, sg=sg, volts=volts, level=level, temp_c=temp)
-    return (serial, taken_at, situation), battery, entry
+    index = {name: i for i, name in enumerate(header)}  # a repeated column: the last one counts
+    missing = [c for c in ("serial", "taken_at", "situation", "cell") if c not in index]
+    if missing:
+        report.errors.append((1, f"missing column(s): {', '.join(missing)}. Expected: {', '.join(COLUMNS)}."))
+        return None
+    return index, rows
 
 
 def import_readings(text, *, user, batteries, good_rows_only=False, dry_run=False):
-    """Validate every row, then store all inspections in one transaction (or nothing)."""
+    """Validate every row, then store all inspections in one transaction (or nothing).
+
+    Rows are grouped by their serial, taken_at and situation as written; each group's shared columns
+    are checked once, each row's own columns per row. Groups whose columns say the same thing in
+    different words ("charged" and "Just charged") are one inspection."""
     report = ImportReport(dry_run=dry_run)
-    reader = csv.DictReader(io.StringIO(text, newline=""))  # newline="": also old-Mac \r line endings
-    try:
-        rows = list(reader)
-    except csv.Error as exc:
-        report.errors.append((reader.line_num or 1, f"the file cannot be read as CSV ({exc}). Save it as CSV (UTF-8) and try again."))
+    read = _read_rows(text, report)
+    if read is None:
         return report
-    missing = [c for c in ("serial", "taken_at", "situation", "cell") if c not in (reader.fieldnames or [])]
-    if missing:
-        report.errors.append((1, f"missing column(s): {', '.join(missing)}. Expected: {', '.join(COLUMNS)}."))
-        return report
-    memo = _Memo({b.serial: b for b in batteries.select_related("profile", "site")})
-    groups = defaultdict(list)  # the row's own (serial, taken_at, situation) text -> [(line, entry)]
-    group_battery = {}  # same key -> ((serial, aware taken_at, situation), battery)
-    bad_groups = set()
+    index, rows = read
+    report.rows_read = len(rows)
+    columns = [index.get(c) for c in COLUMNS]
+    if None in columns:  # an optional column left out: read it as empty
+        rows = [[row[i] if i is not None and i < len(row) else "" for i in columns] for row in rows]
+        columns = list(range(len(COLUMNS)))
+    width = max(columns) + 1
+    padding = [""] * width
+    col_serial, col_taken, col_situation, col_cell = columns[:4]
+    cell_texts = itemgetter(*columns[4:])  # sg, temp, volts, level as written
+
+    raw_groups = defaultdict(list)  # (serial, taken_at, situation) as written -> [(line, row)]
     for line, row in enumerate(rows, start=2):
-        report.rows_read += 1
-        raw_key = tuple((row.get(c) or "").strip() for c in ("serial", "taken_at", "situation"))
-        parsed = _parse_row(line, row, memo, report.errors)
-        if parsed is None:
-            bad_groups.add(raw_key)
+        if len(row) < width:
+            row = row + padding[len(row):]
+        raw_groups[(row[col_serial].strip(), row[col_taken].strip(), row[col_situation].strip())].append((line, row))
+    serials = {serial for serial, _, _ in raw_groups}
+    memo = _Memo({b.serial: b for b in batteries.filter(serial__in=serials).select_related("profile", "site")})
+
+    errors, positions = report.errors, memo.positions
+    groups = {}  # (serial, aware taken_at, situation) -> [(line, position, clean cell values)]
+    group_battery, bad_groups = {}, set()
+    for (serial, taken_text, situation_text), members in raw_groups.items():
+        raw_situation = members[0][1][col_situation]
+        shared, battery, facts, taken_at, situation = _check_group(serial, taken_text, situation_text, raw_situation, memo)
+        key = (serial, taken_at, situation)
+        cells = []
+        known = memo.clean_cells(battery) if not shared else {}
+        for line, row in members:
+            position = positions.get(row[col_cell], _UNSEEN)
+            if position is _UNSEEN:
+                position = memo.position(row[col_cell])
+            if not shared and position is not None and position <= facts[0]:
+                texts = cell_texts(row)
+                clean = known.get(texts, _UNSEEN)
+                if clean is _UNSEEN:
+                    clean = known[texts] = memo.clean_cell(battery, facts, texts)
+                if clean is not None:
+                    cells.append((line, position, clean))
+                    continue
+            for message in shared:
+                errors.append((line, message))
+            sg_text, temp_text, volts_text, level_text = (text.strip() for text in cell_texts(row))
+            messages, _values = _check_cell(serial, facts, row[col_cell].strip(), sg_text, temp_text, volts_text,
+                                            level_text.lower(), memo, bool(shared))
+            for message in messages:
+                errors.append((line, message))
+            bad_groups.add(key)
+        if shared:
             continue
-        key, battery, entry = parsed
-        groups[raw_key].append((line, entry))
-        group_battery[raw_key] = (key, battery)
-    for raw_key, rows in groups.items():
-        if raw_key in bad_groups:
+        groups.setdefault(key, []).extend(cells)
+        group_battery[key] = battery
+    for key, members in groups.items():
+        if key in bad_groups:
             continue
-        (serial, taken_at, _), battery = group_battery[raw_key]
-        positions = [entry.position for _, entry in rows]
-        first_line = rows[0][0]
+        serial, taken_at, _ = key
+        battery = group_battery[key]
+        members.sort(key=lambda member: member[0])
+        positions = [position for _, position, _ in members]
+        first_line = members[0][0]
         if len(set(positions)) != len(positions):
-            report.errors.append((first_line, f"{serial} at {taken_at:%Y-%m-%d %H:%M}: a cell appears twice."))
-            bad_groups.add(raw_key)
-        elif len(rows) not in (1, battery.profile.positions):
-            report.errors.append((
+            errors.append((first_line, f"{serial} at {taken_at:%Y-%m-%d %H:%M}: a cell appears twice."))
+            bad_groups.add(key)
+        elif len(members) not in (1, battery.profile.positions):
+            errors.append((
                 first_line,
-                f"{serial} at {taken_at:%Y-%m-%d %H:%M}: {len(rows)} cells read; the profile has "
+                f"{serial} at {taken_at:%Y-%m-%d %H:%M}: {len(members)} cells read; the profile has "
                 f"{battery.profile.positions} (give all of them, or one for a pilot-cell reading).",
             ))
-            bad_groups.add(raw_key)
-    report.errors.sort()
-    if report.errors and not good_rows_only:
+            bad_groups.add(key)
+    errors.sort()
+    if errors and not good_rows_only:
         return report
-    good = {group_battery[raw][0]: rows for raw, rows in groups.items() if raw not in bad_groups}
-    batteries_by_key = {group_battery[raw][0]: group_battery[raw][1] for raw in groups}
+    good = {key: members for key, members in groups.items() if key not in bad_groups}
     if dry_run:
         report.inspections_created = len(good)
-        report.cells_created = sum(len(rows) for rows in good.values())
+        report.cells_created = sum(len(members) for members in good.values())
         return report
-    _store(good, batteries_by_key, user, report)
+    _store(good, group_battery, user, report)
     return report
 
 
@@ -233,41 +317,31 @@ def _client_uuid(key):
 _Cell = namedtuple("_Cell", "position sg sg_corrected temp_c volts level")
 
 
-def _cells(inspection, profile, entries, corrected_cache):
-    """The cells of one inspection with their corrected SG, as services.build_cells computes them."""
-    cells = []
-    for entry in entries:
-        temp = entry.temp_c if entry.temp_c is not None else inspection.temp_c
-        key = (profile.pk, entry.sg, temp, inspection.hydrometer_compensated)
-        if key not in corrected_cache:
-            corrected_cache[key] = _q(corrected_cell_sg(profile, entry.sg, temp, inspection.hydrometer_compensated), SG_PLACES)
-        cells.append(_Cell(entry.position, entry.sg, corrected_cache[key], entry.temp_c, entry.volts, entry.level))
-    return cells
-
-
 def _store(groups, group_battery, user, report):
     uuids = {key: _client_uuid(key) for key in groups}
     stored = set(Inspection.objects.filter(client_uuid__in=uuids.values()).values_list("client_uuid", flat=True))
-    inspections, cells_by_inspection, corrected_cache = [], [], {}
-    for key, rows in groups.items():
+    inspections, cells_by_inspection = [], []
+    for key, members in groups.items():
         if uuids[key] in stored:
             report.inspections_already_stored += 1
             continue
         serial, taken_at, situation = key
-        temps = [entry.temp_c for _, entry in rows if entry.temp_c is not None]
+        battery = group_battery[key]
+        members = sorted(members, key=lambda member: member[1])
+        temps = [clean[1] for _, _, clean in members if clean[1] is not None]
         inspection = Inspection(
-            battery=group_battery[key], taken_by=user, taken_at=taken_at, situation=situation,
-            scope=Inspection.Scope.PILOT if len(rows) == 1 and group_battery[key].profile.positions > 1 else Inspection.Scope.ALL_CELLS,
+            battery=battery, taken_by=user, taken_at=taken_at, situation=situation,
+            scope=Inspection.Scope.PILOT if len(members) == 1 and battery.profile.positions > 1 else Inspection.Scope.ALL_CELLS,
             temp_c=(sum(temps) / len(temps)).quantize(Decimal("0.1")) if temps else None,
             client_uuid=uuids[key], notes="Imported from CSV",
         )
-        entries = sorted((entry for _, entry in rows), key=lambda e: e.position)
-        cells = _cells(inspection, group_battery[key].profile, entries, corrected_cache)
-        summarise(inspection, cells)
+        cells = [(position, clean) for _, position, clean in members]
+        summarise(inspection, [_Cell(position, sg, corrected, temp, volts, level)
+                               for position, (sg, temp, volts, level, corrected, _copy) in cells])
         inspections.append(inspection)
         cells_by_inspection.append(cells)
     with transaction.atomic():
-        Inspection.objects.bulk_create(inspections, batch_size=500)
+        _insert_inspections(inspections)
         _insert_cells(zip(inspections, cells_by_inspection))
         battery_ids = sorted({inspection.battery_id for inspection in inspections})
         transaction.on_commit(lambda: signals.inspections_imported.send(Inspection, battery_ids=battery_ids))
@@ -276,34 +350,85 @@ def _store(groups, group_battery, user, report):
     report.imported = True
 
 
+def _copy_text(value, places=None):
+    """A value in PostgreSQL COPY's text format, rounded as Django rounds a DecimalField on save."""
+    if value is None:
+        return "\\N"
+    if places is not None:
+        value = value.quantize(places)
+    return str(value)
+
+
+def _places(model, name):
+    return Decimal(1).scaleb(-model._meta.get_field(name).decimal_places)
+
+
+TEMP_PLACES, VOLTS_PLACES = _places(CellReading, "temp_c"), _places(CellReading, "volts")
+_COPY_ESCAPES = str.maketrans({"\\": "\\\\", "\t": "\\t", "\n": "\\n", "\r": "\\r"})
+
+
+def _copy_field(field):
+    """How one model field's value is written in COPY's text format."""
+    if isinstance(field, models.BooleanField):
+        return lambda value: "t" if value else "f"
+    if isinstance(field, models.DateTimeField):
+        return lambda value: value.isoformat()
+    if isinstance(field, models.DecimalField):
+        places = _places(field.model, field.name)
+        return lambda value: str(value.quantize(places))
+    if isinstance(field, (models.CharField, models.TextField)):
+        return lambda value: value.translate(_COPY_ESCAPES)
+    return str  # whole numbers, keys and UUIDs
+
+
+def _insert_inspections(inspections):
+    """Store the inspections and give each its primary key; on PostgreSQL with COPY (ids drawn from the
+    table's sequence first), elsewhere with bulk_create."""
+    if connection.vendor != "postgresql" or not inspections:
+        Inspection.objects.bulk_create(inspections, batch_size=500)
+        return
+    table = Inspection._meta.db_table
+    fields = Inspection._meta.concrete_fields
+    writers = [(f.attname, _copy_field(f)) for f in fields]
+    now = timezone.now()
+    with connection.cursor() as cursor:
+        cursor.execute(
+            "SELECT nextval(pg_get_serial_sequence(%s, 'id')) FROM generate_series(1, %s)", [table, len(inspections)]
+        )
+        lines = []
+        for inspection, (pk,) in zip(inspections, cursor.fetchall()):
+            inspection.pk = pk
+            inspection.recorded_at = now
+            values = [getattr(inspection, attname) for attname, _ in writers]
+            lines.append("\t".join("\\N" if value is None else write(value)
+                                   for value, (_, write) in zip(values, writers)) + "\n")
+        cursor.copy_expert(f"COPY {table} ({', '.join(f.column for f in fields)}) FROM STDIN", io.StringIO("".join(lines)))
+    for inspection in inspections:
+        inspection._state.adding = False
+        inspection._state.db = connection.alias
+
+
 def _insert_cells(inspections_and_cells):
     """Store cell readings; on PostgreSQL with COPY, which is several times faster than INSERT for a big file."""
     if connection.vendor != "postgresql":
         CellReading.objects.bulk_create(
-            [CellReading(inspection=inspection, **cell._asdict()) for inspection, cells in inspections_and_cells for cell in cells],
+            [
+                CellReading(inspection=inspection, position=position, sg=sg, sg_corrected=corrected, temp_c=temp,
+                            volts=volts, level=level)
+                for inspection, cells in inspections_and_cells
+                for position, (sg, temp, volts, level, corrected, _copy) in cells
+            ],
             batch_size=2000,
         )
         return
-
-    # Rounded as Django rounds a DecimalField on save (half to even, to the field's places).
-    temp_places = Decimal(1).scaleb(-CellReading._meta.get_field("temp_c").decimal_places)
-    volts_places = Decimal(1).scaleb(-CellReading._meta.get_field("volts").decimal_places)
-
-    def text(value, places=None):
-        if value is None:
-            return "\\N"
-        return str(value.quantize(places) if places is not None else value)
-
-    buffer = io.StringIO()
+    lines = []
     for inspection, cells in inspections_and_cells:
-        for c in cells:
-            buffer.write(f"{inspection.pk}\t{c.position}\t{text(c.sg)}\t{text(c.sg_corrected)}\t"
-                         f"{text(c.temp_c, temp_places)}\t{text(c.volts, volts_places)}\t{c.level}\n")
-    buffer.seek(0)
+        prefix = f"{inspection.pk}\t"
+        lines.extend(f"{prefix}{position}\t{clean[5]}" for position, clean in cells)
     with connection.cursor() as cursor:
         cursor.copy_expert(
             f"COPY {CellReading._meta.db_table} (inspection_id, position, sg, sg_corrected, temp_c, volts, level) FROM STDIN",
-            buffer,
+            io.StringIO("".join(lines)),
         )
 
 

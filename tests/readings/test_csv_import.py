@@ -118,3 +118,38 @@ def test_a_non_finite_number_is_reported_not_crashed_on(battery, crew, bad):
     report = run(HEADER + inspection_rows().replace(",25,", f",{bad},", 1), crew)
     assert report.errors == [(2, f"temp “{bad}” is not a number.")]
     assert Inspection.objects.count() == 0
+
+
+def test_rows_that_name_the_same_reading_in_other_words_are_one_inspection(battery, crew):
+    # "Just charged" is the label of "charged", and 06:00 written with its offset is the same moment
+    # (the test site is in London, on UTC in November): twelve rows each way are one 24-cell reading, none of them dropped.
+    text = HEADER + "".join(
+        f"TW-001,{'2026-11-02T06:00' if n % 2 else '2026-11-02T06:00+00:00'},"
+        f"{'charged' if n % 2 else 'Just charged'},{n},1.280,25,,ok\n"
+        for n in range(1, 25)
+    )
+    report = run(text, crew)
+    assert report.ok and report.inspections_created == 1 and report.cells_created == 24
+    assert list(Inspection.objects.get().cells.order_by("position").values_list("position", flat=True)) == list(range(1, 25))
+
+
+def test_a_short_row_counts_its_missing_columns_as_empty(battery, crew):
+    report = run(HEADER + "TW-001,2026-11-02T06:00,charged,1,1.280\n", crew)
+    assert report.errors == [(2, "sg given without temp (°C).")]
+
+
+def test_notes_and_every_summary_field_arrive_as_computed(battery, crew):
+    # Stored with COPY on PostgreSQL and bulk_create elsewhere: both give the same row.
+    run(HEADER + inspection_rows(sg="1.280", temp="30"), crew)
+    stored = Inspection.objects.get()
+    # 1.280 at 30 °C corrects to 1.280 + 0.0007 × 5 = 1.2835 -> 1.284 (the profile's 25 °C reference).
+    assert (stored.sg_mean, stored.sg_spread, stored.temp_c) == (Decimal("1.284"), Decimal("0.000"), Decimal("30.0"))
+    assert stored.notes == "Imported from CSV" and stored.taken_by == crew and stored.is_current
+    assert stored.recorded_at is not None and stored.deleted_at is None and stored.supersedes is None
+    assert stored.cells.count() == 24
+
+
+def test_a_superscript_digit_is_not_a_cell_number(battery, crew):
+    # str.isdigit() accepts "²" but int() refuses it: the check must not crash on it.
+    report = run(HEADER + "TW-001,2026-11-02T06:00,charged,²,1.280,25,,ok\n", crew)
+    assert report.errors == [(2, "cell “²” is not a whole number.")]
