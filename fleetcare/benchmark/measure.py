@@ -23,6 +23,9 @@ from fleetcare.readings import csv_io
 from fleetcare.readings.models import Inspection
 
 
+IMPORT_RUNS = 3  # files imported one after the other; the median run is reported
+
+
 class NotAvailable(Exception):
     """The feature this part measures does not exist (yet)."""
 
@@ -270,7 +273,8 @@ def csv_import(fleet, batteries=100, readings_each=20):
     """CSV import throughput (cell readings per second) against PostgreSQL COPY of the same rows.
 
     COPY writes the same inspections (with their summary) and the same cell rows in one transaction,
-    then rolls back; the import runs the real code path (parse, check, compute, store, on-commit signals).
+    then rolls back; the import runs the real code path (parse, check, compute, store, on-commit
+    findings pass) on IMPORT_RUNS files of the same shape at new times, and the median run counts.
     """
     chosen = list(Battery.objects.select_related("profile", "site").order_by("serial")[:batteries])
     text, rows = _import_rows(fleet, chosen, readings_each)
@@ -310,20 +314,29 @@ def csv_import(fleet, batteries=100, readings_each=20):
             transaction.set_rollback(True)
 
     copy_ms = median_ms(copy, 2)
-    # The import commits on its own; wrapped in one more atomic block, the commit and the on-commit
-    # receivers (findings detection for each battery imported) run at its end and are timed apart.
-    started = time.perf_counter()
-    with transaction.atomic():
-        report = csv_io.import_readings(text, user=fleet.crew, batteries=Battery.objects.all())
-        stored = time.perf_counter()
-    finished = time.perf_counter()
-    import_ms = (finished - started) * 1000
-    store_ms = (stored - started) * 1000
-    if not report.imported or report.errors:
-        raise AssertionError(f"the generated CSV did not import: {report.errors[:3]}")
+    # COPY's rolled-back rows stay behind as dead index entries until vacuumed; left there, they cost
+    # the import's findings queries tens of milliseconds of planning (PostgreSQL probes the ends of
+    # the taken_at indexes). VACUUM puts the database back as it was before the reference ran.
+    with connection.cursor() as cursor:
+        for model in (Inspection, csv_io.CellReading):
+            cursor.execute(f"VACUUM {model._meta.db_table}")
+    runs = []
+    for attempt in range(IMPORT_RUNS):
+        text, _rows = _import_rows(fleet, chosen, readings_each, minute=attempt + 1)  # new readings each time
+        # The import commits on its own; wrapped in one more atomic block, the commit and the on-commit
+        # receivers (one findings pass for the imported batteries) run at its end and are timed apart.
+        started = time.perf_counter()
+        with transaction.atomic():
+            report = csv_io.import_readings(text, user=fleet.crew, batteries=Battery.objects.all())
+            stored = time.perf_counter()
+        finished = time.perf_counter()
+        if not report.imported or report.errors or report.inspections_created != len(ids):
+            raise AssertionError(f"the generated CSV did not import: {report.errors[:3]}")
+        runs.append(((finished - started) * 1000, (stored - started) * 1000))
+    import_ms, store_ms = sorted(runs)[len(runs) // 2]
     cells = len(rows)
     return {
-        "cells": cells, "inspections": len(ids),
+        "cells": cells, "inspections": len(ids), "import_runs_ms": [round(total) for total, _ in runs],
         "import_ms": import_ms, "import_cells_per_s": cells / import_ms * 1000,
         "copy_ms": copy_ms, "copy_cells_per_s": cells / copy_ms * 1000,
         "ratio": (cells / import_ms) / (cells / copy_ms),
