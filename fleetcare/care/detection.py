@@ -10,7 +10,7 @@ from collections import defaultdict
 from dataclasses import dataclass, field
 from datetime import timedelta
 
-from django.db import transaction
+from django.db import connection, transaction
 from django.db.models import Count, Exists, F, Max, OuterRef
 from django.db.models.expressions import Window
 from django.db.models.functions import RowNumber
@@ -39,9 +39,43 @@ def _ranked(queryset, depth, partition):
     ).filter(rank__lte=depth)
 
 
-def _with_cells(ranked):
-    """Readings with their cells (two queries), newest first per battery."""
-    rows = list(ranked.order_by("battery_id", "-taken_at", "-pk").values_list(*rules.Reading.FIELDS))
+# On PostgreSQL, each battery's latest readings are read with a LATERAL join: a few index entries per
+# battery instead of ranking every reading of its history with a window function (which SQLite keeps).
+_LATEST_SQL = """
+    SELECT {columns} FROM unnest(%(ids)s::bigint[]) AS b(id)
+     CROSS JOIN LATERAL (
+        SELECT * FROM {table} i
+         WHERE i.battery_id = b.id AND i.is_current AND i.deleted_at IS NULL AND i.taken_at <= %(now)s
+           AND i.scope = %(scope)s AND (%(any_situation)s OR i.situation = ANY(%(situations)s))
+         ORDER BY i.taken_at DESC, i.id DESC LIMIT %(depth)s) AS i
+     ORDER BY i.battery_id, i.taken_at DESC, i.id DESC
+"""
+
+
+def _latest_all_cells(battery_ids, depth, now, situations=None):
+    """Rows (Reading.FIELDS) of each battery's `depth` latest current all-cell inspections, newest first,
+    optionally only those in `situations`."""
+    if not battery_ids:
+        return []
+    if connection.vendor == "postgresql":
+        columns = ", ".join(f"i.{'id' if name == 'pk' else name}" for name in rules.Reading.FIELDS)
+        with connection.cursor() as cursor:
+            cursor.execute(_LATEST_SQL.format(columns=columns, table=Inspection._meta.db_table), {
+                "ids": list(battery_ids), "now": now, "scope": str(Inspection.Scope.ALL_CELLS), "depth": depth,
+                "any_situation": situations is None, "situations": [str(s) for s in situations or ()],
+            })
+            return cursor.fetchall()
+    readings = Inspection.objects.current().filter(
+        battery_id__in=battery_ids, taken_at__lte=now, scope=Inspection.Scope.ALL_CELLS
+    )
+    if situations is not None:
+        readings = readings.filter(situation__in=situations)
+    ranked = _ranked(readings, depth, [F("battery_id")])
+    return list(ranked.order_by("battery_id", "-taken_at", "-pk").values_list(*rules.Reading.FIELDS))
+
+
+def _with_cells(rows):
+    """Readings with their cells (one more query), in the order of the rows."""
     cells = defaultdict(list)
     for inspection_id, *values in (
         CellReading.objects.filter(inspection_id__in=[row[0] for row in rows])
@@ -70,15 +104,13 @@ def load(batteries, now):
     since = now - timedelta(days=lookback_days + 1)
     current = Inspection.objects.current().filter(battery_id__in=ids, taken_at__lte=now)
 
-    post_charge = _ranked(current.post_charge().filter(scope=Inspection.Scope.ALL_CELLS), depth, [F("battery_id")])
+    post_charge = _latest_all_cells(list(data), depth, now, situations=Inspection.POST_CHARGE)
     for reading in _with_cells(post_charge):
         data[reading.battery_id].post_charge.append(reading)
 
-    block_batteries = [b.pk for b in battery_list if b.profile.reads_by_block and b.profile.monoblocks > 1]
-    if block_batteries:
-        blocks = _ranked(current.filter(scope=Inspection.Scope.ALL_CELLS, battery__profile__technology__in=["agm", "gel"]),
-                         BLOCK_READINGS, [F("battery_id")])
-        for reading in _with_cells(blocks):
+    if any(b.profile.reads_by_block and b.profile.monoblocks > 1 for b in battery_list):
+        sealed = [b.pk for b in battery_list if b.profile.technology in ("agm", "gel")]
+        for reading in _with_cells(_latest_all_cells(sealed, BLOCK_READINGS, now)):
             data[reading.battery_id].block_readings.append(reading)
 
     low = CellReading.objects.filter(inspection=OuterRef("pk"), level=CellReading.Level.LOW)

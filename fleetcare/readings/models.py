@@ -73,14 +73,11 @@ class Inspection(models.Model):
         ordering = ["-taken_at"]
         indexes = [
             models.Index(fields=["battery", "-taken_at"], name="inspection_battery_time"),
-            # The latest post-charge all-cell reading of each battery (overview, findings): a short index
-            # scan instead of reading a battery's whole history and sorting it.
+            # Each battery's readings after charge, newest first (overview, findings, budget): the latest
+            # of them, or their count, without reading the battery's whole history.
             models.Index(
                 fields=["battery", "-taken_at"],
-                condition=models.Q(
-                    is_current=True, deleted_at__isnull=True, situation__in=["charged", "equalized"], scope="all",
-                    sg_spread__isnull=False,
-                ),
+                condition=models.Q(is_current=True, deleted_at__isnull=True, situation__in=["charged", "equalized"]),
                 name="inspection_post_charge_time",
             ),
             # Readings low enough to count as deep discharge (the default limit is 20 %; a site may raise it
