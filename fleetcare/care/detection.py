@@ -114,13 +114,20 @@ def load(batteries, now):
             data[reading.battery_id].block_readings.append(reading)
 
     low = CellReading.objects.filter(inspection=OuterRef("pk"), level=CellReading.Level.LOW)
-    recent = current.filter(taken_at__gte=since).annotate(has_low_level=Exists(low)).order_by("-taken_at", "-pk")
+    # Per battery, newest first: the order of the (battery, taken_at) index, so PostgreSQL reads each
+    # battery's window from it rather than every battery's readings in the window.
+    recent = (
+        Inspection.objects.current()
+        .filter(battery_id__in=list(data), taken_at__lte=now, taken_at__gte=since)
+        .annotate(has_low_level=Exists(low))
+        .order_by("battery_id", "-taken_at", "-pk")
+    )
     for row in recent.values_list(*rules.Reading.FIELDS, "has_low_level"):
         reading = rules.Reading(*row)
         data[reading.battery_id].recent.append(reading)
 
     stats = (Inspection.objects.current().post_charge().filter(battery_id__in=ids, taken_at__lte=now)
-             .order_by().values("battery_id").annotate(last=Max("taken_at"), n=Count("id")))
+             .order_by().values("battery_id").annotate(last=Max("taken_at"), n=Count("*")))
     for row in stats:
         data[row["battery_id"]].last_charge_at = row["last"]
         data[row["battery_id"]].charges_logged = row["n"]

@@ -7,7 +7,7 @@ import csv
 import datetime as dt
 import io
 import uuid
-from collections import defaultdict, namedtuple
+from collections import namedtuple
 from dataclasses import dataclass, field
 from operator import itemgetter
 from decimal import Decimal, InvalidOperation
@@ -237,47 +237,45 @@ def import_readings(text, *, user, batteries, good_rows_only=False, dry_run=Fals
     col_serial, col_taken, col_situation, col_cell = columns[:4]
     cell_texts = itemgetter(*columns[4:])  # sg, temp, volts, level as written
 
-    raw_groups = defaultdict(list)  # (serial, taken_at, situation) as written -> [(line, row)]
-    for line, row in enumerate(rows, start=2):
-        if len(row) < width:
-            row = row + padding[len(row):]
-        raw_groups[(row[col_serial].strip(), row[col_taken].strip(), row[col_situation].strip())].append((line, row))
-    serials = {serial for serial, _, _ in raw_groups}
+    serials = {row[col_serial].strip() for row in rows if len(row) > col_serial}
     memo = _Memo({b.serial: b for b in batteries.filter(serial__in=serials).select_related("profile", "site")})
 
     errors, positions = report.errors, memo.positions
     groups = {}  # (serial, aware taken_at, situation) -> [(line, position, clean cell values)]
     group_battery, bad_groups = {}, set()
-    for (serial, taken_text, situation_text), members in raw_groups.items():
-        raw_situation = members[0][1][col_situation]
-        shared, battery, facts, taken_at, situation = _check_group(serial, taken_text, situation_text, raw_situation, memo)
-        key = (serial, taken_at, situation)
-        cells = []
-        known = memo.clean_cells(battery) if not shared else {}
-        for line, row in members:
-            position = positions.get(row[col_cell], _UNSEEN)
-            if position is _UNSEEN:
-                position = memo.position(row[col_cell])
-            if not shared and position is not None and position <= facts[0]:
-                texts = cell_texts(row)
-                clean = known.get(texts, _UNSEEN)
-                if clean is _UNSEEN:
-                    clean = known[texts] = memo.clean_cell(battery, facts, texts)
-                if clean is not None:
-                    cells.append((line, position, clean))
-                    continue
-            for message in shared:
-                errors.append((line, message))
-            sg_text, temp_text, volts_text, level_text = (text.strip() for text in cell_texts(row))
-            messages, _values = _check_cell(serial, facts, row[col_cell].strip(), sg_text, temp_text, volts_text,
-                                            level_text.lower(), memo, bool(shared))
-            for message in messages:
-                errors.append((line, message))
-            bad_groups.add(key)
-        if shared:
-            continue
-        groups.setdefault(key, []).extend(cells)
-        group_battery[key] = battery
+    seen = {}  # (serial, taken_at, situation) as written -> what _check_group found, checked once
+    for line, row in enumerate(rows, start=2):
+        if len(row) < width:
+            row = row + padding[len(row):]
+        raw = (row[col_serial].strip(), row[col_taken].strip(), row[col_situation].strip())
+        group = seen.get(raw)
+        if group is None:
+            shared, battery, facts, taken_at, situation = _check_group(*raw, row[col_situation], memo)
+            key = (raw[0], taken_at, situation)
+            if not shared:
+                group_battery[key] = battery
+            cells = groups.setdefault(key, []) if not shared else []
+            group = seen[raw] = (shared, battery, facts, key, memo.clean_cells(battery) if not shared else {}, cells)
+        shared, battery, facts, key, known, cells = group
+        position = positions.get(row[col_cell], _UNSEEN)
+        if position is _UNSEEN:
+            position = memo.position(row[col_cell])
+        if not shared and position is not None and position <= facts[0]:
+            texts = cell_texts(row)
+            clean = known.get(texts, _UNSEEN)
+            if clean is _UNSEEN:
+                clean = known[texts] = memo.clean_cell(battery, facts, texts)
+            if clean is not None:
+                cells.append((line, position, clean))
+                continue
+        for message in shared:
+            errors.append((line, message))
+        sg_text, temp_text, volts_text, level_text = (text.strip() for text in cell_texts(row))
+        messages, _values = _check_cell(raw[0], facts, row[col_cell].strip(), sg_text, temp_text, volts_text,
+                                        level_text.lower(), memo, bool(shared))
+        for message in messages:
+            errors.append((line, message))
+        bad_groups.add(key)
     for key, members in groups.items():
         if key in bad_groups:
             continue
@@ -319,7 +317,7 @@ _Cell = namedtuple("_Cell", "position sg sg_corrected temp_c volts level")
 
 def _store(groups, group_battery, user, report):
     uuids = {key: _client_uuid(key) for key in groups}
-    stored = set(Inspection.objects.filter(client_uuid__in=uuids.values()).values_list("client_uuid", flat=True))
+    stored = _stored_uuids(list(uuids.values()))
     inspections, cells_by_inspection = [], []
     for key, members in groups.items():
         if uuids[key] in stored:
@@ -348,6 +346,19 @@ def _store(groups, group_battery, user, report):
     report.inspections_created = len(inspections)
     report.cells_created = sum(len(cells) for cells in cells_by_inspection)
     report.imported = True
+
+
+def _stored_uuids(client_uuids):
+    """Which of these client UUIDs are stored already. On PostgreSQL as one array parameter: as an
+    IN list, Django prepared each of a file's thousands of UUIDs on its own (about 0.1 s for 2,000)."""
+    if connection.vendor != "postgresql":
+        return set(Inspection.objects.filter(client_uuid__in=client_uuids).values_list("client_uuid", flat=True))
+    with connection.cursor() as cursor:
+        cursor.execute(
+            f"SELECT client_uuid FROM {Inspection._meta.db_table} WHERE client_uuid = ANY(%s::uuid[])",
+            [[str(u) for u in client_uuids]],
+        )
+        return {row[0] if isinstance(row[0], uuid.UUID) else uuid.UUID(row[0]) for row in cursor.fetchall()}
 
 
 def _copy_text(value, places=None):
