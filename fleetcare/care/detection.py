@@ -208,11 +208,14 @@ def _store(found, batteries, now):
     return len(to_create), len(gone)
 
 
-def detect_for_batteries(batteries, now=None):
-    """Run every rule on the batteries (a queryset) and store the result; returns their active findings."""
+def detect_for_batteries(batteries, now=None, answer=True):
+    """Run every rule on the batteries (a queryset) and store the result; returns their active findings
+    (or None with answer=False, for callers on save and import that only need them stored)."""
     now = now or timezone.now()
     found = [(d.battery, rules.detect(d)) for d in load(batteries, now)]
     _store(found, batteries, now)
+    if not answer:
+        return None
     return list(
         Finding.objects.active().filter(battery_id__in=_battery_ids(batteries))
         .select_related("battery", "battery__site").order_by("battery__serial", "kind")
@@ -300,7 +303,7 @@ def deep_discharge_counts(batteries, since=None, now=None):
 
 def _detect_one(battery_id):
     try:
-        detect_for_batteries(Battery.objects.filter(pk=battery_id))
+        detect_for_batteries(Battery.objects.filter(pk=battery_id), answer=False)
     except Exception:  # a reading is already committed; a detection fault must not turn its save into an error
         log.exception("findings detection failed for battery %s", battery_id)
 
@@ -308,7 +311,7 @@ def _detect_one(battery_id):
 def on_inspections_imported(sender, battery_ids, **kwargs):
     """One pass over every battery an import touched, rather than one pass per battery."""
     try:
-        detect_for_batteries(Battery.objects.filter(pk__in=battery_ids))
+        detect_for_batteries(Battery.objects.filter(pk__in=battery_ids), answer=False)
     except Exception:  # the import is already committed; a detection fault must not turn it into an error
         log.exception("findings detection failed after an import of %d batteries", len(battery_ids))
 

@@ -4,6 +4,7 @@ import datetime as dt
 from decimal import Decimal
 
 import pytest
+from django.utils import timezone
 
 from fleetcare.care import planning
 from fleetcare.fleet.models import Battery, BatteryProfile, ShiftWindow
@@ -165,9 +166,12 @@ def test_a_running_equalizing_charge_answers_the_finding(warehouse, crew, now):
     from fleetcare.planner.models import EqualizingCharge
 
     target = warehouse["trays"][0]
-    EqualizingCharge.objects.create(battery=target, by=crew, started_at=now - dt.timedelta(hours=3))
+    started = now - dt.timedelta(hours=3)
+    EqualizingCharge.objects.create(battery=target, by=crew, started_at=started)
     finding(target, "sulfation", now)  # seen after the charge began
     entry, plan = build(warehouse["site"], now, days=7)
     care = next(c for c in entry.inputs.batteries if c.battery_id == target.pk)
-    assert care.findings == () and care.last_equalized == entry.today
+    # The day the charge began at the site: yesterday when the test runs before 03:00 there.
+    began = timezone.localtime(started, warehouse["site"].tzinfo).date()
+    assert care.findings == () and care.last_equalized == began
     assert not [t for t in equalizing(plan) if t.battery_id == target.pk]
