@@ -244,19 +244,25 @@ def import_readings(text, *, user, batteries, good_rows_only=False, dry_run=Fals
     groups = {}  # (serial, aware taken_at, situation) -> [(line, position, clean cell values)]
     group_battery, bad_groups = {}, set()
     seen = {}  # (serial, taken_at, situation) as written -> what _check_group found, checked once
+    checked = {}  # the same, stripped (what is written may differ only in spaces)
     for line, row in enumerate(rows, start=2):
         if len(row) < width:
             row = row + padding[len(row):]
-        raw = (row[col_serial].strip(), row[col_taken].strip(), row[col_situation].strip())
-        group = seen.get(raw)
+        written = (row[col_serial], row[col_taken], row[col_situation])
+        group = seen.get(written)
         if group is None:
-            shared, battery, facts, taken_at, situation = _check_group(*raw, row[col_situation], memo)
-            key = (raw[0], taken_at, situation)
-            if not shared:
-                group_battery[key] = battery
-            cells = groups.setdefault(key, []) if not shared else []
-            group = seen[raw] = (shared, battery, facts, key, memo.clean_cells(battery) if not shared else {}, cells)
-        shared, battery, facts, key, known, cells = group
+            raw = tuple(text.strip() for text in written)
+            group = checked.get(raw)
+            if group is None:
+                shared, battery, facts, taken_at, situation = _check_group(*raw, row[col_situation], memo)
+                key = (raw[0], taken_at, situation)
+                if not shared:
+                    group_battery[key] = battery
+                cells = groups.setdefault(key, []) if not shared else []
+                known = memo.clean_cells(battery) if not shared else {}
+                group = checked[raw] = (shared, battery, facts, key, known, cells, raw[0])
+            seen[written] = group
+        shared, battery, facts, key, known, cells, serial = group
         position = positions.get(row[col_cell], _UNSEEN)
         if position is _UNSEEN:
             position = memo.position(row[col_cell])
@@ -271,7 +277,7 @@ def import_readings(text, *, user, batteries, good_rows_only=False, dry_run=Fals
         for message in shared:
             errors.append((line, message))
         sg_text, temp_text, volts_text, level_text = (text.strip() for text in cell_texts(row))
-        messages, _values = _check_cell(raw[0], facts, row[col_cell].strip(), sg_text, temp_text, volts_text,
+        messages, _values = _check_cell(serial, facts, row[col_cell].strip(), sg_text, temp_text, volts_text,
                                         level_text.lower(), memo, bool(shared))
         for message in messages:
             errors.append((line, message))
