@@ -102,7 +102,6 @@ def load(batteries, now):
                                for name in ("event_window_days", "water_use_window_days")]
     )
     since = now - timedelta(days=lookback_days + 1)
-    current = Inspection.objects.current().filter(battery_id__in=ids, taken_at__lte=now)
 
     post_charge = _latest_all_cells(list(data), depth, now, situations=Inspection.POST_CHARGE)
     for reading in _with_cells(post_charge):
