@@ -49,7 +49,7 @@ _UNSEEN = object()
 
 
 def _decimal(text):
-    """(finite Decimal, None) or (None, None) when the text is not a number."""
+    """The text as a finite Decimal, or None when it is not a number."""
     try:
         value = Decimal(text)
     except InvalidOperation:
