@@ -1,8 +1,51 @@
-"""Layered settings shared by the findings thresholds and the planning policy.
+"""Layered settings: one shape for the findings thresholds, the planning policy and the budget rules.
 
-A row for a battery profile overrides the built-in default, a row for a site overrides the
-profile's, and a row for that site and profile overrides both; blank fields inherit.
+Each setting is declared once (`Setting`: name, label, default, unit, source). An app keeps its
+overrides in a policy table whose columns are made from its declarations (`model_field`). A row for
+a battery profile overrides the built-in default, a row for a site overrides the profile's, and a
+row for that site and profile overrides both; blank fields inherit. `resolve` applies the layers.
 """
+from dataclasses import dataclass
+from decimal import Decimal
+
+DEFAULT = "built-in default"
+
+
+@dataclass(frozen=True)
+class Setting:
+    name: str
+    label: str
+    default: Decimal
+    unit: str
+    source: str
+    integer: bool = False
+
+
+@dataclass(frozen=True)
+class Value:
+    """A setting as applied to one battery: the number, the declaration's source and where it was set."""
+
+    name: str
+    value: Decimal
+    source: str
+    set_at: str = DEFAULT  # "built-in default", or the policy row's scope ("site A and profile B")
+    note: str = ""  # the policy row's note (why these values), if it has one
+
+    @property
+    def is_default(self):
+        return self.set_at == DEFAULT
+
+
+def model_field(setting, max_digits=8, decimal_places=3):
+    """The nullable policy column for a setting (blank inherits from the level above)."""
+    from django.core.validators import MinValueValidator
+    from django.db import models
+
+    help_text = f"Default {setting.default} {setting.unit}. Source: {setting.source}. Blank uses the level above."
+    if setting.integer:
+        return models.PositiveIntegerField(setting.label, null=True, blank=True, help_text=help_text)
+    return models.DecimalField(setting.label, max_digits=max_digits, decimal_places=decimal_places, null=True,
+                               blank=True, validators=[MinValueValidator(0)], help_text=help_text)
 
 
 def layers_for(site_id, profile_id, policies):
@@ -16,6 +59,27 @@ def layers_for(site_id, profile_id, policies):
     return sorted(layers, key=lambda p: (p.site_id is not None, p.profile_id is not None and p.site_id is not None))
 
 
+def scope_label(policy):
+    """Where a policy row applies, in words: "site NTH and profile Traction 48 V"."""
+    site = getattr(policy, "site", None) if policy.site_id else None
+    profile = getattr(policy, "profile", None) if policy.profile_id else None
+    site_name = f"site {site.code}" if site is not None else ""
+    profile_name = f"profile {profile.name}" if profile is not None else ""
+    return " and ".join(n for n in (site_name, profile_name) if n)
+
+
+def resolve_values(settings, site_id, profile_id, policies):
+    """{name: Value} for a battery of `profile_id` at `site_id`, from policy rows the caller loaded once."""
+    values = {s.name: Value(s.name, s.default, s.source) for s in settings}
+    for policy in layers_for(site_id, profile_id, policies):
+        for s in settings:
+            value = getattr(policy, s.name)
+            if value is not None:
+                values[s.name] = Value(s.name, Decimal(value), s.source, set_at=scope_label(policy),
+                                       note=getattr(policy, "note", ""))
+    return values
+
+
 class Resolved:
     """All settings for one battery: attribute access gives the Decimal value; .values holds the details."""
 
@@ -27,3 +91,8 @@ class Resolved:
             return self.__dict__["values"][name].value
         except KeyError:
             raise AttributeError(name) from None
+
+    def source(self, name):
+        """Where a value came from: the declaration's source, or the policy row that set it."""
+        value = self.values[name]
+        return value.source if value.is_default else f"policy for {value.set_at}"

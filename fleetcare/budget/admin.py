@@ -1,6 +1,6 @@
 from django.contrib import admin
 
-from fleetcare.budget.models import BudgetAssumptions, CapacityTest, ProfileBudget
+from fleetcare.budget.models import BudgetAssumptions, CapacityTest, Policy, ProfileBudget
 
 
 @admin.register(CapacityTest)
@@ -25,3 +25,9 @@ class BudgetAssumptionsAdmin(admin.ModelAdmin):
 @admin.register(ProfileBudget)
 class ProfileBudgetAdmin(admin.ModelAdmin):
     list_display = ["profile", "unit_price", "typical_depth_percent"]
+
+
+@admin.register(Policy)
+class PolicyAdmin(admin.ModelAdmin):
+    list_display = ("__str__", "site", "profile", "note")
+    list_filter = ("site", "profile")

@@ -39,16 +39,30 @@ def assumption_rows(budget, assumptions, scope):
         ("Fiscal year starts", MONTHS[money.fiscal_year_start_month - 1]),
         ("Fiscal year label", "the calendar year the fiscal year ends in"),
         ("Replacements' own replacement budgeted", "yes" if money.include_renewals else "no"),
-        ("Replace under capacity (%)", float(assumptions.capacity_floor_percent)),
-        ("Average SG after charge may fall below full charge by", float(assumptions.sg_drop_allowed)),
-        ("Spread limit after charge", float(assumptions.spread_limit)),
-        ("Failing cell: below the average by", float(assumptions.failing_cell_drop)),
-        ("Failing cell: post-charge readings in a row", assumptions.failing_cell_readings),
-        ("Cell replacement offered for up to (cells)", assumptions.max_cells_for_cell_option),
-        ("Range either side of a design-life date (% of life)", float(assumptions.life_margin_percent)),
+        *rule_rows(budget),
         ("Cost", "escalated unit price + installation - weight x scrap credit per kg"),
         ("Dates", "a date already past is budgeted on the day the budget is built; 'Overdue since' keeps it"),
     ]
+
+
+RULE_LABELS = (
+    ("capacity_floor_percent", "Replace under corrected capacity (%)"),
+    ("sg_drop_allowed", "Average SG after charge short of full charge by (equalize and test)"),
+    ("spread_limit", "Spread limit after charge"),
+    ("max_cells_for_cell_option", "Cell replacement offered for up to (cells)"),
+    ("life_margin_percent", "Range either side of a design-life date (% of life)"),
+)
+
+
+def rule_rows(budget):
+    """Each forecast rule as the budget's batteries used it; several values where sites or profiles differ."""
+    rows = [("Failing cell", "as the weak-cell finding says: still low after equalizing, or low on consecutive "
+                             "post-charge readings")]
+    for name, label in RULE_LABELS:
+        values = budget.rules_in_force(name)
+        rows.append((label, float(values[0]) if len(values) == 1 else
+                     "varies by site and profile: " + ", ".join(f"{v:g}" for v in values)))
+    return rows
 
 
 def prices_rows(budget):

@@ -16,11 +16,13 @@ Each kind of evidence may give a date with an earliest / likely / latest range:
   straight Ah-throughput rule is cautious: shallow cycles usually last longer than it says;
 * capacity: a test under the floor (80 %, IEEE Std 450 practice, from memory) is due now;
   otherwise a straight line through the tests, extrapolated to the floor;
-* average SG after charge: below the full-charge SG less the allowance is due now; a falling
-  trend is extrapolated to that level (only a trend clear of its own noise counts);
+* average SG after charge: never a replacement date on its own. Below the full-charge SG less the
+  findings' sulfation allowance it calls for "equalize and test" (the suspected-sulfation finding's
+  next step); replacement then follows only from a capacity test under the floor or a cell still
+  failing after equalizing. A falling trend says when it will reach that level;
 * spread after charge: a rising trend is extrapolated to the spread limit;
-* failing cells: persistent weak cells (supervisor findings, or the same cell lowest by the
-  failing margin on consecutive post-charge readings) are due now.
+* failing cells: the cells the weak-cell finding calls failing (still low after equalizing, or low on
+  consecutive post-charge readings) are due now. A cell low once after an ordinary charge is not.
 
 The likely date is the earliest likely date of any evidence; that evidence "decides". A measured
 capacity trend outranks age and cycles, which are only expectations. The range runs from the
@@ -40,6 +42,8 @@ from dataclasses import dataclass, field
 from datetime import date, timedelta
 from decimal import ROUND_HALF_UP, Decimal
 
+from fleetcare.care import wording
+
 CENT = Decimal("0.01")
 MIN_RENEWAL = timedelta(days=30)
 DAYS_PER_YEAR = 365.25
@@ -53,19 +57,19 @@ EVIDENCE_LABELS = {
     CELLS: "Failing cells",
 }
 LIFE_EXPECTANCY = (AGE, CYCLES)
+EQUALIZE_AND_TEST = "Equalize and test: " + wording.EQUALIZE_AND_TEST[0].lower() + wording.EQUALIZE_AND_TEST[1:]
 BATTERY, CELL_LINE, RENEWAL = "battery", "cells", "renewal"
 LINE_LABELS = {BATTERY: "Replace battery", CELL_LINE: "Replace cells", RENEWAL: "Replace the replacement"}
 
 
 @dataclass(frozen=True)
 class Rules:
-    """Forecast thresholds. Defaults and sources are documented on BudgetAssumptions."""
+    """Forecast thresholds for one battery. Declared, with defaults and sources, in fleetcare.budget.policy
+    (capacity floor and SG allowance: the findings' thresholds in fleetcare.care.policy)."""
 
     capacity_floor_percent: float = 80.0
     sg_drop_allowed: float = 0.030
     spread_limit: float = 0.050
-    failing_cell_drop: float = 0.030
-    failing_cell_readings: int = 3
     max_cells_for_cell_option: int = 2
     life_margin_percent: float = 15.0
     trend_window_days: int = 365
@@ -119,7 +123,8 @@ class BatteryFacts:
     first_logged_charge: date | None = None
     capacity_tests: tuple = ()  # ((date, percent), ...)
     post_charge: tuple = ()  # (PostCharge, ...) oldest first
-    weak_cells: tuple = ()  # positions from supervisor findings
+    weak_cells: tuple = ()  # cells the weak-cell finding calls failing
+    failing_because: str = ""  # the finding's words for why (still low after equalizing, ...)
     weak_block: bool = False  # a sealed pair with a weak block (finding)
     measured_depth_percent: float | None = None  # mean depth of discharge logged before charging
     typical_depth_percent: float | None = None  # the profile's typical depth, from the budget settings
@@ -133,6 +138,7 @@ class Evidence:
     likely: date | None = None
     earliest: date | None = None
     latest: date | None = None
+    action: str = ""  # what to do first, where the evidence calls for action rather than a replacement date
 
     @property
     def label(self):
@@ -384,6 +390,7 @@ def _recent(facts, today, rules):
 
 
 def sg_mean_evidence(facts, today, rules):
+    """Average SG after charge: "equalize and test" when it is low, never a replacement date on its own."""
     if facts.full_charge_sg is None:
         return None
     points = [(p.taken_on, p.sg_mean) for p in _recent(facts, today, rules) if p.sg_mean is not None]
@@ -394,16 +401,17 @@ def sg_mean_evidence(facts, today, rules):
     now = sum(recent) / len(recent)
     if len(points) >= 3 and now <= level:
         detail = (f"averaging {now:.3f} after charge, at or under {level:.3f} "
-                  f"(full charge {facts.full_charge_sg:.3f} less {rules.sg_drop_allowed:.3f})")
-        day = points[-1][0]
-        return Evidence(SG_MEAN, detail, day, day, day + timedelta(days=rules.act_within_days))
+                  f"(full charge {facts.full_charge_sg:.3f} less {rules.sg_drop_allowed:.3f}): "
+                  f"{wording.SULFATION.lower()}, not yet a replacement")
+        return Evidence(SG_MEAN, detail, action=EQUALIZE_AND_TEST)
     detail = f"averaging {now:.3f} after charge against a limit of {level:.3f}"
     if len(points) < rules.min_trend_points:
         return Evidence(SG_MEAN, detail + "; too few readings for a trend")
     dates = _trend_range(fit_trend(points), points[-1][0], level, today, rules, significant_only=True)
     if dates is None:
         return Evidence(SG_MEAN, detail + "; no clear fall")
-    return Evidence(SG_MEAN, detail + "; falling", dates[1], dates[0], dates[2])
+    return Evidence(SG_MEAN, detail + f"; falling, at the limit about {dates[1]:%d %b %Y}: equalize and test then, "
+                                      "not a replacement by itself")
 
 
 def spread_evidence(facts, today, rules):
@@ -426,26 +434,9 @@ def spread_evidence(facts, today, rules):
     return Evidence(SPREAD, detail + "; rising", dates[1], dates[0], dates[2])
 
 
-def persistently_low_cell(facts, rules):
-    """The cell lowest by at least the failing margin on each of the last N post-charge readings."""
-    n = rules.failing_cell_readings
-    last = [p for p in facts.post_charge if p.sg_mean is not None and p.sg_min is not None][-n:]
-    if n <= 0 or len(last) < n:
-        return None
-    positions = {p.lowest_position for p in last}
-    if len(positions) != 1 or None in positions:
-        return None
-    if all(p.sg_mean - p.sg_min >= rules.failing_cell_drop - 1e-9 for p in last):
-        return positions.pop()
-    return None
-
-
 def failing_cells(facts, rules):
-    cells = set(facts.weak_cells)
-    low = persistently_low_cell(facts, rules)
-    if low is not None:
-        cells.add(low)
-    return tuple(sorted(cells))
+    """The cells the findings call failing (the budget never judges a cell by itself)."""
+    return tuple(sorted(set(facts.weak_cells)))
 
 
 def cells_evidence(facts, today, rules):
@@ -456,13 +447,8 @@ def cells_evidence(facts, today, rules):
     if not cells:
         return None, ()
     names = ", ".join(map(str, cells))
-    sources = []
-    if facts.weak_cells:
-        sources.append("an open weak-cell finding")
-    if persistently_low_cell(facts, rules) is not None:
-        sources.append(f"lowest by {rules.failing_cell_drop:.3f} or more on the last {rules.failing_cell_readings} "
-                       "post-charge readings")
-    detail = f"cell{'s' if len(cells) > 1 else ''} {names} failing ({'; '.join(sources)})"
+    because = facts.failing_because or wording.FAILING_AFTER_EQUALIZING
+    detail = f"cell{'s' if len(cells) > 1 else ''} {names} {because} ({wording.WEAK_CELL.lower()} finding)"
     return Evidence(CELLS, detail, today, today, today + timedelta(days=rules.act_within_days)), cells
 
 
@@ -613,17 +599,28 @@ class Budget:
     fiscal_years: list
     total: Decimal
     count: int
+    rules: dict = field(default_factory=dict)  # battery_id -> Rules it was judged by
+
+    def rules_in_force(self, name):
+        """The distinct values of one rule across the budget's batteries, smallest first (the default if none)."""
+        values = {getattr(r, name) for r in self.rules.values()} or {getattr(Rules(), name)}
+        return sorted(values)
 
     def quarter(self, label):
         return next((q for q in self.quarter_totals if q.label == label), None)
 
 
 def build_budget(facts_list, today, years=5, money=Money(), rules=Rules()):
+    """`rules`: one Rules for every battery, or {battery_id: Rules} (each battery's layered settings)."""
     end = horizon_end(today, years)
-    forecasts = [forecast_battery(f, today, rules) for f in facts_list]
+
+    def rules_for(facts):
+        return rules.get(facts.battery_id, Rules()) if isinstance(rules, dict) else rules
+
+    forecasts = [forecast_battery(f, today, rules_for(f)) for f in facts_list]
     lines = []
     for fc in forecasts:
-        lines.extend(budget_lines(fc, today, end, money, rules))
+        lines.extend(budget_lines(fc, today, end, money, rules_for(fc.facts)))
     lines.sort(key=lambda ln: (ln.budget_date, ln.facts.serial, ln.kind))
 
     totals = {start: Bucket(quarter_of(start)[0], start) for start in quarter_starts(today, end)}
@@ -649,6 +646,6 @@ def build_budget(facts_list, today, years=5, money=Money(), rules=Rules()):
     return Budget(
         today=today, end=end, years=years, money=money, forecasts=forecasts, lines=lines,
         quarters=list(pairs.values()), quarter_totals=list(totals.values()), fiscal_years=list(fiscal.values()),
-        total=total, count=len(lines),
+        total=total, count=len(lines), rules={f.battery_id: rules_for(f) for f in facts_list},
     )
 

@@ -4,9 +4,12 @@ from decimal import Decimal
 from django.conf import settings
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
+from django.db.models import Q
 
+from fleetcare import policy_layers
 from fleetcare.budget import forecast
-from fleetcare.fleet.models import Battery, BatteryProfile
+from fleetcare.budget.policy import SETTINGS
+from fleetcare.fleet.models import Battery, BatteryProfile, Site
 
 ZERO = Decimal("0")
 
@@ -38,7 +41,8 @@ def _money(label, help_text, default=ZERO):
 
 
 class BudgetAssumptions(models.Model):
-    """One row for the whole organisation: prices, the fiscal calendar and the forecast rules.
+    """One row for the whole organisation: prices and the fiscal calendar (the forecast's thresholds are
+    layered settings: fleetcare.budget.policy).
 
     Shown on the budget page and written into every export, so a figure can always be traced back.
     """
@@ -65,44 +69,6 @@ class BudgetAssumptions(models.Model):
         help_text="A battery replaced early in the horizon is replaced again when its own design life runs out.",
     )
 
-    capacity_floor_percent = models.DecimalField(
-        "replace under this capacity (%)", max_digits=4, decimal_places=1, default=Decimal("80.0"),
-        validators=[MinValueValidator(Decimal("1")), MaxValueValidator(Decimal("100"))],
-        help_text="Default 80 %: IEEE Std 450 practice for vented cells (from memory).",
-    )
-    sg_drop_allowed = models.DecimalField(
-        "average SG after charge may fall below full charge by", max_digits=4, decimal_places=3,
-        default=Decimal("0.030"),
-        validators=[MinValueValidator(Decimal("0.005"))],
-        help_text="Default 0.030: the low end of the field notes' failing-cell band (common practice).",
-    )
-    spread_limit = models.DecimalField(
-        "replace when the spread after charge reaches", max_digits=4, decimal_places=3, default=Decimal("0.050"),
-        validators=[MinValueValidator(Decimal("0.010"))],
-        help_text="Default 0.050: the top of the 0.030–0.050 failing-cell band (common practice).",
-    )
-    failing_cell_drop = models.DecimalField(
-        "a cell fails when below the average after charge by", max_digits=4, decimal_places=3, default=Decimal("0.030"),
-        validators=[MinValueValidator(Decimal("0.005"))],
-        help_text="Default 0.030: a cell 0.030–0.050 below the average after equalizing is failing (common practice).",
-    )
-    failing_cell_readings = models.PositiveSmallIntegerField(
-        "on this many post-charge readings in a row", default=3, validators=[MinValueValidator(1)],
-        help_text="Default 3: FleetCare's choice, so one poor charge does not condemn a cell.",
-    )
-    max_cells_for_cell_option = models.PositiveSmallIntegerField(
-        "offer cell replacement for up to this many cells", default=2,
-        help_text="Default 2: a tray with more failing cells is budgeted as a whole battery (FleetCare's choice).",
-    )
-    life_margin_percent = models.DecimalField(
-        "range either side of a design-life date (% of life)", max_digits=4, decimal_places=1, default=Decimal("15.0"),
-        validators=[MinValueValidator(ZERO), MaxValueValidator(Decimal("100"))],
-        help_text="Default 15 %: FleetCare's planning margin, not a published figure.",
-    )
-    trend_window_days = models.PositiveSmallIntegerField(
-        "SG trends use readings from the last (days)", default=365, validators=[MinValueValidator(30)],
-    )
-
     updated_at = models.DateTimeField(auto_now=True)
     updated_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
                                    related_name="+")
@@ -123,14 +89,6 @@ class BudgetAssumptions(models.Model):
             installation=self.installation_cost, scrap_credit_per_kg=self.scrap_credit_per_kg,
             escalation_percent=self.escalation_percent, cell_cost=self.cell_cost,
             fiscal_year_start_month=self.fiscal_year_start_month, include_renewals=self.include_renewals,
-        )
-
-    def rules(self):
-        return forecast.Rules(
-            capacity_floor_percent=float(self.capacity_floor_percent), sg_drop_allowed=float(self.sg_drop_allowed),
-            spread_limit=float(self.spread_limit), failing_cell_drop=float(self.failing_cell_drop),
-            failing_cell_readings=self.failing_cell_readings, max_cells_for_cell_option=self.max_cells_for_cell_option,
-            life_margin_percent=float(self.life_margin_percent), trend_window_days=self.trend_window_days,
         )
 
 
@@ -160,3 +118,32 @@ class ProfileBudget(models.Model):
 
     def __str__(self):
         return f"{self.profile}"
+
+
+class Policy(models.Model):
+    """Forecast overrides: built-in default, then the profile's row, then the site's, then site and profile."""
+
+    profile = models.ForeignKey(BatteryProfile, on_delete=models.CASCADE, null=True, blank=True,
+                                related_name="budget_policies")
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, null=True, blank=True, related_name="budget_policies")
+    note = models.CharField(max_length=200, blank=True, help_text="Why these values (maker's letter, site rule, ...).")
+
+    class Meta:
+        verbose_name = "budget policy"
+        verbose_name_plural = "budget policies"
+        constraints = [
+            models.CheckConstraint(condition=Q(profile__isnull=False) | Q(site__isnull=False),
+                                   name="budget_policy_has_scope"),
+            models.UniqueConstraint(fields=["profile"], condition=Q(site__isnull=True),
+                                    name="one_budget_policy_per_profile"),
+            models.UniqueConstraint(fields=["site"], condition=Q(profile__isnull=True),
+                                    name="one_budget_policy_per_site"),
+            models.UniqueConstraint(fields=["site", "profile"], name="one_budget_policy_per_site_profile"),
+        ]
+
+    def __str__(self):
+        return policy_layers.scope_label(self)
+
+
+for _setting in SETTINGS:
+    Policy.add_to_class(_setting.name, policy_layers.model_field(_setting, max_digits=8, decimal_places=3))

@@ -2,7 +2,7 @@
 
 Queries, whatever the fleet size: batteries (with profile, site and profile budget settings),
 capacity tests, post-charge readings in the trend window, logged charge counts, depth of discharge
-before charging, weak-cell findings (when the care app provides them), and the assumptions row.
+before charging, weak-cell findings; then the policy rows (budget and findings) and the assumptions row.
 """
 from collections import defaultdict
 from datetime import datetime, time, timedelta
@@ -12,7 +12,10 @@ from django.utils import timezone
 
 from fleetcare import charts
 from fleetcare.budget import forecast
-from fleetcare.budget.models import BudgetAssumptions, CapacityTest
+from fleetcare.budget import policy as budget_policy
+from fleetcare.budget.models import BudgetAssumptions, CapacityTest, Policy
+from fleetcare.care import policy as care_policy
+from fleetcare.care.models import Policy as CarePolicy
 from fleetcare.fleet.models import BatteryProfile
 from fleetcare.readings.models import Inspection
 
@@ -29,22 +32,37 @@ def finding_model():
 
 
 def _weak_findings(batteries):
+    """Per battery: the cells its active weak-cell finding calls failing (and why), and whether a block is weak."""
     Finding = finding_model()
     if Finding is None:
         return {}
-    rows = Finding.objects.filter(battery__in=batteries.values("pk"), kind__in=(WEAK_CELL, WEAK_BLOCK))
-    rows = rows.active() if hasattr(rows, "active") else rows
-    found = defaultdict(lambda: {"cells": set(), "block": False})
-    for battery_id, kind, positions in rows.values_list("battery_id", "kind", "positions"):
-        if kind == WEAK_BLOCK:
-            found[battery_id]["block"] = True
-        else:
-            found[battery_id]["cells"].update(int(p) for p in positions or ())
+    rows = Finding.objects.filter(battery__in=batteries.values("pk"), kind__in=(WEAK_CELL, WEAK_BLOCK)).active()
+    found = defaultdict(lambda: {"cells": set(), "block": False, "because": ""})
+    for finding in rows.only("battery_id", "kind", "positions", "persistent", "evidence"):
+        if finding.kind == WEAK_BLOCK:
+            found[finding.battery_id]["block"] = True
+        elif finding.failing_positions:
+            found[finding.battery_id]["cells"].update(finding.failing_positions)
+            found[finding.battery_id]["because"] = finding.failing_because
     return found
 
 
 def _start_of(day):
     return timezone.make_aware(datetime.combine(day, time.min))
+
+
+def battery_rules(batteries):
+    """{battery_id: forecast.Rules} from each battery's layered budget settings and findings thresholds."""
+    budget_policies = list(Policy.objects.select_related("site", "profile"))
+    care_policies = list(CarePolicy.objects.select_related("site", "profile"))
+    rules, seen = {}, {}
+    for battery_id, site_id, profile_id in batteries.values_list("pk", "site_id", "profile_id"):
+        key = (site_id, profile_id)
+        if key not in seen:
+            seen[key] = budget_policy.rules(budget_policy.resolve(site_id, profile_id, budget_policies),
+                                            care_policy.resolve_for(site_id, profile_id, care_policies))
+        rules[battery_id] = seen[key]
+    return rules
 
 
 DEFAULT_RULES = forecast.Rules()
@@ -87,7 +105,7 @@ def battery_facts(batteries, today, rules=DEFAULT_RULES):
         depth = settings.typical_depth_percent if settings is not None else None
         installation = settings.installation_cost if settings is not None else None
         log = logged.get(b.pk)
-        found = weak.get(b.pk, {"cells": set(), "block": False})
+        found = weak.get(b.pk, {"cells": set(), "block": False, "because": ""})
         facts.append(forecast.BatteryFacts(
             battery_id=b.pk, serial=b.serial, site_code=b.site.code, site_name=b.site.name,
             profile_id=profile.pk, profile_name=profile.name, in_service_date=b.in_service_date,
@@ -100,7 +118,7 @@ def battery_facts(batteries, today, rules=DEFAULT_RULES):
             logged_charges=log["n"] if log else 0,
             first_logged_charge=log["first"].date() if log else None,
             capacity_tests=tuple(tests[b.pk]), post_charge=tuple(points[b.pk]),
-            weak_cells=tuple(sorted(found["cells"])), weak_block=found["block"],
+            weak_cells=tuple(sorted(found["cells"])), failing_because=found["because"], weak_block=found["block"],
             measured_depth_percent=depths.get(b.pk), typical_depth_percent=_float(depth), installation=installation,
         ))
     return facts
@@ -122,11 +140,15 @@ def _float(value):
 
 
 def replacement_budget(batteries, today=None, years=5, assumptions=None):
-    """The budget for `batteries` over `years` from today, and the assumptions it was built on."""
+    """The budget for `batteries` over `years` from today, and the assumptions it was built on.
+
+    Each battery is judged by its own layered settings; trends read the longest window any of them uses.
+    """
     today = today or timezone.localdate()
     assumptions = assumptions or BudgetAssumptions.current()
-    rules = assumptions.rules()
-    facts = battery_facts(batteries, today, rules)
+    rules = battery_rules(batteries.active())
+    widest = max(rules.values(), key=lambda r: r.trend_window_days, default=DEFAULT_RULES)
+    facts = battery_facts(batteries, today, widest)
     return forecast.build_budget(facts, today, years, assumptions.money(), rules), assumptions
 
 

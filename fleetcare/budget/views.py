@@ -8,6 +8,7 @@ from fleetcare.accounts.roles import MANAGER, SUPERVISOR
 from fleetcare.budget import exports, selectors, services
 from fleetcare.budget.forecast import Bucket
 from fleetcare.budget.forms import AssumptionsForm, CapacityTestForm, ProfileSettingsForm
+from fleetcare.care import policy as care_policy
 from fleetcare.budget.models import BudgetAssumptions, CapacityTest
 from fleetcare.fleet.models import BatteryProfile
 
@@ -55,7 +56,7 @@ def budget_page(request):
         "chart": selectors.budget_chart(budget, assumptions.currency),
         "drill": drill, "drill_rows": selectors.drill_rows(budget, drill), "quarter": chosen,
         "filter_query": query.urlencode(), "overdue": sum(1 for ln in budget.lines if ln.overdue_since),
-        "profile_prices": exports.prices_rows(budget),
+        "profile_prices": exports.prices_rows(budget), "rule_rows": exports.rule_rows(budget),
         "fiscal_start_name": exports.MONTHS[assumptions.fiscal_year_start_month - 1],
     })
 
@@ -121,5 +122,5 @@ def capacity_tests(request):
     recent = CapacityTest.objects.filter(battery__in=visible_batteries(request.user)).select_related(
         "battery", "battery__site", "tested_by")[:30]
     return render(request, "budget/capacity_tests.html", {
-        "form": form, "recent": recent, "floor": BudgetAssumptions.current().capacity_floor_percent,
+        "form": form, "recent": recent, "floor": care_policy.defaults().capacity_floor_percent,
     })

@@ -8,6 +8,8 @@ from django.conf import settings
 from django.db import models
 from django.db.models import Q
 
+from fleetcare import policy_layers
+from fleetcare.care import wording
 from fleetcare.care.policy import THRESHOLDS
 from fleetcare.fleet.models import Battery, BatteryProfile, Site
 
@@ -95,6 +97,31 @@ class Finding(models.Model):
     def is_active(self):
         return self.state in self.ACTIVE
 
+    def _failing_after_equalizing(self):
+        readings = (self.evidence or {}).get("readings") or []
+        return {int(c["position"]) for r in readings for c in r.get("cells") or ()
+                if "failing" in (c.get("reasons") or ())}
+
+    @property
+    def failing_positions(self):
+        """Cells this finding calls failing: still low after equalizing, or low on consecutive post-charge readings.
+
+        A cell low once after an ordinary charge is weak, not failing: it needs an equalizing charge first.
+        """
+        if self.kind != self.Kind.WEAK_CELL:
+            return []
+        failing = self._failing_after_equalizing()
+        if self.persistent:
+            failing |= {int(p) for p in self.positions or ()}
+        return sorted(failing)
+
+    @property
+    def failing_because(self):
+        """The finding's own words for why its cells are failing ("" when none is)."""
+        if not self.failing_positions:
+            return ""
+        return wording.FAILING_AFTER_EQUALIZING if self._failing_after_equalizing() else wording.LOW_ON_CONSECUTIVE
+
     @property
     def position_label(self):
         if not self.positions:
@@ -102,13 +129,6 @@ class Finding(models.Model):
         word = "block" if self.kind == self.Kind.WEAK_BLOCK else "cell"
         plural = "s" if len(self.positions) > 1 else ""
         return f"{word}{plural} " + ", ".join(str(p) for p in self.positions)
-
-
-def _threshold_field(threshold):
-    help_text = f"Default {threshold.default} {threshold.unit}. Source: {threshold.source}. Blank uses the level above."
-    if threshold.integer:
-        return models.PositiveIntegerField(threshold.label, null=True, blank=True, help_text=help_text)
-    return models.DecimalField(threshold.label, max_digits=8, decimal_places=3, null=True, blank=True, help_text=help_text)
 
 
 class Policy(models.Model):
@@ -136,4 +156,4 @@ class Policy(models.Model):
 
 
 for _threshold in THRESHOLDS:
-    Policy.add_to_class(_threshold.name, _threshold_field(_threshold))
+    Policy.add_to_class(_threshold.name, policy_layers.model_field(_threshold, max_digits=8, decimal_places=3))

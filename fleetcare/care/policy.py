@@ -3,21 +3,11 @@
 Every threshold is data. A `Policy` row for a battery profile overrides the default; a row for a
 site overrides the profile's; a row for that site and profile overrides both. Blank fields inherit.
 """
-from dataclasses import dataclass
 from decimal import Decimal
 
 from fleetcare import policy_layers
 
-
-@dataclass(frozen=True)
-class Threshold:
-    name: str
-    label: str
-    default: Decimal
-    unit: str
-    source: str
-    integer: bool = False
-
+Threshold = policy_layers.Setting
 
 COMMON = "common practice (field notes)"
 
@@ -36,7 +26,7 @@ THRESHOLDS = (
     Threshold("partial_charge_soc_percent", "sulfation: standing below this state of charge", Decimal("50"), "%",
               COMMON),
     Threshold("partial_charge_days", "sulfation: days standing below that state of charge", Decimal("3"), "days",
-              "FleetCare default (issue 3); set from the maker's advice", integer=True),
+              "FleetCare default: three days, so a weekend is not a finding; set from the maker's advice", integer=True),
     Threshold("storage_charge_days", "storage: longest a spare may go without a charge", Decimal("30"), "days",
               "US Army TM 5-1185 series: stored wet batteries need a charge every 30 days (from memory)", integer=True),
     Threshold("deep_discharge_soc_percent", "deep discharge: state of charge under", Decimal("20"), "%",
@@ -50,59 +40,40 @@ THRESHOLDS = (
     Threshold("max_overcharge_percent", "water use: most overcharge per charge, % of rated capacity", Decimal("12"),
               "% of rated Ah", "common practice: chargers put back 110–120 % of the Ah taken out; 15 % extra on an "
               "80 % discharge is 12 % of rating. Water per Ah by Faraday's law (scipy.constants)"),
+    Threshold("capacity_floor_percent", "replacement due: corrected capacity test under", Decimal("80"), "% of rated",
+              "IEEE Std 450 practice for vented cells: replace under 80 % of rated capacity (from memory)"),
     Threshold("block_ocv_gap_v", "weak block: rested block voltages apart by more than", Decimal("0.10"), "V",
               COMMON),
 )
 BY_NAME = {t.name: t for t in THRESHOLDS}
 
 
-@dataclass(frozen=True)
-class Value:
-    """A threshold as applied to one battery: the number and where it came from."""
+class Resolved(policy_layers.Resolved):
+    """All thresholds for one battery; attribute access gives the Decimal value."""
 
-    name: str
-    value: Decimal
-    source: str
-    overridden_by: str = ""
-
-    def as_evidence(self):
-        threshold = BY_NAME[self.name]
+    def evidence(self, name):
+        """A threshold as a finding records it: value, unit, where it was set and the default's source."""
+        threshold, value = BY_NAME[name], self.values[name]
         return {
-            "name": self.name,
+            "name": name,
             "label": threshold.label,
-            "value": str(self.value),
+            "value": str(value.value),
             "unit": threshold.unit,
-            "source": self.overridden_by or self.source,
+            "source": value.source if value.is_default else f"policy for {value.set_at}",
             "default": str(threshold.default),
             "default_source": threshold.source,
         }
 
 
-class Resolved(policy_layers.Resolved):
-    """All thresholds for one battery; attribute access gives the Decimal value."""
-
-    def evidence(self, name):
-        return self.values[name].as_evidence()
-
-
 def defaults():
-    return Resolved({t.name: Value(t.name, t.default, t.source) for t in THRESHOLDS})
+    return Resolved(policy_layers.resolve_values(THRESHOLDS, None, None, ()))
 
 
 def resolve(battery, policies):
     """Thresholds for `battery` from a list of Policy rows (the caller loads them once for the fleet)."""
-    values = {t.name: Value(t.name, t.default, t.source) for t in THRESHOLDS}
-    for policy in policy_layers.layers_for(battery.site_id, battery.profile_id, policies):
-        for t in THRESHOLDS:
-            value = getattr(policy, t.name)
-            if value is not None:
-                values[t.name] = Value(t.name, Decimal(value), t.source, overridden_by=f"policy for {_scope(policy)}")
-    return Resolved(values)
+    return resolve_for(battery.site_id, battery.profile_id, policies)
 
 
-def _scope(policy):
-    if policy.site_id and policy.profile_id:
-        return f"site {policy.site.code} and profile {policy.profile.name}"
-    if policy.site_id:
-        return f"site {policy.site.code}"
-    return f"profile {policy.profile.name}"
+def resolve_for(site_id, profile_id, policies):
+    """Thresholds for a battery of `profile_id` at `site_id`."""
+    return Resolved(policy_layers.resolve_values(THRESHOLDS, site_id, profile_id, policies))

@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 
 from fleetcare import chemistry
+from fleetcare.care import wording
 from fleetcare.readings.services import is_rested
 
 DAYS_PER_MONTH = 30
@@ -186,9 +187,9 @@ def weak_cell(data):
     summary = (f"Cell{'s' if len(positions) > 1 else ''} {cells} read low after {situation}: cell {worst['position']} "
                f"is {worst['below_others_points']} points below the other cells' mean")
     if failing:
-        summary += " (failing: still low after equalizing)"
+        summary += f" ({wording.FAILING_AFTER_EQUALIZING})"
     if persistent:
-        summary += "; low on consecutive post-charge readings"
+        summary += f"; {wording.LOW_ON_CONSECUTIVE}"
     thresholds = [data.policy.evidence("weak_cell_below_mean_sg"), data.policy.evidence("failing_cell_after_equalize_sg"),
                   data.policy.evidence("unserviceable_cell_gap_sg")]
     if failing:
@@ -302,8 +303,7 @@ def sulfation(data):
     if not signs:
         return None
     if profile.equalizing_allowed:
-        next_step = ("Give a full charge followed by an equalizing charge, then read all cells again. If the mean SG "
-                     "still falls short, book a capacity test.")
+        next_step = wording.EQUALIZE_AND_TEST
         caution = EQUALIZE_CAUTION
     else:
         next_step = "Give a full charge now and read the blocks after the rest time; if they stay low, book a capacity test."

@@ -120,7 +120,7 @@ def care_intervals(kind):
     if planner_policy is None:
         return [(Q(), DEFAULT_CARE_INTERVAL_DAYS)]
     setting = "equalize_every_days" if kind == "equalizing" else "water_every_days"
-    policies = list(PlannerPolicy.objects.all())
+    policies = list(PlannerPolicy.objects.select_related("site", "profile"))
     return [
         (where, int(getattr(planner_policy.resolve(site_id, profile_id, policies), setting)))
         for where, site_id, profile_id in policy_partition(policies)

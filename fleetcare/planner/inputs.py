@@ -101,7 +101,7 @@ def build(sites, now, days):
     for b in batteries:
         if b.status == Battery.Status.SPARE:
             spares[b.site_id] += 1
-    policies = list(Policy.objects.filter(Q(site__in=site_ids) | Q(site__isnull=True)))
+    policies = list(Policy.objects.filter(Q(site__in=site_ids) | Q(site__isnull=True)).select_related("site", "profile"))
     site_settings = {s.site_id: s for s in SiteSettings.objects.filter(site__in=site_ids)}
     ids = [b.pk for b in batteries]
     findings = defaultdict(list)

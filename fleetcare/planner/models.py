@@ -13,15 +13,8 @@ from django.db import models
 from django.db.models import Q
 
 from fleetcare.fleet.models import Battery, BatteryProfile, ChargingRoom, Site
+from fleetcare import policy_layers
 from fleetcare.planner.policy import SETTINGS
-
-
-def _setting_field(setting):
-    help_text = f"Default {setting.default} {setting.unit}. Source: {setting.source}. Blank uses the level above."
-    if setting.integer:
-        return models.PositiveIntegerField(setting.label, null=True, blank=True, help_text=help_text)
-    return models.DecimalField(setting.label, max_digits=6, decimal_places=2, null=True, blank=True,
-                               validators=[MinValueValidator(0)], help_text=help_text)
 
 
 class Policy(models.Model):
@@ -46,19 +39,11 @@ class Policy(models.Model):
         ]
 
     def __str__(self):
-        return self.scope_label
-
-    @property
-    def scope_label(self):
-        if self.site_id and self.profile_id:
-            return f"site {self.site_id} and profile {self.profile_id}"
-        if self.site_id:
-            return f"site {self.site_id}"
-        return f"profile {self.profile_id}"
+        return policy_layers.scope_label(self)
 
 
 for _setting in SETTINGS:
-    Policy.add_to_class(_setting.name, _setting_field(_setting))
+    Policy.add_to_class(_setting.name, policy_layers.model_field(_setting, max_digits=6, decimal_places=2))
 
 
 def new_feed_token():

@@ -4,21 +4,12 @@ A `Policy` row for a battery profile overrides a default; a row for a site overr
 row for that site and profile overrides both. Blank fields inherit. Intervals "by charges" are off
 (0) unless set; where both a day and a charge interval are set, the sooner one counts.
 """
-from dataclasses import dataclass
 from decimal import Decimal
 
 from fleetcare import policy_layers
 
 
-@dataclass(frozen=True)
-class Setting:
-    name: str
-    label: str
-    default: Decimal
-    unit: str
-    source: str
-    integer: bool = False
-
+Setting = policy_layers.Setting
 
 SETTINGS = (
     Setting("equalize_every_days", "equalize every", Decimal(7), "days",
@@ -51,30 +42,18 @@ SETTINGS = (
 BY_NAME = {s.name: s for s in SETTINGS}
 
 
-@dataclass(frozen=True)
-class Value:
-    name: str
-    value: Decimal
-    source: str
-
-
 class Resolved(policy_layers.Resolved):
     """All settings for one battery; attribute access gives the Decimal value, .source(name) where it came from."""
 
     def source(self, name):
-        return self.values[name].source
+        value = self.values[name]
+        return value.source if value.is_default else f"planning policy for {value.set_at}"
 
 
 def defaults():
-    return Resolved({s.name: Value(s.name, s.default, s.source) for s in SETTINGS})
+    return Resolved(policy_layers.resolve_values(SETTINGS, None, None, ()))
 
 
 def resolve(site_id, profile_id, policies):
     """Settings for a battery of `profile_id` at `site_id`, from Policy rows the caller loaded once."""
-    values = {s.name: Value(s.name, s.default, s.source) for s in SETTINGS}
-    for policy in policy_layers.layers_for(site_id, profile_id, policies):
-        for s in SETTINGS:
-            value = getattr(policy, s.name)
-            if value is not None:
-                values[s.name] = Value(s.name, Decimal(value), f"planning policy for {policy.scope_label}")
-    return Resolved(values)
+    return Resolved(policy_layers.resolve_values(SETTINGS, site_id, profile_id, policies))

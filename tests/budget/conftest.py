@@ -8,6 +8,7 @@ from django.utils import timezone
 
 from fleetcare.accounts.roles import MANAGER
 from fleetcare.budget.models import CapacityTest
+from fleetcare.care.detection import detect_for_batteries
 from fleetcare.fleet.models import Battery
 from fleetcare.readings.models import Inspection
 from fleetcare.readings.services import CellEntry, record_inspection
@@ -48,6 +49,7 @@ def world(site, other_site, traction_profile, manager, supervisor):
     failing_cell = Battery.objects.create(serial="TW-CELL", profile=traction_profile, site=site,
                                           in_service_date=today - dt.timedelta(days=365))
     post_charge_readings(failing_cell, supervisor, (21, 14, 7), weak_cell=9)
+    detect_for_batteries(Battery.objects.filter(pk=failing_cell.pk))  # the budget counts what the findings call failing
     retired = Battery.objects.create(serial="TW-OLD", profile=traction_profile, site=site,
                                      in_service_date=dt.date(2015, 1, 1), status=Battery.Status.RETIRED)
     elsewhere = Battery.objects.create(serial="OT-AGE", profile=traction_profile, site=other_site,

@@ -93,10 +93,10 @@ def test_one_capacity_test_above_the_floor_gives_no_date():
 
 
 def test_a_failing_cell_on_a_young_tray_offers_the_cell_option():
-    # cell 9 sits 0.045 below the mean on the last three post-charge readings: failing (0.030-0.050 band)
+    # cell 9 sits 0.045 below the mean on the last post-charge readings and the weak-cell finding calls it failing
     points = post_charge(date(2026, 11, 1), 7, [1.287, 1.288, 1.286, 1.287], spreads=[0.050] * 4,
                          lowest=[9, 9, 9, 9], mins=[1.242, 1.243, 1.241, 1.242])
-    facts = tray(post_charge=points, charges_per_day=0.5)
+    facts = tray(post_charge=points, charges_per_day=0.5, weak_cells=(9,))
     result = fc.forecast_battery(facts, TODAY)
     assert result.cell_option == (9,)
     assert result.decided_by.kind == fc.AGE  # the battery itself still runs to its design life
@@ -107,6 +107,14 @@ def test_a_failing_cell_on_a_young_tray_offers_the_cell_option():
     assert cells.amount == Decimal("346.25")
     assert cells.whole_battery_amount == Decimal("7440.00")  # 7800 + 450 - 1350 x 0.60
     assert battery.kind == fc.BATTERY and battery.budget_date == date(2030, 6, 1)
+
+
+def test_low_post_charge_readings_alone_do_not_budget_a_cell():
+    # the same readings without a finding calling the cell failing: the budget does not judge cells itself
+    points = post_charge(date(2026, 11, 1), 7, [1.287, 1.288, 1.286, 1.287], spreads=[0.050] * 4,
+                         lowest=[9, 9, 9, 9], mins=[1.242, 1.243, 1.241, 1.242])
+    result = fc.forecast_battery(tray(post_charge=points, charges_per_day=0.5), TODAY)
+    assert result.cell_option == () and all(e.kind != fc.CELLS for e in result.evidence)
 
 
 def test_a_weak_cell_finding_counts_as_a_failing_cell():
@@ -134,13 +142,28 @@ def test_a_sealed_pair_with_a_weak_block_is_replaced_as_a_pair():
     assert result.cell_option == () and result.decided_by.kind == fc.CELLS and result.likely == TODAY
 
 
-def test_a_falling_average_sg_after_charge_is_extrapolated_to_its_limit():
+def test_a_falling_average_sg_says_when_to_equalize_and_test_not_when_to_replace():
     # 1.285 falling 0.001 a week: reaches 1.260 (1.290 full charge less 0.030) 25 weeks after the first reading
     start = date(2026, 6, 2)
     points = post_charge(start, 7, [1.285 - 0.001 * i for i in range(20)])
     result = fc.forecast_battery(tray(post_charge=points), TODAY)
-    assert result.decided_by.kind == fc.SG_MEAN
-    assert result.likely == start + timedelta(days=175)
+    sg = next(e for e in result.evidence if e.kind == fc.SG_MEAN)
+    assert not sg.dated and result.decided_by.kind != fc.SG_MEAN
+    assert f"at the limit about {start + timedelta(days=175):%d %b %Y}: equalize and test" in sg.detail
+
+
+def test_a_low_average_sg_calls_for_equalize_and_test_before_any_replacement():
+    points = post_charge(date(2026, 10, 1), 7, [1.255, 1.254, 1.256, 1.255])  # 0.035 short of 1.290
+    result = fc.forecast_battery(tray(post_charge=points), TODAY)
+    sg = next(e for e in result.evidence if e.kind == fc.SG_MEAN)
+    assert sg.action.startswith("Equalize and test: give a full charge followed by an equalizing charge")
+    assert not sg.dated and not result.overdue and result.decided_by.kind in fc.LIFE_EXPECTANCY
+
+
+def test_a_low_average_sg_with_a_capacity_test_under_the_floor_is_replaced():
+    points = post_charge(date(2026, 10, 1), 7, [1.255, 1.254, 1.256, 1.255])
+    result = fc.forecast_battery(tray(post_charge=points, capacity_tests=((date(2026, 11, 25), 78.0),)), TODAY)
+    assert result.decided_by.kind == fc.CAPACITY and result.overdue
 
 
 def test_steady_sg_readings_give_no_sg_date():

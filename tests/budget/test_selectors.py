@@ -44,7 +44,8 @@ def test_a_weak_cell_finding_offers_the_cell_option(battery, supervisor):
     if Finding is None:
         pytest.skip("the care app has no Finding model here")
     now = timezone.now()
-    Finding.objects.create(battery=battery, kind="weak_cell", positions=[5], opened_at=now, last_seen_at=now)
+    Finding.objects.create(battery=battery, kind="weak_cell", positions=[5], persistent=True, opened_at=now,
+                           last_seen_at=now)
     Finding.objects.create(battery=battery, kind="high_spread", positions=[5, 6, 7], opened_at=now, last_seen_at=now)
     budget, _ = selectors.replacement_budget(Battery.objects.all())
     facts = budget.forecasts[0].facts

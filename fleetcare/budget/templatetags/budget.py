@@ -33,7 +33,7 @@ def replacement_forecast(context, battery):
     budget, assumptions = selectors.replacement_budget(only, today=timezone.localdate())
     return {
         "show": True, "battery": battery, "forecast": budget.forecasts[0] if budget.forecasts else None,
-        "lines": budget.lines, "currency": assumptions.currency, "floor": assumptions.capacity_floor_percent,
+        "lines": budget.lines, "currency": assumptions.currency, "floor": budget.rules_in_force("capacity_floor_percent")[0],
         "tests": CapacityTest.objects.filter(battery=battery).order_by("-tested_on")[:10],
         "is_manager": has_role(user, MANAGER),
     }

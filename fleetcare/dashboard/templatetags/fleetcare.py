@@ -2,6 +2,7 @@ from django import template
 from django.utils.html import format_html
 from django.utils.safestring import mark_safe
 
+from fleetcare.accounts.roles import SUPERVISOR, has_role
 from fleetcare.charts import to_json
 
 register = template.Library()
@@ -35,3 +36,9 @@ def pct(value):
     if value is None or value == "":
         return "–"
     return f"{float(value):.0f} %"
+
+
+@register.filter
+def can_see_settings(user):
+    """Supervisors and up see the settings in force."""
+    return bool(getattr(user, "is_authenticated", False)) and has_role(user, SUPERVISOR)
