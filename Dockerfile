@@ -4,6 +4,9 @@ WORKDIR /app
 COPY requirements.txt .
 RUN pip install --no-cache-dir -r requirements.txt
 COPY . .
-RUN FLEETCARE_PRODUCTION=1 SECRET_KEY=build-only python manage.py collectstatic --noinput
+# The one production build (CI runs the same script).
+RUN PYTHON=python sh bin/build
+ENV WEB_BIND=0.0.0.0:8000
 EXPOSE 8000
-CMD ["sh", "-c", "python manage.py migrate --noinput && gunicorn fleetcare.wsgi:application --bind 0.0.0.0:8000 --workers ${WEB_WORKERS:-3}"]
+# Workers, timeout and the rest: gunicorn.conf.py.
+CMD ["sh", "-c", "python manage.py migrate --noinput && gunicorn fleetcare.wsgi:application"]

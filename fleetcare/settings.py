@@ -69,6 +69,7 @@ MIDDLEWARE = [
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
     "fleetcare.accounts.middleware.SiteTimezoneMiddleware",
     "fleetcare.accounts.middleware.ContentSecurityPolicyMiddleware",
+    "fleetcare.accounts.middleware.PrivateResponsesMiddleware",
 ]
 
 ROOT_URLCONF = "fleetcare.urls"
@@ -118,7 +119,7 @@ USE_TZ = True
 STATIC_URL = "static/"
 # plotly.js is served from the installed plotly package, so the browser and Python sides always match.
 STATICFILES_DIRS = [BASE_DIR / "static", ("vendor/plotly", Path(plotly.__file__).parent / "package_data")]
-STATIC_ROOT = BASE_DIR / "staticfiles"
+STATIC_ROOT = Path(os.environ.get("STATIC_ROOT", BASE_DIR / "staticfiles"))
 STORAGES = {
     "default": {"BACKEND": "django.core.files.storage.FileSystemStorage"},
     "staticfiles": {

@@ -1,5 +1,6 @@
 from django.conf import settings
 from django.utils import timezone
+from django.utils.cache import patch_cache_control
 
 
 class SiteTimezoneMiddleware:
@@ -36,3 +37,20 @@ class ContentSecurityPolicyMiddleware:
 
 def policy_header(policy):
     return "; ".join(f"{directive} {' '.join(sources)}" for directive, sources in policy.items())
+
+
+class PrivateResponsesMiddleware:
+    """Answers made by the app (pages, exports, API) are for one person: no shared or disk cache may keep them.
+
+    Static files never reach this (whitenoise answers them first, cacheable for a year under hashed names);
+    a view that chose its own Cache-Control keeps it.
+    """
+
+    def __init__(self, get_response):
+        self.get_response = get_response
+
+    def __call__(self, request):
+        response = self.get_response(request)
+        if "Cache-Control" not in response.headers:
+            patch_cache_control(response, private=True, no_store=True)
+        return response
