@@ -1,4 +1,4 @@
-"""From the database to the planner's plain data (fleetcare.care.planning), for many sites in a fixed number of queries.
+"""From the database to the planner's plain data (fleetcare.planner.solver), for many sites in a fixed number of queries.
 
 Airflow: the room's baseline is the normal-charging airflow of as many of its batteries as can charge
 at once (every charger unless the room's settings say fewer; the largest batteries, so it is never an
@@ -17,7 +17,7 @@ from django.db.models import Count, Max, Q
 from django.db.models.functions import Coalesce
 
 from fleetcare import chemistry
-from fleetcare.care import planning
+from fleetcare.planner import solver
 from fleetcare.care.models import Finding as FindingRow
 from fleetcare.fleet.models import Battery, ChargingRoom, Fitting, ShiftWindow
 from fleetcare.planner import policy as planner_policy
@@ -64,7 +64,7 @@ class RoomFacts:
 class SiteInputs:
     site: object
     today: dt.date
-    inputs: planning.PlanInputs | None
+    inputs: solver.PlanInputs | None
     facts: dict = field(default_factory=dict)  # battery pk -> BatteryFacts
     rooms: dict = field(default_factory=dict)  # room pk -> RoomFacts
     windows: list = field(default_factory=list)  # ShiftWindow rows
@@ -158,13 +158,13 @@ def build(sites, now, days):
             care = _battery_care(facts, site, findings.get(facts.battery.pk, ()), logged.get(facts.battery.pk, []), now)
             if care is not None:
                 cares.append(care)
-        entry.inputs = planning.PlanInputs(
+        entry.inputs = solver.PlanInputs(
             site_id=site.pk,
             start_date=entry.today,
             days=days,
-            shift_windows=tuple(planning.ShiftWindow(w.starts_at, hours) for w, hours in clipped),
+            shift_windows=tuple(solver.ShiftWindow(w.starts_at, hours) for w, hours in clipped),
             rooms=tuple(
-                planning.ChargingRoom(room_id=r.room.pk, equalize_chargers=r.room.equalizing_chargers,
+                solver.ChargingRoom(room_id=r.room.pk, equalize_chargers=r.room.equalizing_chargers,
                                       airflow_m3h=float(r.room.airflow_m3h),
                                       baseline_airflow_m3h=round(r.baseline_airflow_m3h, 3), name=r.room.name)
                 for r in sorted(entry.rooms.values(), key=lambda r: r.room.pk)
@@ -260,7 +260,7 @@ def short_note(summary, limit=100):
 def acted_on(finding, facts):
     """A finding already answered by an equalizing charge (or a top-up) after it was last seen: the next
     reading decides whether it stays, so it does not ask for the same work again meanwhile."""
-    if finding.kind in planning.WATER_FINDINGS:
+    if finding.kind in solver.WATER_FINDINGS:
         done_at = facts.watered_at
     elif facts.equalizing_now:
         return True
@@ -291,15 +291,15 @@ def _battery_care(facts, site, findings, logged_times, now):
         water_days = min(water_days, by_charges) if water_days else by_charges
     kinds = set()
     if facts.can_equalize:
-        kinds |= set(planning.EQUALIZE_FINDINGS)
+        kinds |= set(solver.EQUALIZE_FINDINGS)
     else:
         eq_days = eq_charges = None
     if facts.can_water:
-        kinds |= set(planning.WATER_FINDINGS)
+        kinds |= set(solver.WATER_FINDINGS)
     else:
         water_days = None
     battery = facts.battery
-    return planning.BatteryCare(
+    return solver.BatteryCare(
         battery_id=battery.pk,
         serial=battery.serial,
         room_id=battery.charging_room_id,
@@ -314,7 +314,7 @@ def _battery_care(facts, site, findings, logged_times, now):
         last_watered=facts.last_watered,
         watering_minutes=float(settings.watering_minutes),
         findings=tuple(
-            planning.Finding(kind=f.kind, severity=int(f.severity), note=short_note(f.summary))
+            solver.Finding(kind=f.kind, severity=int(f.severity), note=short_note(f.summary))
             for f in findings if f.kind in kinds and not acted_on(f, facts)
         ),
     )

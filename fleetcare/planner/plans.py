@@ -9,7 +9,7 @@ import time
 
 from django.db import IntegrityError, transaction
 
-from fleetcare.care import planning
+from fleetcare.planner import solver
 from fleetcare.planner.models import StoredPlan
 
 PLAN_DAYS = 14
@@ -18,7 +18,7 @@ PAGE_SOLVER_SECONDS = 2.0
 
 def plan_from_json(data):
     def task(row):
-        return planning.PlannedTask(
+        return solver.PlannedTask(
             battery_id=row["battery_id"], serial=row["serial"], kind=row["kind"], room_id=row["room_id"],
             day=dt.date.fromisoformat(row["day"]), start=dt.datetime.fromisoformat(row["start"]),
             end=dt.datetime.fromisoformat(row["end"]), due_day=dt.date.fromisoformat(row["due_day"]),
@@ -26,13 +26,13 @@ def plan_from_json(data):
         )
 
     def unplaced(row):
-        return planning.UnplacedTask(
+        return solver.UnplacedTask(
             battery_id=row["battery_id"], serial=row["serial"], kind=row["kind"], room_id=row["room_id"],
             due_day=dt.date.fromisoformat(row["due_day"]), days_overdue=row["days_overdue"],
             severity=row["severity"], reason=row["reason"],
         )
 
-    return planning.Plan(
+    return solver.Plan(
         site_id=data["site_id"], start_date=dt.date.fromisoformat(data["start_date"]), days=data["days"],
         tasks=tuple(task(r) for r in data["tasks"]), unplaced=tuple(unplaced(r) for r in data["unplaced"]),
         lower_bound_overdue_days=data["lower_bound_overdue_days"], proven_optimal=data["proven_optimal"],
@@ -41,7 +41,7 @@ def plan_from_json(data):
 
 
 def empty_plan(site_inputs, days):
-    return planning.Plan(site_id=site_inputs.site.pk, start_date=site_inputs.today, days=days, tasks=(), unplaced=(),
+    return solver.Plan(site_id=site_inputs.site.pk, start_date=site_inputs.today, days=days, tasks=(), unplaced=(),
                          lower_bound_overdue_days=0, proven_optimal=True, method="nothing to plan")
 
 
@@ -76,7 +76,7 @@ def build_and_store(entry, days, solver_seconds, fingerprint=None, now=None):
     from django.utils import timezone
 
     started = time.monotonic()
-    plan = planning.plan_care(entry.inputs, solver_seconds=solver_seconds)
+    plan = solver.plan_care(entry.inputs, solver_seconds=solver_seconds)
     seconds = time.monotonic() - started
     values = {"fingerprint": fingerprint or entry.fingerprint, "plan_json": plan.to_json_dict(),
               "built_at": now or timezone.now(), "build_seconds": seconds}

@@ -9,7 +9,7 @@ from django.urls import reverse
 from django.utils import timezone
 
 from fleetcare.accounts.access import visible_sites
-from fleetcare.care import planning
+from fleetcare.planner import solver
 from fleetcare.fleet.models import Battery, Site
 from fleetcare.planner import inputs as planner_inputs
 from fleetcare.planner.models import EqualizingCharge, TaskSkip
@@ -275,7 +275,7 @@ def first_due(care, today):
     if care.water_every_days:
         water.append(today if care.last_watered is None else care.last_watered + dt.timedelta(days=care.water_every_days))
     for finding in care.findings:
-        (eq if finding.kind in planning.EQUALIZE_FINDINGS else water).append(today)
+        (eq if finding.kind in solver.EQUALIZE_FINDINGS else water).append(today)
     return due(eq), due(water)
 
 
@@ -366,7 +366,7 @@ def week_view(site, week=0, now=None):
             cells = []
             for window in entry.windows:
                 start = dt.datetime.combine(day, window.starts_at)
-                running = [t for t in plan.tasks if t.kind == planning.EQUALIZE and t.room_id == room_id
+                running = [t for t in plan.tasks if t.kind == solver.EQUALIZE and t.room_id == room_id
                            and t.start == start]
                 airflow = room.baseline_airflow_m3h + sum(entry.facts[t.battery_id].equalize_airflow_m3h
                                                           for t in running if t.battery_id in entry.facts)
@@ -388,7 +388,7 @@ def week_view(site, week=0, now=None):
                       "battery_count": len(members)})
     waterings = defaultdict(int)
     for t in plan.tasks:
-        if t.kind == planning.WATER:
+        if t.kind == solver.WATER:
             waterings[t.day] += 1
     return {
         "site": site, "entry": entry, "plan": plan, "days": days, "week": week, "windows": entry.windows,

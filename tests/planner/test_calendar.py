@@ -5,7 +5,7 @@ import re
 import pytest
 from django.urls import reverse
 
-from fleetcare.care import planning
+from fleetcare.planner import solver
 from fleetcare.planner import ical
 from fleetcare.planner.models import SiteSettings
 from fleetcare.planner.services import site_settings
@@ -87,12 +87,12 @@ def test_text_is_escaped():
 
 def test_a_plan_with_a_long_reason_gives_a_valid_calendar(site):
     start = dt.datetime(2026, 3, 30, 22, 0)  # the night the clocks have just gone forward in London
-    task = planning.PlannedTask(
+    task = solver.PlannedTask(
         battery_id=7, serial="TW-007", kind="equalize", room_id=1, day=start.date(), start=start,
         end=start + dt.timedelta(hours=3), due_day=start.date(), days_overdue=2, severity=3,
         reason="high-spread finding (severity 3): spread 0,031 after charge; equalizing every 7 days, last on 2026-03-21",
     )
-    plan = planning.Plan(site_id=site.pk, start_date=start.date(), days=7, tasks=(task,), unplaced=(),
+    plan = solver.Plan(site_id=site.pk, start_date=start.date(), days=7, tasks=(task,), unplaced=(),
                          lower_bound_overdue_days=2, proven_optimal=True, method="test")
     text = ical.calendar(site, plan, {7: "TW-007"}, dt.datetime(2026, 3, 30, 8, 0, tzinfo=dt.UTC))
     (event,) = check_calendar(text.encode())

@@ -2,7 +2,7 @@
 
 from django.utils import timezone
 
-from fleetcare.care import planning
+from fleetcare.planner import solver
 from fleetcare.fleet import demo as fleet_demo
 from fleetcare.fleet.models import Site
 from fleetcare.planner import demo
@@ -17,8 +17,8 @@ def test_the_demo_plan_keeps_every_limit_and_gives_the_crew_a_list(db):
     now = timezone.now()
     hrw = Site.objects.get(code="hrw")
     entry = planner_inputs.build([hrw], now, 14)[hrw.pk]
-    plan = planning.plan_care(entry.inputs, solver_seconds=2)
-    assert planning.check_limits(plan, entry.inputs) == []
+    plan = solver.plan_care(entry.inputs, solver_seconds=2)
+    assert solver.check_limits(plan, entry.inputs) == []
     day = site_days(Site.objects.filter(code__in=["hrw", "psd", "elm"]), now)
     hrw_tasks = {(t.battery.serial, t.kind) for t in day[hrw.pk].to_do}
     assert ("HRW-B03", "all_cells") in hrw_tasks  # equalized early this morning, closing reading still to take

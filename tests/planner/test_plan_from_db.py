@@ -6,7 +6,7 @@ from decimal import Decimal
 import pytest
 from django.utils import timezone
 
-from fleetcare.care import planning
+from fleetcare.planner import solver
 from fleetcare.fleet.models import Battery, BatteryProfile, ShiftWindow
 from fleetcare.planner import inputs as planner_inputs
 from fleetcare.planner.models import Policy, RoomSettings
@@ -18,7 +18,7 @@ from .conftest import add_batteries, cared_for, equalized, finding, inspect, wat
 
 def build(site, now, days=14):
     entry = planner_inputs.build([site], now, days)[site.pk]
-    return entry, planning.plan_care(entry.inputs, solver_seconds=2)
+    return entry, solver.plan_care(entry.inputs, solver_seconds=2)
 
 
 def equalizing(plan):
@@ -32,7 +32,7 @@ def test_the_plan_from_the_database_keeps_every_limit(warehouse, sealed_profile,
         finding(b, "high_spread", now)
     cared_for(warehouse["trays"][0], crew, now, days_ago=2)
     entry, plan = build(site, now, days=14)
-    assert planning.check_limits(plan, entry.inputs) == []
+    assert solver.check_limits(plan, entry.inputs) == []
     # one spare beyond the reserve: one equalizing charge at a time, nightly (the early window is too short)
     starts = [t.start for t in equalizing(plan)]
     assert len(starts) == len(set(starts)) == 14
@@ -148,7 +148,7 @@ def test_overlapping_shift_windows_are_cut_short_not_refused(warehouse, now):
     entry, plan = build(warehouse["site"], now, days=7)
     assert [w.hours for w in entry.inputs.shift_windows] == [1.5, 7.5]
     assert "planned as 7.5 h" in entry.notes[0]
-    assert planning.check_limits(plan, entry.inputs) == []
+    assert solver.check_limits(plan, entry.inputs) == []
 
 
 def test_the_stored_plan_is_reused_until_a_record_changes_it(warehouse, crew, now, django_assert_num_queries):

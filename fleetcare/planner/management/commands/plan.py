@@ -3,7 +3,7 @@ import json
 from django.core.management.base import BaseCommand, CommandError
 from django.utils import timezone
 
-from fleetcare.care import planning
+from fleetcare.planner import solver
 from fleetcare.fleet.models import Site
 from fleetcare.planner import inputs as planner_inputs
 from fleetcare.planner.plans import build_and_store
@@ -18,7 +18,7 @@ class Command(BaseCommand):
         parser.add_argument("--site", required=True, help="Site code, e.g. hrw.")
         parser.add_argument("--days", type=int, default=14, help=f"Days to plan, {MIN_DAYS} to {MAX_DAYS} (default 14).")
         parser.add_argument("--json", action="store_true", help="Print the plan as JSON.")
-        parser.add_argument("--solver-seconds", type=float, default=planning.SOLVER_SECONDS,
+        parser.add_argument("--solver-seconds", type=float, default=solver.SOLVER_SECONDS,
                             help="Most time the integer program may take for the whole plan.")
 
     def handle(self, *args, site, days, json: bool, solver_seconds, **options):
@@ -34,7 +34,7 @@ class Command(BaseCommand):
         if entry.inputs is None:
             raise CommandError(entry.problem)
         plan = build_and_store(entry, days, solver_seconds)
-        violations = planning.check_limits(plan, entry.inputs)
+        violations = solver.check_limits(plan, entry.inputs)
         if json:
             data = plan.to_json_dict()
             data["site"] = found.code

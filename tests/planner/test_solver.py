@@ -10,7 +10,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from fleetcare.care.planning import (
+from fleetcare.planner.solver import (
     EQUALIZE,
     WATER,
     BatteryCare,
