@@ -18,7 +18,7 @@ from django.db.models.functions import Coalesce
 
 from fleetcare import chemistry
 from fleetcare.planner import solver
-from fleetcare.care.models import Finding as FindingRow
+from fleetcare.care.models import Finding
 from fleetcare.fleet.models import Battery, ChargingRoom, Fitting, ShiftWindow
 from fleetcare.planner import policy as planner_policy
 from fleetcare.planner.models import EqualizingCharge, Policy, SiteSettings
@@ -105,7 +105,7 @@ def build(sites, now, days):
     site_settings = {s.site_id: s for s in SiteSettings.objects.filter(site__in=site_ids)}
     ids = [b.pk for b in batteries]
     findings = defaultdict(list)
-    for row in FindingRow.objects.active().filter(battery__in=ids, kind__in=PLANNER_FINDINGS).order_by("pk"):
+    for row in Finding.objects.active().filter(battery__in=ids, kind__in=PLANNER_FINDINGS).order_by("pk"):
         findings[row.battery_id].append(row)
     charges = {
         row["battery"]: row for row in EqualizingCharge.objects.filter(battery__in=ids).values("battery").annotate(
@@ -162,9 +162,9 @@ def build(sites, now, days):
             site_id=site.pk,
             start_date=entry.today,
             days=days,
-            shift_windows=tuple(solver.ShiftWindow(w.starts_at, hours) for w, hours in clipped),
+            shift_windows=tuple(solver.DailyWindow(w.starts_at, hours) for w, hours in clipped),
             rooms=tuple(
-                solver.ChargingRoom(room_id=r.room.pk, equalize_chargers=r.room.equalizing_chargers,
+                solver.RoomLimits(room_id=r.room.pk, equalize_chargers=r.room.equalizing_chargers,
                                       airflow_m3h=float(r.room.airflow_m3h),
                                       baseline_airflow_m3h=round(r.baseline_airflow_m3h, 3), name=r.room.name)
                 for r in sorted(entry.rooms.values(), key=lambda r: r.room.pk)
@@ -314,7 +314,7 @@ def _battery_care(facts, site, findings, logged_times, now):
         last_watered=facts.last_watered,
         watering_minutes=float(settings.watering_minutes),
         findings=tuple(
-            solver.Finding(kind=f.kind, severity=int(f.severity), note=short_note(f.summary))
+            solver.FindingInput(kind=f.kind, severity=int(f.severity), note=short_note(f.summary))
             for f in findings if f.kind in kinds and not acted_on(f, facts)
         ),
     )

@@ -96,12 +96,12 @@ __all__ = [
     "EQUALIZE",
     "WATER",
     "BatteryCare",
-    "ChargingRoom",
-    "Finding",
+    "DailyWindow",
+    "FindingInput",
     "Plan",
     "PlanInputs",
     "PlannedTask",
-    "ShiftWindow",
+    "RoomLimits",
     "UnplacedTask",
     "Violation",
     "check_limits",
@@ -118,7 +118,7 @@ _RELATIVE_TOLERANCE = 1e-9
 
 
 @dataclass(frozen=True)
-class ShiftWindow:
+class DailyWindow:
     """A time each day when batteries may be off their trucks: starts at `start`, lasts `hours`."""
 
     start: time
@@ -126,7 +126,9 @@ class ShiftWindow:
 
 
 @dataclass(frozen=True)
-class ChargingRoom:
+class RoomLimits:
+    """A charging room's limits: equalize-capable chargers and the airflow its ventilation moves."""
+
     room_id: Hashable
     equalize_chargers: int
     airflow_m3h: float
@@ -143,7 +145,7 @@ class ChargingRoom:
 
 
 @dataclass(frozen=True)
-class Finding:
+class FindingInput:
     """An open finding that asks for care today: high_spread or sulfation (equalize), low_level (water)."""
 
     kind: str
@@ -174,7 +176,7 @@ class BatteryCare:
     water_every_days: int | None = 7
     last_watered: date | None = None
     watering_minutes: float = 15.0
-    findings: tuple[Finding, ...] = ()
+    findings: tuple[FindingInput, ...] = ()
 
     def __post_init__(self):
         object.__setattr__(self, "findings", tuple(self.findings))
@@ -194,21 +196,21 @@ class BatteryCare:
         return min(intervals) if intervals else None
 
 
-WindowLike = ShiftWindow | tuple
+WindowLike = DailyWindow | tuple
 
 
 @dataclass(frozen=True)
 class PlanInputs:
     """Everything the planner needs for one site.
 
-    `shift_windows` takes ShiftWindow or (start, hours) with start a `time` or "HH:MM".
+    `shift_windows` takes DailyWindow or (start, hours) with start a `time` or "HH:MM".
     """
 
     site_id: Hashable
     start_date: date
     days: int
     shift_windows: tuple[WindowLike, ...]
-    rooms: tuple[ChargingRoom, ...]
+    rooms: tuple[RoomLimits, ...]
     batteries: tuple[BatteryCare, ...]
     spares_available: int
     spares_reserve: int = 0
@@ -239,16 +241,16 @@ class PlanInputs:
         return self.start_date + timedelta(days=index)
 
 
-def _as_window(window: WindowLike) -> ShiftWindow:
-    if isinstance(window, ShiftWindow):
+def _as_window(window: WindowLike) -> DailyWindow:
+    if isinstance(window, DailyWindow):
         return window
     start, hours = window
     if isinstance(start, str):
         start = time.fromisoformat(start)
-    return ShiftWindow(start=start, hours=float(hours))
+    return DailyWindow(start=start, hours=float(hours))
 
 
-def _check_windows_do_not_overlap(windows: Sequence[ShiftWindow]) -> None:
+def _check_windows_do_not_overlap(windows: Sequence[DailyWindow]) -> None:
     if any(not 0 < w.hours <= 24 for w in windows):
         raise ValueError("shift window hours must be in (0, 24]")
     minutes = [(w.start.hour * 60 + w.start.minute, w.hours * 60) for w in windows]
@@ -596,13 +598,13 @@ class _Grid:
     def day_of(self, slot: int) -> int:
         return slot // self.slots_per_day
 
-    def window_of(self, slot: int) -> ShiftWindow:
+    def window_of(self, slot: int) -> DailyWindow:
         return self.windows[slot % self.slots_per_day]
 
     def priority(self, need: _Need) -> tuple:
         return (need.due, -need.severity, self.order[need.battery])
 
-    def room_of(self, need: _Need) -> ChargingRoom | None:
+    def room_of(self, need: _Need) -> RoomLimits | None:
         return self.rooms.get(self.batteries[need.battery].room_id)
 
     def slots_from(self, need: _Need, first_day: int, last_day: int | None = None):

@@ -14,11 +14,11 @@ from fleetcare.planner.solver import (
     EQUALIZE,
     WATER,
     BatteryCare,
-    ChargingRoom,
-    Finding,
+    FindingInput,
     Plan,
     PlanInputs,
     PlannedTask,
+    RoomLimits,
     check_limits,
     plan_care,
 )
@@ -37,7 +37,7 @@ def battery(serial, room="A", airflow=10.0, hours=3.0, due_in=0, **fields):
 
 
 def room(room_id="A", chargers=1, airflow=1000.0, baseline=0.0):
-    return ChargingRoom(room_id=room_id, equalize_chargers=chargers, airflow_m3h=airflow, baseline_airflow_m3h=baseline)
+    return RoomLimits(room_id=room_id, equalize_chargers=chargers, airflow_m3h=airflow, baseline_airflow_m3h=baseline)
 
 
 def site(batteries, rooms=None, days=7, windows=NIGHT, spares=100, reserve=0, waterings=None):
@@ -139,7 +139,7 @@ def test_it_says_which_limit_made_a_charge_late():
 
 
 def test_it_equalizes_a_severe_finding_first():
-    inputs = site([battery("A"), battery("Z", findings=[Finding("sulfation", severity=3)])])
+    inputs = site([battery("A"), battery("Z", findings=[FindingInput("sulfation", severity=3)])])
     plan = plan_care(inputs)
     assert days_of(plan) == {"Z": 0, "A": 1}
     assert next(t for t in plan.tasks if t.serial == "Z").reason.startswith("equalizing every 7 days")
@@ -147,7 +147,7 @@ def test_it_equalizes_a_severe_finding_first():
 
 
 def test_a_finding_makes_equalizing_due_today():
-    inputs = site([battery("A", due_in=5, findings=[Finding("high_spread", severity=2, note="spread 0.030")])])
+    inputs = site([battery("A", due_in=5, findings=[FindingInput("high_spread", severity=2, note="spread 0.030")])])
     [task] = plan_care(inputs).tasks
     assert task.day == START and task.due_day == START and task.severity == 2
     assert task.reason.startswith("high-spread finding (severity 2): spread 0.030")
@@ -322,7 +322,7 @@ def small_sites(draw):
             airflow=draw(st.sampled_from([20.0, 50.0, 70.0, 100.0, 130.0])),
             hours=draw(st.sampled_from([2.0, 4.0, 6.0])),
             due_in=draw(st.integers(-2, 2)),
-            findings=draw(st.sampled_from([(), (Finding("sulfation", 2),), (Finding("high_spread", 1),)])),
+            findings=draw(st.sampled_from([(), (FindingInput("sulfation", 2),), (FindingInput("high_spread", 1),)])),
         )
         for i in range(draw(st.integers(1, 5)))
     ]
@@ -381,7 +381,7 @@ def test_no_feasible_watering_plan_has_fewer_overdue_days_than_the_planner(dues,
             equalize_every_days=None,
             water_every_days=7,
             last_watered=START - timedelta(days=7 - due),
-            findings=(Finding("low_level", 2),) if low else (),
+            findings=(FindingInput("low_level", 2),) if low else (),
         )
         for i, (due, low) in enumerate(dues)
     ]
@@ -416,7 +416,7 @@ def large_site(seed, batteries=200, days=28, rooms=4):
             water_every_days=rng.choice([3, 7, None]),
             last_watered=START - timedelta(days=rng.randint(0, 7)),
             findings=tuple(
-                Finding(rng.choice(["high_spread", "sulfation", "low_level"]), rng.randint(1, 3))
+                FindingInput(rng.choice(["high_spread", "sulfation", "low_level"]), rng.randint(1, 3))
                 for _ in range(rng.choice([0, 0, 0, 1]))
             ),
         )
