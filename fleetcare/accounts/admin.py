@@ -2,12 +2,12 @@ from django.contrib import admin
 from django.contrib.auth import get_user_model
 from django.contrib.auth.admin import UserAdmin
 
-from fleetcare.accounts.models import ReadingChange, SignInFailure
+from fleetcare.accounts.models import SignInFailure
 from fleetcare.fleet.models import Site
 
 
 class ReadOnlyAdmin(admin.ModelAdmin):
-    """The audit trail is only ever added to, by the services that change readings."""
+    """Failed sign-ins are only ever added to, by the sign-in throttle."""
 
     def has_add_permission(self, request):
         return False
@@ -17,13 +17,6 @@ class ReadOnlyAdmin(admin.ModelAdmin):
 
     def has_delete_permission(self, request, obj=None):
         return False
-
-
-@admin.register(ReadingChange)
-class ReadingChangeAdmin(ReadOnlyAdmin):
-    list_display = ["changed_at", "battery", "action", "inspection", "top_up", "changed_by", "reason"]
-    list_filter = ["action", "battery__site"]
-    search_fields = ["battery__serial", "reason", "changed_by__username"]
 
 
 @admin.register(SignInFailure)

@@ -9,7 +9,7 @@ class CareConfig(AppConfig):
     def ready(self):
         from django.db.models.signals import post_save
 
-        from fleetcare.accounts.models import ReadingChange
+        from fleetcare.readings.models import ReadingChange
         from fleetcare.care import detection
         from fleetcare.readings import signals
 

@@ -1,6 +1,6 @@
 from django.contrib import admin
 
-from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
+from fleetcare.readings.models import CellReading, Inspection, ReadingChange, WaterTopUp
 
 
 class ReadOnlyAdmin:
@@ -33,3 +33,10 @@ class InspectionAdmin(ReadOnlyAdmin, admin.ModelAdmin):
 class WaterTopUpAdmin(ReadOnlyAdmin, admin.ModelAdmin):
     list_display = ["battery", "done_at", "volume_ml", "water_type", "before_charge"]
     list_filter = ["battery__site"]
+
+
+@admin.register(ReadingChange)
+class ReadingChangeAdmin(ReadOnlyAdmin, admin.ModelAdmin):
+    list_display = ["changed_at", "battery", "action", "inspection", "top_up", "changed_by", "reason"]
+    list_filter = ["action", "battery__site"]
+    search_fields = ["battery__serial", "reason", "changed_by__username"]

@@ -1,4 +1,4 @@
-"""What the crew records: inspections with their cell readings, and water top-ups.
+"""What the crew records: inspections with their cell readings, and water top-ups; and who corrected them.
 
 An inspection is never edited in place: a correction stores a new revision that supersedes the
 old one, and a deletion only marks the row. Findings, charts and budgets read current revisions.
@@ -169,3 +169,45 @@ class WaterTopUp(models.Model):
     @property
     def volume_ml_per_cell(self):
         return self.volume_ml / self.battery.profile.cell_count
+
+
+class ReadingChange(models.Model):
+    """Who corrected or removed a reading, when and why. Rows are only ever added."""
+
+    class Action(models.TextChoices):
+        CORRECTED = "corrected", "Corrected"
+        REMOVED = "removed", "Removed"
+
+    battery = models.ForeignKey("fleet.Battery", on_delete=models.PROTECT, related_name="reading_changes")
+    action = models.CharField(max_length=10, choices=Action.choices)
+    inspection = models.ForeignKey(
+        "readings.Inspection", on_delete=models.PROTECT, null=True, blank=True, related_name="changes",
+        help_text="The inspection revision that was corrected or removed.",
+    )
+    new_revision = models.OneToOneField(
+        "readings.Inspection", on_delete=models.PROTECT, null=True, blank=True, related_name="made_by_change",
+        help_text="The revision a correction stored.",
+    )
+    top_up = models.ForeignKey("readings.WaterTopUp", on_delete=models.PROTECT, null=True, blank=True, related_name="changes")
+    changed_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="reading_changes")
+    changed_at = models.DateTimeField(auto_now_add=True)
+    reason = models.CharField(max_length=200)
+
+    class Meta:
+        ordering = ["-changed_at", "-pk"]
+        indexes = [models.Index(fields=["battery", "-changed_at"], name="reading_change_battery_time")]
+        constraints = [
+            models.CheckConstraint(
+                condition=models.Q(inspection__isnull=False, top_up__isnull=True)
+                | models.Q(inspection__isnull=True, top_up__isnull=False),
+                name="reading_change_names_one_record",
+            ),
+        ]
+
+    def __str__(self):
+        what = f"inspection {self.inspection_id}" if self.inspection_id else f"top-up {self.top_up_id}"
+        return f"{what} {self.action} by {self.changed_by_id}: {self.reason}"
+
+    @property
+    def what(self):
+        return "reading" if self.inspection_id else "water top-up"

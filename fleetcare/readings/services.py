@@ -6,7 +6,7 @@ from django.db import IntegrityError, transaction
 from django.utils import timezone
 
 from fleetcare import chemistry
-from fleetcare.accounts.models import ReadingChange
+from fleetcare.readings.models import ReadingChange
 from fleetcare.readings import signals
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 

@@ -16,7 +16,7 @@ from fleetcare.accounts.access import (
     top_up_or_404,
     visible_batteries,
 )
-from fleetcare.accounts.audit import inspection_versions
+from fleetcare.readings.audit import inspection_versions
 from fleetcare.accounts.forms import ReasonForm
 from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
 from fleetcare.fleet.models import Site

@@ -3,7 +3,7 @@ import pytest
 from django.contrib.auth import get_user_model
 from django.urls import reverse
 
-from fleetcare.accounts.models import ReadingChange
+from fleetcare.readings.models import ReadingChange
 from fleetcare.readings import services
 
 from .conftest import store_inspection
@@ -23,9 +23,9 @@ def test_a_persons_page_lists_the_sites_they_work_at(root_client, crew):
 def test_the_audit_trail_is_readable_but_not_editable(root_client, battery, crew, supervisor):
     services.remove_inspection(store_inspection(battery, crew), user=supervisor, reason="entered twice")
     change = ReadingChange.objects.get()
-    assert root_client.get(reverse("admin:accounts_readingchange_changelist")).status_code == 200
-    root_client.post(reverse("admin:accounts_readingchange_delete", args=[change.pk]), {"post": "yes"})
-    assert root_client.get(reverse("admin:accounts_readingchange_add")).status_code == 403
+    assert root_client.get(reverse("admin:readings_readingchange_changelist")).status_code == 200
+    root_client.post(reverse("admin:readings_readingchange_delete", args=[change.pk]), {"post": "yes"})
+    assert root_client.get(reverse("admin:readings_readingchange_add")).status_code == 403
     assert ReadingChange.objects.get().reason == "entered twice"
 
 

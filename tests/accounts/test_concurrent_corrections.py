@@ -5,7 +5,7 @@ from decimal import Decimal
 import pytest
 from django.db import connection, connections, transaction
 
-from fleetcare.accounts.models import ReadingChange
+from fleetcare.readings.models import ReadingChange
 from fleetcare.readings import services
 from fleetcare.readings.models import Inspection
 from fleetcare.readings.services import CellEntry

@@ -6,7 +6,7 @@ import pytest
 from django.db import IntegrityError
 from django.urls import reverse
 
-from fleetcare.accounts.models import ReadingChange
+from fleetcare.readings.models import ReadingChange
 from fleetcare.readings import services
 from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import CellEntry

@@ -1,7 +1,7 @@
 """Removing a reading or a top-up keeps the row, records who and why, and stops it counting."""
 from django.urls import reverse
 
-from fleetcare.accounts.models import ReadingChange
+from fleetcare.readings.models import ReadingChange
 from fleetcare.readings import services
 from fleetcare.readings.models import Inspection, WaterTopUp
 

@@ -1,7 +1,7 @@
 """Reads of the audit trail: what was corrected or removed, by whom, when and why."""
 from django.db.models import Q
 
-from fleetcare.accounts.models import ReadingChange
+from fleetcare.readings.models import ReadingChange
 from fleetcare.readings.models import Inspection
 
 BATTERY_HISTORY_ROWS = 50

@@ -1,13 +1,13 @@
 from django import template
 
-from fleetcare.accounts.audit import battery_history
+from fleetcare.readings.audit import battery_history
 from fleetcare.accounts.roles import SUPERVISOR, has_role
 from fleetcare.readings.models import WaterTopUp
 
 register = template.Library()
 
 
-@register.inclusion_tag("accounts/_battery_history.html", takes_context=True)
+@register.inclusion_tag("readings/_battery_history.html", takes_context=True)
 def reading_history(context, battery):
     """Corrections and removals on a battery's record, for its page."""
     user = context.get("user")
