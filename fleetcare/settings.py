@@ -55,6 +55,7 @@ INSTALLED_APPS = [
     "fleetcare.dashboard",
     "fleetcare.planner",
     "fleetcare.api",
+    "fleetcare.tablet",
     "fleetcare.benchmark",
 ]
 

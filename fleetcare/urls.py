@@ -1,7 +1,7 @@
 from django.contrib import admin
 from django.urls import include, path
 
-from fleetcare.api.views import service_worker
+from fleetcare.tablet.views import service_worker
 
 urlpatterns = [
     path("", include("fleetcare.dashboard.urls")),
@@ -11,6 +11,7 @@ urlpatterns = [
     path("care/", include("fleetcare.care.urls")),
     path("budget/", include("fleetcare.budget.urls")),
     path("planner/", include("fleetcare.planner.urls")),
+    path("api/", include("fleetcare.tablet.urls")),
     path("api/", include("fleetcare.api.urls")),
     path("sw.js", service_worker, name="service_worker"),
     path("admin/", admin.site.urls),

@@ -188,7 +188,7 @@ def battery_status(battery: Battery):
 
 def offline_pages(user):
     """The entry screens a tablet keeps: the find page and every active battery's reading pages."""
-    pages = [reverse("readings:find"), reverse("api:offline"), reverse("api:outbox"), reverse("api:batteries")]
+    pages = [reverse("readings:find"), reverse("tablet:offline"), reverse("tablet:outbox"), reverse("api:batteries")]
     for battery in visible_batteries(user).active().select_related("profile").order_by("serial"):
         inspect = reverse("readings:inspect", args=[battery.pk])
         pages.append(inspect)

@@ -21,7 +21,5 @@ def _marked(patterns):
 urlpatterns = [
     path("", views.docs, name="api-root"),
     path("tokens/", views.tokens, name="tokens"),
-    path("offline/", views.offline, name="offline"),
-    path("outbox/", views.outbox, name="outbox"),
     *_marked(api.urls[0]),
 ]

@@ -1,7 +1,5 @@
-"""Pages around the API: its documentation, personal tokens, the offline screens and the service worker."""
+"""Pages around the API: its documentation and personal tokens."""
 from django.contrib import messages
-from django.contrib.staticfiles import finders
-from django.http import Http404, HttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.views.decorators.http import require_http_methods
 
@@ -60,28 +58,3 @@ def tokens(request):
     return render(request, "api/tokens.html", {
         "tokens": ApiToken.objects.filter(user=request.user), "new_secret": new_secret,
     })
-
-
-@public_view
-def offline(request):
-    """Shown by the service worker when a page is not kept on the tablet and there is no connection."""
-    return render(request, "api/offline.html")
-
-
-@role_required(CREW)
-def outbox(request):
-    """Readings kept on this tablet and not yet stored: the list itself lives in the browser (IndexedDB)."""
-    return render(request, "api/outbox.html")
-
-
-@public_view
-def service_worker(request):
-    """The service worker, served from the site root so its scope covers every entry screen."""
-    found = finders.find("sw.js")
-    if not found:
-        raise Http404("sw.js is missing from static/")
-    with open(found, encoding="utf-8") as handle:
-        response = HttpResponse(handle.read(), content_type="application/javascript; charset=utf-8")
-    response["Service-Worker-Allowed"] = "/"
-    response["Cache-Control"] = "no-cache"
-    return response

@@ -2,9 +2,9 @@
 import json
 from pathlib import Path
 
-from fleetcare.fleet.models import Battery
+from django.contrib.staticfiles import finders
 
-STATIC = Path(__file__).resolve().parents[2] / "static"
+from fleetcare.fleet.models import Battery
 
 
 def test_the_service_worker_is_served_from_the_root_for_the_whole_site(client):
@@ -16,10 +16,10 @@ def test_the_service_worker_is_served_from_the_root_for_the_whole_site(client):
 
 
 def test_the_manifest_starts_the_app_on_the_find_page_with_drawn_icons():
-    manifest = json.loads((STATIC / "manifest.webmanifest").read_text())
+    manifest = json.loads(Path(finders.find("manifest.webmanifest")).read_text())
     assert manifest["start_url"] == "/readings/find/" and manifest["display"] == "standalone"
     for icon in manifest["icons"]:
-        path = STATIC / icon["src"].removeprefix("/static/")
+        path = Path(finders.find(icon["src"].removeprefix("/static/")))
         assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
         width = int.from_bytes(path.read_bytes()[16:20], "big")
         assert icon["sizes"] == f"{width}x{width}"
