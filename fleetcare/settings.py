@@ -56,7 +56,7 @@ INSTALLED_APPS = [
     "fleetcare.planner",
     "fleetcare.api",
     "fleetcare.tablet",
-    "fleetcare.benchmark",
+    "tools.benchmark",
 ]
 
 MIDDLEWARE = [

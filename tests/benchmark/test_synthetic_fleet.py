@@ -5,7 +5,7 @@ import pytest
 from django.contrib.auth import get_user_model
 from django.db import connection
 
-from fleetcare.benchmark import fleet as fleet_data
+from tools.benchmark import fleet as fleet_data
 from fleetcare.readings.models import CellReading, Inspection
 
 pytestmark = pytest.mark.skipif(connection.vendor != "postgresql", reason="the benchmark fleet is generated with PostgreSQL SQL")

@@ -1,6 +1,6 @@
 """Draws the web app's icons (a battery with a check mark) as PNG files, with nothing but zlib.
 
-Run `python -m fleetcare.api.icons` to redraw static/icons/fleetcare-192.png and -512.png.
+Run `python -m tools.draw_icons` to redraw fleetcare/tablet/static/icons/fleetcare-192.png and -512.png.
 """
 import struct
 import zlib
@@ -9,7 +9,7 @@ from pathlib import Path
 DARK = (33, 37, 41)
 GREEN = (25, 135, 84)
 WHITE = (255, 255, 255)
-OUT = Path(__file__).resolve().parent.parent.parent / "static" / "icons"
+OUT = Path(__file__).resolve().parent.parent / "fleetcare" / "tablet" / "static" / "icons"
 
 
 def _inside(x, y, left, top, right, bottom):

@@ -2,6 +2,6 @@ from django.apps import AppConfig
 
 
 class BenchmarkConfig(AppConfig):
-    name = "fleetcare.benchmark"
+    name = "tools.benchmark"
     label = "benchmark"
     verbose_name = "Fleet-scale benchmark"

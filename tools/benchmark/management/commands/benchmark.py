@@ -17,8 +17,8 @@ from django.db import connection
 from django.test.utils import override_settings
 from django.utils import timezone
 
-from fleetcare.benchmark import fleet as fleet_data
-from fleetcare.benchmark import measure
+from tools.benchmark import fleet as fleet_data
+from tools.benchmark import measure
 
 DASHBOARD_TARGET_MS = 300
 DASHBOARD_TARGET_RATIO = 2.0
