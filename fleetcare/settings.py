@@ -56,8 +56,10 @@ INSTALLED_APPS = [
     "fleetcare.planner",
     "fleetcare.api",
     "fleetcare.tablet",
-    "tools.benchmark",
 ]
+if not PRODUCTION:
+    # Development only: `manage.py benchmark` (tools/benchmark). Production installs the product alone.
+    INSTALLED_APPS.append("tools.benchmark")
 
 MIDDLEWARE = [
     "django.middleware.security.SecurityMiddleware",

@@ -1,11 +1,6 @@
-"""Each measurement beside its reference, taken in the same run on the same data.
-
-A part whose feature is not in the code yet answers NotAvailable with the reason; nothing is faked.
-"""
+"""Each measurement beside its reference, taken in the same run on the same data."""
 import csv
 import datetime as dt
-import importlib
-import inspect
 import io
 import statistics
 import time
@@ -15,19 +10,15 @@ from decimal import Decimal
 from django.db import connection, transaction
 from django.test import Client
 from django.test.utils import CaptureQueriesContext
-from django.urls import NoReverseMatch, reverse
+from django.urls import reverse
 from django.utils import timezone
 
+from fleetcare.care.detection import detect_fleet
 from fleetcare.fleet.models import Battery
 from fleetcare.readings import csv_io
 from fleetcare.readings.models import Inspection
 
-
 IMPORT_RUNS = 3  # files imported one after the other; the median run is reported
-
-
-class NotAvailable(Exception):
-    """The feature this part measures does not exist (yet)."""
 
 
 def median_ms(fn, repeat):
@@ -185,39 +176,13 @@ def battery_record(fleet, repeat):
     return {"ms": median_ms(get, repeat), "queries": query_count(get), "serial": battery.serial, "inspections": history}
 
 
-def _call_with(fn, available):
-    """Call fn, passing by name whichever of `available` it asks for; NotAvailable if it needs anything else."""
-    kwargs = {}
-    for name, param in inspect.signature(fn).parameters.items():
-        if name in available:
-            kwargs[name] = available[name]
-        elif param.default is inspect.Parameter.empty and param.kind not in (param.VAR_POSITIONAL, param.VAR_KEYWORD):
-            raise NotAvailable(f"{fn.__module__}.{fn.__qualname__} needs “{name}”, which the benchmark does not know how to give")
-    return fn(**kwargs)
-
-
-def _find(module_name, attribute):
-    try:
-        module = importlib.import_module(module_name)
-    except ImportError as exc:
-        raise NotAvailable(f"{module_name} does not exist yet ({exc})") from exc
-    fn = getattr(module, attribute, None)
-    if fn is None:
-        raise NotAvailable(f"{module_name}.{attribute} does not exist yet")
-    return fn
-
-
 def findings_pass(fleet, repeat):
     """The whole-fleet findings pass: fleetcare.care.detection.detect_fleet."""
-    detect_fleet = _find("fleetcare.care.detection", "detect_fleet")
-    available = {
-        "batteries": Battery.objects.all(), "sites": fleet.sites, "user": fleet.supervisor, "now": timezone.now(),
-        "today": timezone.localdate(),
-    }
+    now = timezone.now()
 
     def run():
         with transaction.atomic():
-            result = _call_with(detect_fleet, available)
+            result = detect_fleet(now=now)
             transaction.set_rollback(True)  # every repeat starts from the same state
         return result
 
@@ -225,29 +190,17 @@ def findings_pass(fleet, repeat):
 
 
 def site_plan(fleet, repeat):
-    """A site's equalizing and watering plan, through the page that shows it."""
-    site = fleet.sites[0]
-    for name, args in (("planner:site", [site.code]), ("planner:plan", [site.code]), ("care:plan", [site.code]),
-                       ("planner:today", []), ("planner:home", [])):
-        try:
-            path = reverse(name, args=args)
-        except NoReverseMatch:
-            continue
-        get = page(fleet.supervisor, path)
-        return {"ms": median_ms(get, max(1, repeat // 2)), "queries": query_count(get), "path": path}
-    raise NotAvailable("no planner page for a site is wired yet (tried planner:site, planner:plan, care:plan, planner:today)")
+    """A site's equalizing and watering plan, through the week page that shows it."""
+    path = reverse("planner:plan", args=[fleet.sites[0].code])
+    get = page(fleet.supervisor, path)
+    return {"ms": median_ms(get, max(1, repeat // 2)), "queries": query_count(get), "path": path}
 
 
 def budget_export(fleet, repeat):
     """The manager's replacement budget as XLSX."""
-    for name in ("budget:export_xlsx", "budget:xlsx", "budget:export"):
-        try:
-            path = reverse(name)
-        except NoReverseMatch:
-            continue
-        get = page(fleet.manager, path)
-        return {"ms": median_ms(get, max(1, repeat // 2)), "queries": query_count(get), "path": path}
-    raise NotAvailable("no budget XLSX export is wired yet (tried budget:export_xlsx, budget:xlsx, budget:export)")
+    path = reverse("budget:export_xlsx")
+    get = page(fleet.manager, path)
+    return {"ms": median_ms(get, max(1, repeat // 2)), "queries": query_count(get), "path": path}
 
 
 def _import_rows(fleet, batteries, readings_each, minute=0):

@@ -95,8 +95,6 @@ class Command(BaseCommand):
             self.stderr.write(f"   {name}")
             try:
                 result[name] = rounded(run())
-            except measure.NotAvailable as exc:
-                result[name] = {"not_available": str(exc)}
             except Exception as exc:  # a broken feature is reported, and the other parts still run
                 result[name] = {"error": f"{type(exc).__name__}: {exc}", "trace": traceback.format_exc(limit=4)}
         return result
@@ -168,9 +166,7 @@ def table(results):
                      f"{r['summary_check']['checked']}")
         for part in ("dashboard", "battery_record", "findings_pass", "site_plan", "budget_export"):
             v = r.get(part, {})
-            if "not_available" in v:
-                lines.append(f"{size:>9}  {part:<15} {'not available':>9}           {v['not_available']}")
-            elif "error" in v:
+            if "error" in v:
                 lines.append(f"{size:>9}  {part:<15} {'ERROR':>9}           {v['error']}")
             else:
                 ref = f"SQL {v['reference_ms']} ms ({v['ms'] / v['reference_ms']:.1f}x)" if "reference_ms" in v else ""
