@@ -1,21 +1,23 @@
 """The budget as CSV and as an XLSX workbook: the same rows as the screen, numbers as numbers, dates as dates.
 
-The workbook has three sheets: Assumptions, By quarter (one row per calendar quarter and fiscal
-year, then fiscal-year totals and the grand total) and Batteries (one row per budgeted event).
-The CSV holds the same three tables one after the other, each under its own heading row.
+The workbook has one table per sheet: Assumptions, By quarter (one row per calendar quarter and fiscal year),
+By fiscal year, and Batteries (one row per budgeted event). Each event's amount, each quarter's and fiscal
+year's events and amount, and every total are formulas over the Batteries rows, written with the value the
+screen shows, so the totals follow when finance edits a row. Money headers and formats carry the currency.
+The CSV holds the same four tables one after the other, each under its own heading row.
+Every cell goes through fleetcare.spreadsheets, so no text can become a formula.
 """
-import csv
 import io
+import re
 from datetime import date
 
-from openpyxl import Workbook
-from openpyxl.styles import Font
-from openpyxl.utils import get_column_letter
+import xlsxwriter
+from xlsxwriter.utility import xl_col_to_name
 
 from fleetcare.budget.forecast import EVIDENCE_LABELS
+from fleetcare.spreadsheets import CsvWriter, Formula, write_xlsx_row
 
 DATE_FORMAT = "yyyy-mm-dd"
-MONEY_FORMAT = "#,##0.00"
 MONTHS = ("January", "February", "March", "April", "May", "June", "July", "August", "September", "October",
           "November", "December")
 
@@ -86,6 +88,13 @@ LINE_HEADER = (
     "Earliest", "Likely", "Latest", "Overdue since", "Unit price", "Escalated price", "Installation",
     "Scrap credit", "Amount", "Whole battery instead",
 )
+LINE_MONEY = range(13, 19)  # Unit price .. Whole battery instead
+LINE_DATES = (2, 9, 10, 11, 12)
+MONEY_ASSUMPTIONS = ("Installation per battery", "Scrap-lead credit per kg", "Replacement cost per cell", "Unit price: ")
+
+
+def money_header(title, currency):
+    return f"{title} ({currency})" if currency else title
 
 
 def quarter_rows(budget):
@@ -109,72 +118,124 @@ def line_rows(budget):
     return rows
 
 
-def _sheet(ws, header, rows, money_from=None):
-    ws.append(list(header))
-    for cell in ws[1]:
-        cell.font = Font(bold=True)
-    for row in rows:
-        ws.append(list(row))
-    for row in ws.iter_rows(min_row=2):
-        for cell in row:
-            if isinstance(cell.value, date):
-                cell.number_format = DATE_FORMAT
-            elif isinstance(cell.value, float) and money_from is not None and cell.column >= money_from:
-                cell.number_format = MONEY_FORMAT
-    for i, title in enumerate(header, start=1):
-        ws.column_dimensions[get_column_letter(i)].width = max(12, min(48, len(title) + 4))
-    ws.freeze_panes = "A2"
+def _money_format(currency):
+    """#,##0.00 with the currency after it, e.g. 1,234.50 GBP; only letters and symbols of it reach the format."""
+    shown = re.sub(r'["\\;\[\]]', "", currency or "").strip()
+    return f'#,##0.00 "{shown}"' if shown else "#,##0.00"
+
+
+class _Book:
+    def __init__(self, out, currency):
+        self.wb = xlsxwriter.Workbook(out, {"in_memory": True, "strings_to_formulas": False,
+                                            "strings_to_numbers": False, "strings_to_urls": False})
+        self.bold = self.wb.add_format({"bold": True})
+        self.date = self.wb.add_format({"num_format": DATE_FORMAT})
+        self.money = self.wb.add_format({"num_format": _money_format(currency)})
+        self.money_bold = self.wb.add_format({"num_format": _money_format(currency), "bold": True})
+        self.currency = currency
+
+    def sheet(self, name, header, widths=None):
+        ws = self.wb.add_worksheet(name)
+        write_xlsx_row(ws, 0, header, {c: self.bold for c in range(len(header))})
+        for col, title in enumerate(header):
+            ws.set_column(col, col, (widths or {}).get(col, max(12, min(48, len(title) + 4))))
+        ws.freeze_panes(1, 0)
+        return ws
+
+
+def _col(index):
+    return xl_col_to_name(index)
 
 
 def to_xlsx(budget, assumptions, scope):
-    wb = Workbook()
-    ws = wb.active
-    ws.title = "Assumptions"
-    _sheet(ws, ("Assumption", "Value"), assumption_rows(budget, assumptions, scope) + prices_rows(budget))
-    ws.column_dimensions["A"].width = 52
-    ws.column_dimensions["B"].width = 60
-
-    ws = wb.create_sheet("By quarter")
-    _sheet(ws, QUARTER_HEADER, quarter_rows(budget), money_from=5)
-    ws.append([])
-    ws.append(list(FISCAL_HEADER))
-    ws.cell(ws.max_row, 1).font = Font(bold=True)
-    for label, count, amount in fiscal_rows(budget):
-        ws.append([label, count, amount])
-        ws.cell(ws.max_row, 3).number_format = MONEY_FORMAT
-    ws.append([])
-    ws.append(["Total", None, None, budget.count, float(budget.total)])
-    ws.cell(ws.max_row, 1).font = Font(bold=True)
-    ws.cell(ws.max_row, 5).number_format = MONEY_FORMAT
-
-    ws = wb.create_sheet("Batteries")
-    _sheet(ws, LINE_HEADER, line_rows(budget), money_from=14)
     out = io.BytesIO()
-    wb.save(out)
+    currency = assumptions.currency
+    book = _Book(out, currency)
+
+    ws = book.sheet("Assumptions", ("Assumption", "Value"), widths={0: 52, 1: 60})
+    for r, (label, value) in enumerate(assumption_rows(budget, assumptions, scope) + prices_rows(budget), start=1):
+        if isinstance(value, float) and label.startswith(MONEY_ASSUMPTIONS):
+            fmt = book.money
+        else:
+            fmt = book.date if isinstance(value, date) else None
+        write_xlsx_row(ws, r, (label, value), {1: fmt})
+
+    lines = line_rows(budget)
+    n = len(lines)
+    first, last = 2, n + 1  # the Batteries rows, 1-based as the formulas name them
+
+    def column(index):
+        letter = _col(index)
+        return f"Batteries!${letter}${first}:${letter}${last}"
+
+    quarter_col, fiscal_col, serial_col, amount_col = column(0), column(1), column(3), column(17)
+
+    ws = book.sheet("By quarter", QUARTER_HEADER[:4] + (money_header("Amount", currency),))
+    for r, (label, start, fy, count, amount) in enumerate(quarter_rows(budget), start=1):
+        row = r + 1
+        if n:
+            events = Formula(f"=COUNTIFS({quarter_col},A{row},{fiscal_col},C{row})", count)
+            subtotal = Formula(f"=SUMIFS({amount_col},{quarter_col},A{row},{fiscal_col},C{row})", amount)
+        else:
+            events, subtotal = count, amount
+        write_xlsx_row(ws, r, (label, start, fy, events, subtotal), {1: book.date, 4: book.money})
+    _total_row(ws, book, len(budget.quarters) + 1, {3: budget.count, 4: float(budget.total)}, money_cols=(4,))
+
+    ws = book.sheet("By fiscal year", FISCAL_HEADER[:2] + (money_header("Amount", currency),))
+    for r, (label, count, amount) in enumerate(fiscal_rows(budget), start=1):
+        row = r + 1
+        if n:
+            events = Formula(f"=COUNTIFS({fiscal_col},A{row})", count)
+            subtotal = Formula(f"=SUMIFS({amount_col},{fiscal_col},A{row})", amount)
+        else:
+            events, subtotal = count, amount
+        write_xlsx_row(ws, r, (label, events, subtotal), {2: book.money})
+    _total_row(ws, book, len(budget.fiscal_years) + 1, {1: budget.count, 2: float(budget.total)}, money_cols=(2,))
+
+    header = tuple(money_header(t, currency) if i in LINE_MONEY else t for i, t in enumerate(LINE_HEADER))
+    ws = book.sheet("Batteries", header)
+    formats = {**{c: book.date for c in LINE_DATES}, **{c: book.money for c in LINE_MONEY}}
+    for r, values in enumerate(lines, start=1):
+        row = r + 1
+        values = list(values)
+        values[17] = Formula(f"=O{row}+P{row}-Q{row}", values[17])  # escalated price + installation - scrap credit
+        write_xlsx_row(ws, r, values, formats)
+    _total_row(ws, book, n + 1, {3: budget.count, 17: float(budget.total)}, money_cols=(17,),
+               count_of=serial_col.split("!")[1])
+    book.wb.close()
     return out.getvalue()
 
 
-def _csv_value(value):
-    if isinstance(value, date):
-        return value.isoformat()
-    if isinstance(value, float):
-        return ("%.6f" % value).rstrip("0").rstrip(".")
-    return "" if value is None else value
+def _total_row(ws, book, r, values, money_cols, count_of=None):
+    """The Total row under a table at 0-based row r: each given column summed over the rows above it."""
+    write_xlsx_row(ws, r, ("Total",), {0: book.bold})
+    for col, value in values.items():
+        letter = _col(col)
+        if r <= 1:
+            formula = value
+        elif count_of is not None and col not in money_cols:
+            formula = Formula(f"=COUNTA({count_of})", value)
+        else:
+            formula = Formula(f"=SUM({letter}2:{letter}{r})", value)
+        write_xlsx_row(ws, r, [formula], {0: book.money_bold if col in money_cols else book.bold}, first_col=col)
 
 
 def to_csv(budget, assumptions, scope):
     out = io.StringIO()
-    w = csv.writer(out)
+    w = CsvWriter(out)
+    currency = assumptions.currency
 
     def table(title, header, rows):
         w.writerow([title])
         w.writerow(header)
-        for row in rows:
-            w.writerow([_csv_value(v) for v in row])
+        w.writerows(rows)
         w.writerow([])
 
     table("Assumptions", ("Assumption", "Value"), assumption_rows(budget, assumptions, scope) + prices_rows(budget))
-    table("By quarter", QUARTER_HEADER, quarter_rows(budget) + [("Total", "", "", budget.count, float(budget.total))])
-    table("By fiscal year", FISCAL_HEADER, fiscal_rows(budget))
-    table("Batteries", LINE_HEADER, line_rows(budget))
+    table("By quarter", QUARTER_HEADER[:4] + (money_header("Amount", currency),),
+          quarter_rows(budget) + [("Total", None, None, budget.count, float(budget.total))])
+    table("By fiscal year", FISCAL_HEADER[:2] + (money_header("Amount", currency),),
+          fiscal_rows(budget) + [("Total", budget.count, float(budget.total))])
+    table("Batteries", tuple(money_header(t, currency) if i in LINE_MONEY else t for i, t in enumerate(LINE_HEADER)),
+          line_rows(budget))
     return out.getvalue()

@@ -11,6 +11,7 @@ from fleetcare.budget.forms import AssumptionsForm, CapacityTestForm, ProfileSet
 from fleetcare.care import policy as care_policy
 from fleetcare.budget.models import BudgetAssumptions, CapacityTest
 from fleetcare.fleet.models import BatteryProfile
+from fleetcare.spreadsheets import attach
 
 MAX_YEARS = 10
 
@@ -81,8 +82,7 @@ def export(request, fmt):
     else:
         response = HttpResponse(exports.to_csv(budget, assumptions, filters["scope"]),
                                 content_type="text/csv; charset=utf-8")
-    response["Content-Disposition"] = f'attachment; filename="replacement-budget-{stamp}.{fmt}"'
-    return response
+    return attach(response, f"replacement-budget-{stamp}.{fmt}")
 
 
 @role_required(MANAGER)

@@ -21,6 +21,7 @@ from fleetcare.readings import signals
 from fleetcare.readings.forms import SG_HIGH, SG_LOW, TEMP_HIGH_C, TEMP_LOW_C
 from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import SG_PLACES, _q, corrected_cell_sg, summarise
+from fleetcare.spreadsheets import CsvWriter
 
 COLUMNS = ["serial", "taken_at", "situation", "cell", "sg", "temp", "volts", "level"]
 EXPORT_COLUMNS = COLUMNS + ["sg_corrected", "inspection_soc_percent"]
@@ -451,7 +452,7 @@ def _insert_cells(inspections_and_cells):
 
 def write_battery_readings(out, battery):
     """Every current cell reading of a battery, oldest first, in the import format plus computed columns."""
-    writer = csv.writer(out)
+    writer = CsvWriter(out)
     writer.writerow(EXPORT_COLUMNS)
     cells = (
         CellReading.objects.filter(inspection__in=Inspection.objects.current().filter(battery=battery))

@@ -24,6 +24,7 @@ from fleetcare.readings import csv_io, selectors, services
 from fleetcare.readings.forms import InspectionForm, TopUpForm
 from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import record_inspection, record_top_up
+from fleetcare.spreadsheets import attach
 
 
 @role_required(CREW)
@@ -205,7 +206,7 @@ def top_up(request, pk):
 def export_csv(request, pk):
     battery = battery_or_404(request.user, pk)
     response = HttpResponse(content_type="text/csv; charset=utf-8")
-    response["Content-Disposition"] = f'attachment; filename="readings-{battery.serial}.csv"'
+    attach(response, f"readings-{battery.serial}.csv")
     csv_io.write_battery_readings(response, battery)
     return response
 
