@@ -56,6 +56,7 @@ INSTALLED_APPS = [
     "fleetcare.planner",
     "fleetcare.api",
     "fleetcare.tablet",
+    "fleetcare.demo",
 ]
 if not PRODUCTION:
     # Development only: `manage.py benchmark` (tools/benchmark). Production installs the product alone.

@@ -1,6 +1,6 @@
 """Budget data for the invented demo fleet: assumptions and a few capacity tests. Invented figures.
 
-Runs after fleetcare.fleet.demo.load(); adds nothing if the assumptions row or any demo capacity
+Runs after fleetcare.demo.fleet.load(); adds nothing if the assumptions row or any demo capacity
 test is already there, so `manage.py demo` may be run again freely.
 """
 from datetime import timedelta

@@ -1,4 +1,4 @@
-"""Planner demo data on top of the invented fleet (fleetcare.fleet.demo): room settings and a few equalizing charges.
+"""Planner demo data on top of the invented fleet (fleetcare.demo.fleet): room settings and a few equalizing charges.
 
 All invented. The Harwick Road room has ten chargers but 180 m³/h of ventilation, less than ten 48 V
 trays on normal charge need by IEC/EN 62485-3 at I_gas 2 (about 188 m³/h); the demo says six charge at

@@ -3,7 +3,7 @@
 from django.utils import timezone
 
 from fleetcare.planner import solver
-from fleetcare.fleet import demo as fleet_demo
+from fleetcare.demo import fleet as fleet_demo
 from fleetcare.fleet.models import Site
 from fleetcare.planner import demo
 from fleetcare.planner import inputs as planner_inputs

@@ -3,7 +3,7 @@ from django.core.management.base import BaseCommand
 
 from fleetcare.budget import demo as budget_demo
 from fleetcare.care.detection import detect_fleet
-from fleetcare.fleet import demo
+from fleetcare.demo import fleet as demo
 from fleetcare.planner import demo as planner_demo
 
 
