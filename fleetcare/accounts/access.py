@@ -1,17 +1,14 @@
-"""Who may see and do what.
+"""Who may do what: every view is wrapped in role_required(least_role), or public_view for sign-in pages.
 
-Every view is wrapped in role_required(least_role) (or public_view for sign-in pages), and fetches
-site objects through the helpers here, so another site's objects answer 404.
+Views fetch site objects through fleetcare.fleet.access and fleetcare.readings.access, so another
+site's objects answer 404.
 """
 from functools import wraps
 
 from django.contrib.auth.views import redirect_to_login
 from django.core.exceptions import PermissionDenied
-from django.shortcuts import get_object_or_404
 
-from fleetcare.accounts.roles import ADMINISTRATOR, has_role
-from fleetcare.fleet.models import Battery, Site
-from fleetcare.readings.models import Inspection, WaterTopUp
+from fleetcare.accounts.roles import has_role
 
 
 def role_required(least_role):
@@ -35,41 +32,3 @@ def role_required(least_role):
 def public_view(view):
     view.least_role = None
     return view
-
-
-def visible_sites(user):
-    """Administrators (and superusers) see every site; everyone else, managers included, only their own."""
-    if has_role(user, ADMINISTRATOR):
-        return Site.objects.all()
-    return Site.objects.for_user(user)
-
-
-def site_or_404(user, code):
-    return get_object_or_404(visible_sites(user), code=code)
-
-
-def visible_batteries(user):
-    return Battery.objects.filter(site__in=visible_sites(user))
-
-
-def battery_or_404(user, pk):
-    return get_object_or_404(visible_batteries(user).select_related("profile", "site", "charging_room"), pk=pk)
-
-
-def visible_inspections(user):
-    """Every revision, current or not, of inspections at the user's sites (filter with .current() to count them)."""
-    return Inspection.objects.filter(battery__site__in=visible_sites(user))
-
-
-def inspection_or_404(user, pk):
-    return get_object_or_404(
-        visible_inspections(user).select_related("battery__profile", "battery__site", "taken_by", "deleted_by"), pk=pk
-    )
-
-
-def visible_top_ups(user):
-    return WaterTopUp.objects.filter(battery__site__in=visible_sites(user))
-
-
-def top_up_or_404(user, pk):
-    return get_object_or_404(visible_top_ups(user).select_related("battery__profile", "battery__site", "done_by"), pk=pk)

@@ -10,10 +10,10 @@ from ninja.errors import AuthorizationError, HttpError, ValidationError
 from ninja.security import APIKeyCookie, HttpBearer
 from ninja.utils import check_csrf
 
-from fleetcare.accounts.access import battery_or_404
 from fleetcare.accounts.roles import CREW, has_role, role_of
 from fleetcare.api import schemas, selectors, services
 from fleetcare.api.tokens import user_for_secret
+from fleetcare.fleet.access import battery_or_404
 
 LEAST_ROLE = CREW
 SAFE_METHODS = ("GET", "HEAD", "OPTIONS")

@@ -3,7 +3,7 @@ from django.db.models import Prefetch
 from django.templatetags.static import static
 from django.urls import reverse
 
-from fleetcare.accounts.access import visible_batteries, visible_sites
+from fleetcare.fleet.access import visible_batteries, visible_sites
 from fleetcare.fleet.models import Battery, BatteryProfile, Fitting
 from fleetcare.readings.models import Inspection, WaterTopUp
 

@@ -3,13 +3,14 @@ from django.http import Http404, HttpResponse
 from django.shortcuts import redirect, render
 from django.views.decorators.http import require_http_methods
 
-from fleetcare.accounts.access import role_required, visible_batteries, visible_sites
+from fleetcare.accounts.access import role_required
 from fleetcare.accounts.roles import MANAGER, SUPERVISOR
 from fleetcare.budget import exports, selectors, services
 from fleetcare.budget.forecast import Bucket
 from fleetcare.budget.forms import AssumptionsForm, CapacityTestForm, ProfileSettingsForm
-from fleetcare.care import policy as care_policy
 from fleetcare.budget.models import BudgetAssumptions, CapacityTest
+from fleetcare.care import policy as care_policy
+from fleetcare.fleet.access import visible_batteries, visible_sites
 from fleetcare.fleet.models import BatteryProfile
 from fleetcare.spreadsheets import attach
 

@@ -24,7 +24,7 @@ class FindingQuerySet(models.QuerySet):
 
     def visible_to(self, user):
         """Findings of the batteries the user may see (the access rules live in fleetcare.accounts.access)."""
-        from fleetcare.accounts.access import visible_batteries
+        from fleetcare.fleet.access import visible_batteries
 
         return self.filter(battery__in=visible_batteries(user))
 

@@ -6,11 +6,12 @@ from django.urls import reverse
 from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_http_methods, require_POST
 
-from fleetcare.accounts.access import role_required, visible_batteries, visible_sites
+from fleetcare.accounts.access import role_required
 from fleetcare.accounts.roles import CREW, SUPERVISOR
 from fleetcare.care import detection, selectors, services
 from fleetcare.care.forms import AcknowledgeForm, FindingFilterForm
 from fleetcare.care.models import Finding
+from fleetcare.fleet.access import visible_batteries, visible_sites
 
 PAGE_SIZE = 100
 

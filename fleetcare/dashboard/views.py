@@ -4,10 +4,11 @@ from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_POST
 
-from fleetcare.accounts.access import role_required, site_or_404, visible_batteries, visible_sites
+from fleetcare.accounts.access import role_required
 from fleetcare.accounts.roles import ADMINISTRATOR, CREW, SUPERVISOR, has_role
 from fleetcare.dashboard import selectors, settings_page
 from fleetcare.dashboard.forms import ChangeSettingForm
+from fleetcare.fleet.access import site_or_404, visible_batteries, visible_sites
 from fleetcare.fleet.models import BatteryProfile
 
 

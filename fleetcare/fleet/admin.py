@@ -1,4 +1,6 @@
 from django.contrib import admin
+from django.contrib.auth import get_user_model
+from django.contrib.auth.admin import UserAdmin
 
 from fleetcare.fleet.models import Battery, BatteryProfile, ChargingRoom, Fitting, ShiftWindow, Site, Vehicle
 
@@ -44,3 +46,21 @@ class VehicleAdmin(admin.ModelAdmin):
     list_display = ["asset_number", "kind", "site", "active"]
     list_filter = ["site", "kind"]
     search_fields = ["asset_number"]
+
+
+class SiteMembershipInline(admin.TabularInline):
+    model = Site.members.through
+    extra = 1
+    verbose_name = "site membership"
+    verbose_name_plural = "sites this person works at"
+
+
+User = get_user_model()
+admin.site.unregister(User)
+
+
+@admin.register(User)
+class FleetCareUserAdmin(UserAdmin):
+    inlines = [SiteMembershipInline]
+    list_display = ["username", "first_name", "last_name", "is_active", "last_login"]
+    list_filter = ["groups", "is_active", "sites"]

@@ -4,9 +4,10 @@ from django.core.paginator import Paginator
 from django.shortcuts import render
 from django.utils import timezone
 
-from fleetcare.accounts.access import battery_or_404, role_required, visible_batteries, visible_sites
+from fleetcare.accounts.access import role_required
 from fleetcare.accounts.roles import CREW
 from fleetcare.fleet import selectors
+from fleetcare.fleet.access import battery_or_404, visible_batteries, visible_sites
 from fleetcare.fleet.models import Battery, BatteryProfile
 
 COLUMNS = (

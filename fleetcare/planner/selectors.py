@@ -8,9 +8,9 @@ from django.db.models import Q
 from django.urls import reverse
 from django.utils import timezone
 
-from fleetcare.accounts.access import visible_sites
-from fleetcare.planner import solver
+from fleetcare.fleet.access import visible_sites
 from fleetcare.fleet.models import Battery, Site
+from fleetcare.planner import solver
 from fleetcare.planner import inputs as planner_inputs
 from fleetcare.planner.models import EqualizingCharge, TaskSkip
 from fleetcare.planner.plans import PLAN_DAYS, plans_for

@@ -5,16 +5,10 @@ from django.urls import reverse
 from django.utils import timezone
 from django.views.decorators.http import require_http_methods, require_POST
 
-from fleetcare.accounts.access import (
-    battery_or_404,
-    public_view,
-    role_required,
-    site_or_404,
-    visible_batteries,
-    visible_sites,
-)
+from fleetcare.accounts.access import public_view, role_required
 from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
 from fleetcare.chemistry.equalizing import sg_has_levelled, spaced_readings
+from fleetcare.fleet.access import battery_or_404, site_or_404, visible_batteries, visible_sites
 from fleetcare.planner import ical, selectors, services
 from fleetcare.planner.forms import EndChargeForm, ReadingForm, SkipForm, StartChargeForm
 from fleetcare.planner.models import SiteSettings

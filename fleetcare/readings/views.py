@@ -9,18 +9,14 @@ from django.utils import timezone
 from django.views.decorators.http import require_http_methods
 
 from fleetcare import chemistry
-from fleetcare.accounts.access import (
-    battery_or_404,
-    inspection_or_404,
-    role_required,
-    top_up_or_404,
-    visible_batteries,
-)
-from fleetcare.readings.audit import inspection_versions
+from fleetcare.accounts.access import role_required
 from fleetcare.accounts.forms import ReasonForm
 from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
+from fleetcare.fleet.access import battery_or_404, visible_batteries
 from fleetcare.fleet.models import Site
 from fleetcare.readings import csv_io, selectors, services
+from fleetcare.readings.access import inspection_or_404, top_up_or_404
+from fleetcare.readings.audit import inspection_versions
 from fleetcare.readings.forms import InspectionForm, TopUpForm
 from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import record_inspection, record_top_up

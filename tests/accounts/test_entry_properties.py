@@ -9,7 +9,7 @@ from django.urls import reverse
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
-from fleetcare.accounts.access import visible_batteries
+from fleetcare.fleet.access import visible_batteries
 from fleetcare.readings.csv_io import import_readings
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 

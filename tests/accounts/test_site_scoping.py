@@ -4,7 +4,8 @@ from django.contrib.auth import get_user_model
 from django.core.management import CommandError, call_command
 from django.urls import reverse
 
-from fleetcare.accounts.access import visible_batteries, visible_inspections, visible_sites, visible_top_ups
+from fleetcare.fleet.access import visible_batteries, visible_sites
+from fleetcare.readings.access import visible_inspections, visible_top_ups
 from fleetcare.readings.models import Inspection
 
 from .conftest import store_inspection, store_top_up

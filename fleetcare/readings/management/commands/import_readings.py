@@ -1,7 +1,7 @@
 from django.contrib.auth import get_user_model
 from django.core.management.base import BaseCommand, CommandError
 
-from fleetcare.accounts.access import visible_batteries
+from fleetcare.fleet.access import visible_batteries
 from fleetcare.readings.csv_io import import_readings
 
 
