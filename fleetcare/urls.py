@@ -6,7 +6,7 @@ from fleetcare.tablet.views import service_worker
 urlpatterns = [
     path("", include("fleetcare.dashboard.urls")),
     path("accounts/", include("fleetcare.accounts.urls")),
-    path("batteries/", include("fleetcare.fleet.urls")),
+    path("batteries/", include("fleetcare.dashboard.battery_urls")),
     path("readings/", include("fleetcare.readings.urls")),
     path("care/", include("fleetcare.care.urls")),
     path("budget/", include("fleetcare.budget.urls")),

@@ -19,7 +19,7 @@ from django.urls import reverse
 from django.utils import timezone
 
 from fleetcare import charts
-from fleetcare.fleet import selectors as fleet
+from fleetcare.dashboard import battery_selectors as fleet
 from fleetcare.fleet.models import Battery, Fitting
 from fleetcare.readings.models import Inspection, WaterTopUp
 

@@ -4,7 +4,7 @@ import pytest
 from django.urls import reverse
 
 from fleetcare.care.models import Finding
-from fleetcare.fleet import selectors
+from fleetcare.dashboard import battery_selectors as selectors
 from fleetcare.fleet.models import Battery
 from tests.dashboard.conftest import read, water
 

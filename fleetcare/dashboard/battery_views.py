@@ -6,7 +6,7 @@ from django.utils import timezone
 
 from fleetcare.accounts.access import role_required
 from fleetcare.accounts.roles import CREW
-from fleetcare.fleet import selectors
+from fleetcare.dashboard import battery_selectors as selectors
 from fleetcare.fleet.access import battery_or_404, visible_batteries, visible_sites
 from fleetcare.fleet.models import Battery, BatteryProfile
 
@@ -30,7 +30,7 @@ def battery_list(request):
     sites = visible_sites(request.user)
     return render(
         request,
-        "fleet/battery_list.html",
+        "dashboard/battery_list.html",
         {
             "page": page,
             "filters": filters,
@@ -65,4 +65,4 @@ def _sort_links(filters):
 @role_required(CREW)
 def battery_detail(request, pk):
     battery = battery_or_404(request.user, pk)
-    return render(request, "fleet/battery_detail.html", selectors.battery_record(battery))
+    return render(request, "dashboard/battery_detail.html", selectors.battery_record(battery))
