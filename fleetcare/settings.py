@@ -99,6 +99,9 @@ DATABASES = {
     "default": dj_database_url.config(
         default=f"sqlite:///{BASE_DIR / 'db.sqlite3'}",
         conn_max_age=int(os.environ.get("DB_CONN_MAX_AGE", "60")),
+        # A kept connection is checked before a request reuses it, so one the database dropped (restart,
+        # failover, idle timeout) is replaced instead of failing that request.
+        conn_health_checks=env_bool("DB_CONN_HEALTH_CHECKS", default=True),
     )
 }
 if DATABASES["default"]["ENGINE"] == "django.db.backends.postgresql":

@@ -38,18 +38,36 @@ def run(command, env, timeout=300):
     return result
 
 
-@contextlib.contextmanager
-def production_server(tmp_path, database_url=None):
-    """Build, load the demo fleet, serve under gunicorn with production settings; yield the base URL."""
-    static_root = tmp_path / "static"
-    database_url = database_url or f"sqlite:///{tmp_path / 'served.sqlite3'}"
+def build_static(static_root):
+    """The production build script, into `static_root`."""
+    run(["sh", "bin/build"], base_env(PYTHON=sys.executable, STATIC_ROOT=str(static_root)))
+
+
+def load_world(database_url, demo=True):
+    """The demo fleet, or only an administrator `probe` (password DEMO_PASSWORD)."""
     python = sys.executable
-    run(["sh", "bin/build"], base_env(PYTHON=python, STATIC_ROOT=str(static_root)))
-    run([python, "manage.py", "demo", "--no-serve"], base_env(DATABASE_URL=database_url))
+    if demo:
+        run([python, "manage.py", "demo", "--no-serve"], base_env(DATABASE_URL=database_url))
+    else:
+        run([python, "manage.py", "migrate", "--noinput"], base_env(DATABASE_URL=database_url))
+        run([python, "manage.py", "createsuperuser", "--noinput", "--username", "probe", "--email", "probe@example.org"],
+            base_env(DATABASE_URL=database_url, DJANGO_SUPERUSER_PASSWORD=DEMO_PASSWORD))
+
+
+@contextlib.contextmanager
+def production_server(tmp_path, database_url=None, workers=2, static_root=None, **settings):
+    """Serve under gunicorn with production settings (building and loading the demo unless given); yield the URL."""
+    if static_root is None:
+        static_root = tmp_path / "static"
+        build_static(static_root)
+    if database_url is None:
+        database_url = f"sqlite:///{tmp_path / 'served.sqlite3'}"
+        load_world(database_url)
+    python = sys.executable
     port = free_port()
     env = base_env(
         FLEETCARE_PRODUCTION="1", SECRET_KEY=secrets.token_urlsafe(50), ALLOWED_HOSTS=HOST,
-        DATABASE_URL=database_url, STATIC_ROOT=str(static_root), WEB_BIND=f"{HOST}:{port}", WEB_WORKERS="2",
+        DATABASE_URL=database_url, STATIC_ROOT=str(static_root), WEB_BIND=f"{HOST}:{port}", WEB_WORKERS=str(workers), **settings,
     )
     log = open(tmp_path / "gunicorn.log", "w")
     gunicorn = str(Path(python).with_name("gunicorn"))
