@@ -214,5 +214,28 @@ def _plain(value):
     raise TypeError(f"{type(value).__name__} cannot go into a chart")
 
 
+# plotly draws a little HTML in any label (<a href>, <b>, <span style>, entities). Our own hover templates
+# are the only markup we send whole; every other string (serials, truck numbers, names, titles) goes as plain
+# text, keeping only the harmless line breaks and sub/superscripts our titles are written with.
+OWN_MARKUP = {"hovertemplate", "texttemplate"}
+KEPT_TAGS = {f"&lt;{tag}&gt;": f"<{tag}>" for tag in ("br", "sup", "/sup", "sub", "/sub")}
+
+
+def _as_plain_text(value, key=None):
+    if isinstance(value, str):
+        if key in OWN_MARKUP:
+            return value
+        text = value.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+        for escaped, tag in KEPT_TAGS.items():
+            text = text.replace(escaped, tag)
+        return text
+    if isinstance(value, dict):
+        return {k: v if k == "template" else _as_plain_text(v, k) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_as_plain_text(v, key) for v in value]
+    return value
+
+
 def to_json(fig):
-    return json.dumps(fig, default=_plain, separators=(",", ":"))
+    """The figure for the page, every label in it plain text."""
+    return json.dumps(_as_plain_text(fig), default=_plain, separators=(",", ":"))

@@ -45,3 +45,8 @@ def revoke_token(token):
         token.revoked_at = timezone.now()
         ApiToken.objects.filter(pk=token.pk, revoked_at__isnull=True).update(revoked_at=token.revoked_at)
     return token
+
+
+def revoke_all_tokens(user):
+    """Revoke every live token of a user (their password changed: whoever knew the old one may hold a token)."""
+    return ApiToken.objects.live().filter(user=user).update(revoked_at=timezone.now())

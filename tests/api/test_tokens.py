@@ -61,3 +61,30 @@ def test_the_command_refuses_to_guess_which_token_to_revoke(crew):
         call_command("api_token", "revoke", "crew1")
     with pytest.raises(CommandError, match="No user"):
         call_command("api_token", "list", "nobody-of-that-name")
+
+
+def test_changing_the_password_revokes_every_token(crew_client, crew, supervisor):
+    from fleetcare.api.tokens import create_token
+
+    _, secret = create_token(crew, "workshop sheet")
+    _, other_secret = create_token(supervisor, "supervisor's")
+    assert Client(HTTP_AUTHORIZATION=f"Bearer {secret}").get("/api/sites").status_code == 200
+    response = crew_client.post("/accounts/password_change/", {
+        "old_password": "not-a-real-password-1", "new_password1": "a-new-passphrase-2026", "new_password2": "a-new-passphrase-2026",
+    })
+    assert response.status_code == 302
+    assert Client(HTTP_AUTHORIZATION=f"Bearer {secret}").get("/api/sites").status_code == 401
+    assert not ApiToken.objects.live().filter(user=crew).exists()
+    assert Client(HTTP_AUTHORIZATION=f"Bearer {other_secret}").get("/api/sites").status_code == 200
+
+
+def test_a_password_set_in_code_revokes_the_tokens_too_and_other_saves_do_not(crew):
+    from fleetcare.api.tokens import create_token
+
+    create_token(crew, "laptop")
+    crew.last_login = None
+    crew.save()  # saving without a new password keeps them
+    assert ApiToken.objects.live().filter(user=crew).count() == 1
+    crew.set_password("another-passphrase-2026")
+    crew.save()
+    assert ApiToken.objects.live().filter(user=crew).count() == 0

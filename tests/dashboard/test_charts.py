@@ -66,3 +66,17 @@ def test_the_guide_line_spans_the_plot_at_its_value_with_its_meaning_beside_it()
     (shape,) = validated.layout.shapes
     assert (shape.y0, shape.y1, shape.x0, shape.x1, shape.xref) == (20, 20, 0, 1, "x domain")
     assert validated.layout.annotations[0].text == "20 points"
+
+
+def test_labels_from_data_reach_plotly_as_plain_text():
+    evil = '<a href="https://evil.example/">B02</a>'
+    fig = charts.box_with_outliers(
+        [(f"Truck {evil}", [("2026-01", [1.0, 2.0, 3.0, 2.5])], [("2026-01", 9.0, evil)])],
+        f"Water per cell<br><sup><b>{evil}</b></sup>", "mL",
+    )
+    sent = charts.to_json(fig)
+    assert "<a" not in sent and "<b>" not in sent
+    assert "&lt;a href=\\\"https://evil.example/\\\"&gt;B02&lt;/a&gt;" in sent
+    assert "Water per cell<br><sup>&lt;b&gt;" in sent  # our own line break and superscript stay
+    assert "%{text} %{y}<extra></extra>" in sent  # our own hover template stays
+    go.Figure(json.loads(sent))
