@@ -46,6 +46,8 @@ INSTALLED_APPS = [
     "whitenoise.runserver_nostatic",
     "django.contrib.staticfiles",
     "crispy_forms",
+    "django_tasks",
+    "django_tasks_db",
     "crispy_bootstrap5",
     "fleetcare.accounts",
     "fleetcare.fleet",
@@ -137,6 +139,18 @@ STORAGES = {
         )
     },
 }
+
+# Uploaded CSV files wait here for the background worker (web and worker must share this folder); never
+# served to browsers. Each import's full list of notes is kept here too.
+MEDIA_ROOT = Path(os.environ.get("FLEETCARE_MEDIA_ROOT", BASE_DIR / "media"))
+# The largest CSV file the import page accepts, in megabytes (about 40 bytes a row: 100 MB ≈ 2.5 M rows).
+FLEETCARE_IMPORT_MAX_MB = int(os.environ.get("FLEETCARE_IMPORT_MAX_MB", "100"))
+# Rows read, checked and written at a time by the import: its memory follows this, not the file's size.
+FLEETCARE_IMPORT_CHUNK_ROWS = int(os.environ.get("FLEETCARE_IMPORT_CHUNK_ROWS", "10000"))
+
+# Long work (CSV imports, the findings pass after them, "check now") runs as tasks in the database,
+# picked up by `manage.py db_worker` (started by `manage.py demo`; its own service in production).
+TASKS = {"default": {"BACKEND": "django_tasks_db.DatabaseBackend", "QUEUES": ["default"]}}
 
 LOGIN_URL = "/accounts/login/"
 LOGIN_REDIRECT_URL = "/"

@@ -9,6 +9,25 @@ from fleetcare.accounts.roles import CREW, MANAGER, SUPERVISOR, ensure_groups
 from fleetcare.fleet.models import Battery, BatteryProfile, ChargingRoom, Fitting, Site, Vehicle
 
 
+@pytest.fixture(scope="session")
+def django_db_modify_db_settings(django_db_modify_db_settings_parallel_suffix, tmp_path_factory):
+    """On SQLite the test database is a file (not memory), so a test can hand it to a real worker process."""
+    from django.conf import settings
+
+    database = settings.DATABASES["default"]
+    if database["ENGINE"] == "django.db.backends.sqlite3":
+        database.setdefault("TEST", {})["NAME"] = str(tmp_path_factory.mktemp("db") / "test.sqlite3")
+        database.setdefault("OPTIONS", {})["init_command"] = "PRAGMA synchronous=OFF"
+
+
+@pytest.fixture(autouse=True)
+def tasks_run_at_once(settings, tmp_path):
+    """Tasks run in the test's own thread and transaction (django-tasks' immediate backend: the same task
+    code the worker runs); tests of the worker itself switch to the database backend. Uploads go to tmp."""
+    settings.TASKS = {"default": {"BACKEND": "django_tasks.backends.immediate.ImmediateBackend"}}
+    settings.MEDIA_ROOT = tmp_path / "media"
+
+
 @pytest.fixture
 def site(db):
     return Site.objects.create(name="Test warehouse", code="tw", timezone="Europe/London")

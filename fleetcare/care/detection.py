@@ -307,14 +307,6 @@ def _detect_one(battery_id):
         log.exception("findings detection failed for battery %s", battery_id)
 
 
-def on_inspections_imported(sender, battery_ids, **kwargs):
-    """One pass over every battery an import touched, rather than one pass per battery."""
-    try:
-        detect_for_batteries(Battery.objects.filter(pk__in=battery_ids), answer=False)
-    except Exception:  # the import is already committed; a detection fault must not turn it into an error
-        log.exception("findings detection failed after an import of %d batteries", len(battery_ids))
-
-
 def on_inspection_recorded(sender, inspection, **kwargs):
     _detect_one(inspection.battery_id)
 

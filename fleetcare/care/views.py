@@ -8,7 +8,7 @@ from django.views.decorators.http import require_http_methods, require_POST
 
 from fleetcare.accounts.access import role_required
 from fleetcare.accounts.roles import CREW, SUPERVISOR
-from fleetcare.care import detection, selectors, services
+from fleetcare.care import selectors, services, tasks
 from fleetcare.care.forms import AcknowledgeForm, FindingFilterForm
 from fleetcare.care.models import Finding
 from fleetcare.fleet.access import visible_batteries, visible_sites
@@ -78,8 +78,10 @@ def check_now(request):
     code = request.POST.get("site", "")
     if code:
         batteries = batteries.filter(site__code=code)
-    findings = detection.detect_for_batteries(batteries)
-    messages.success(request, f"Checked {batteries.count()} batteries: {len(findings)} open findings.")
+    count = batteries.count()
+    tasks.check_sites.enqueue(request.user.pk, code)
+    messages.success(request, f"Checking {count} batter{'y' if count == 1 else 'ies'} in the background: the "
+                              "findings list shows the result in a minute or so (reload the page).")
     return redirect(_back(request, "care:findings"))
 
 

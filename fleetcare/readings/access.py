@@ -1,8 +1,10 @@
 """Which readings and top-ups a user may see: another site's answer 404."""
+from django.db.models import Q
 from django.shortcuts import get_object_or_404
 
+from fleetcare.accounts.roles import ADMINISTRATOR, has_role
 from fleetcare.fleet.access import visible_sites
-from fleetcare.readings.models import Inspection, WaterTopUp
+from fleetcare.readings.models import CsvImport, Inspection, WaterTopUp
 
 
 def visible_inspections(user):
@@ -22,3 +24,14 @@ def visible_top_ups(user):
 
 def top_up_or_404(user, pk):
     return get_object_or_404(visible_top_ups(user).select_related("battery__profile", "battery__site", "done_by"), pk=pk)
+
+
+def visible_csv_imports(user):
+    """An import is seen by its uploader and by the people of the uploader's sites (administrators: all)."""
+    if has_role(user, ADMINISTRATOR):
+        return CsvImport.objects.all()
+    return CsvImport.objects.filter(Q(uploaded_by__sites__in=visible_sites(user)) | Q(uploaded_by=user)).distinct()
+
+
+def csv_import_or_404(user, import_id):
+    return get_object_or_404(visible_csv_imports(user).select_related("uploaded_by"), pk=import_id)

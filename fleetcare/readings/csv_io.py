@@ -1,22 +1,32 @@
 """CSV in and out, one row per cell reading.
 
-Rows with the same serial, taken_at and situation form one inspection. Importing the same file
-twice stores it once: each inspection's client UUID is derived from those three values.
+The import is a pipeline of named steps over bounded chunks of the file, so its memory does not grow
+with the file: read_rows (text -> Row records) -> group_rows (a reading's consecutive rows) -> check_reading
+(-> CheckedReading, or Notes saying what is wrong) -> find_already_stored -> store_readings. Everything
+is written inside one transaction: a file with a problem stores nothing unless the good readings are
+asked for. A reading is already stored when its battery has a current reading of the same situation
+in the same minute, whatever stored it (tablet, API, demo, an earlier import): the import adds nothing
+for it.
 """
+import bisect
 import csv
 import datetime as dt
 import io
+import itertools
 import uuid
-from collections import namedtuple
+from collections import Counter
 from dataclasses import dataclass, field
-from operator import itemgetter
+from operator import attrgetter, itemgetter
+from typing import NamedTuple
 from decimal import Decimal, InvalidOperation
 
+from django.conf import settings
 from django.db import connection, models, transaction
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
 from fleetcare import chemistry
+from fleetcare.fleet.models import Site
 from fleetcare.readings import signals
 from fleetcare.readings.forms import SG_HIGH, SG_LOW, TEMP_HIGH_C, TEMP_LOW_C
 from fleetcare.readings.models import CellReading, Inspection
@@ -24,33 +34,562 @@ from fleetcare.readings.services import SG_PLACES, _q, corrected_cell_sg, summar
 from fleetcare.spreadsheets import CsvWriter
 
 COLUMNS = ["serial", "taken_at", "situation", "cell", "sg", "temp", "volts", "level"]
+OPTIONAL_COLUMNS = ["temp_unit", "rest_hours"]
+REQUIRED_COLUMNS = ["serial", "taken_at", "situation", "cell"]
 EXPORT_COLUMNS = COLUMNS + ["sg_corrected", "inspection_soc_percent"]
 IMPORT_NAMESPACE = uuid.UUID("6f1c1d2e-5b7a-4c1e-9d55-0c3f2a8e7b10")
 SITUATIONS = {value: value for value in Inspection.Situation.values} | {
     label.lower(): value for value, label in Inspection.Situation.choices
 }
+TEMP_UNITS = {"c": Site.TempUnit.CELSIUS, "°c": Site.TempUnit.CELSIUS, "f": Site.TempUnit.FAHRENHEIT,
+              "°f": Site.TempUnit.FAHRENHEIT}
+# A header may name the temperature's unit itself ("temp_c", "temp_f"); a temp_unit cell still wins.
+TEMP_HEADERS = {"temp": None, "temp_c": Site.TempUnit.CELSIUS, "temp_f": Site.TempUnit.FAHRENHEIT}
+EARLIEST = dt.datetime(2000, 1, 1, tzinfo=dt.timezone.utc)
+FUTURE_ALLOWANCE = dt.timedelta(minutes=10)
+LONGEST_VALUE = 20  # characters: no reading is longer; a longer cell is refused before it is parsed
+# The import's chunk: rows read, checked and written together (memory is bounded by this, not the file).
+CHUNK_ROWS = getattr(settings, "FLEETCARE_IMPORT_CHUNK_ROWS", 10_000)
+LISTED_NOTES = 1_000  # notes of each kind kept for the page; the full list goes to the notes file
+# Only one import writes at a time (PostgreSQL advisory lock): two imports of the same file store it once.
+IMPORT_LOCK_KEY = 0x46435349  # "FCSI"
+
+# How far one cell may sit from the median of the others before the import points at it (a slip of the
+# hand or a misread is likelier than a cell reading high after a charge). Source: common practice.
+SLIP_ABOVE_SG = Decimal("0.020")
+SLIP_BELOW_SG = Decimal("0.050")
+
+
+# --- Records ---------------------------------------------------------------------------------------
+
+
+class Row(NamedTuple):
+    """One line of the file, as written (text, stripped). A named tuple rather than a dataclass, as the
+    cell records below: one is made per row, and a tuple is made several times faster."""
+    line: int
+    serial: str
+    taken_at: str
+    situation: str
+    cell: str
+    sg: str
+    temp: str
+    volts: str
+    level: str
+    temp_unit: str
+    rest_hours: str
+
+
+@dataclass(frozen=True, slots=True)
+class Note:
+    """Something the import says about a line: a problem (nothing stored for it), a value worth checking
+    (stored as written), or a reading already stored."""
+    PROBLEM = "problem"
+    CHECK = "check"
+    STORED = "already stored"
+
+    line: int
+    column: str
+    message: str
+    level: str = PROBLEM
+    cell: int | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class CellValues:
+    """A row's cell values, checked and converted (°C, SG to 0.001); shared by every row written alike."""
+    sg: Decimal | None
+    temp_c: Decimal | None
+    volts: Decimal | None
+    level: str
+    sg_corrected: Decimal | None
+    temp_unit: str  # the unit the temperature was read in ("" when there is none)
+    copy_tail: str  # the cell row's COPY text after its inspection and position
+
+
+class CheckedCell(NamedTuple):
+    """One checked row: its line, cell position and values (what summarise() reads is passed through)."""
+    line: int
+    position: int
+    values: CellValues
+
+    @property
+    def sg_corrected(self):
+        return self.values.sg_corrected
+
+    @property
+    def volts(self):
+        return self.values.volts
+
+
+@dataclass(frozen=True, slots=True)
+class CheckedReading:
+    """One inspection ready to store: its battery, moment and cells, all checked."""
+    line: int
+    battery: object
+    taken_at: dt.datetime
+    situation: str
+    hours_since_charge: Decimal | None
+    cells: tuple
+
+    @property
+    def key(self):
+        """What makes two readings the same reading: battery, minute and situation."""
+        return (self.battery.pk, self.taken_at.replace(second=0, microsecond=0), self.situation)
+
+    @property
+    def client_uuid(self):
+        return uuid.uuid5(IMPORT_NAMESPACE, f"{self.battery.serial}|{self.taken_at.isoformat()}|{self.situation}")
+
+    @property
+    def scope(self):
+        if len(self.cells) == 1 and self.battery.profile.positions > 1:
+            return Inspection.Scope.PILOT
+        return Inspection.Scope.ALL_CELLS
+
+    @property
+    def temp_c(self):
+        temps = [cell.values.temp_c for cell in self.cells if cell.values.temp_c is not None]
+        return (sum(temps) / len(temps)).quantize(Decimal("0.1")) if temps else None
+
+    def describe(self):
+        local = timezone.localtime(self.taken_at, self.battery.site.tzinfo)
+        return f"{self.battery.serial} at {local:%Y-%m-%d %H:%M} ({Inspection.Situation(self.situation).label.lower()})"
 
 
 @dataclass
 class ImportReport:
+    """What an import found and did. Notes are listed up to LISTED_NOTES of each level; counts are whole."""
     rows_read: int = 0
-    errors: list = field(default_factory=list)  # (line, message)
-    inspections_created: int = 0
+    inspections_created: int = 0  # stored, or (dry run) that would be stored
     inspections_already_stored: int = 0
     cells_created: int = 0
     imported: bool = False
     dry_run: bool = False
+    problems: list = field(default_factory=list)
+    checks: list = field(default_factory=list)
+    already: list = field(default_factory=list)
+    problem_count: int = 0
+    check_count: int = 0
+    problem_kinds: Counter = field(default_factory=Counter)
+    temp_units: Counter = field(default_factory=Counter)  # ("C" or "F", "column" / "header" / "site") -> rows
 
     @property
     def ok(self):
-        return not self.errors
+        return not self.problem_count
+
+    @property
+    def errors(self):
+        """The listed problems as (line, message), in line order."""
+        return [(note.line, note.message) for note in self.problems]
+
+    def note(self, note, out=None):
+        listed, counted = {
+            Note.PROBLEM: (self.problems, "problem_count"),
+            Note.CHECK: (self.checks, "check_count"),
+            Note.STORED: (self.already, None),
+        }[note.level]
+        if counted:
+            setattr(self, counted, getattr(self, counted) + 1)
+        if note.level == Note.PROBLEM:
+            self.problem_kinds[note.column] += 1
+        if len(listed) < LISTED_NOTES:
+            listed.append(note)
+        if out is not None:
+            out.writerow([note.line, note.cell or "", note.column, note.level, note.message])
+
+    def unit_summary(self):
+        """Which temperature units the rows were read in, for the summary: ["°F (the site's unit): 48 rows", ...]."""
+        where = {"column": "temp_unit column", "header": "column header", "site": "the battery's site unit"}
+        return [f"°{unit} ({where[source]}): {rows:,} row{'s' if rows != 1 else ''}"
+                for (unit, source), rows in sorted(self.temp_units.items())]
+
+    def as_dict(self):
+        """A plain-JSON form of the report (what an import's page keeps)."""
+        def notes(items):
+            return [[n.line, n.cell, n.column, n.message] for n in items]
+        return {
+            "rows_read": self.rows_read, "inspections_created": self.inspections_created,
+            "inspections_already_stored": self.inspections_already_stored, "cells_created": self.cells_created,
+            "imported": self.imported, "dry_run": self.dry_run, "problem_count": self.problem_count,
+            "check_count": self.check_count, "problems": notes(self.problems), "checks": notes(self.checks),
+            "already": notes(self.already), "problem_kinds": sorted(self.problem_kinds.items(), key=lambda kv: -kv[1]),
+            "units": self.unit_summary(),
+        }
+
+
+NOTE_FILE_HEADER = ["line", "cell", "column", "kind", "message"]
+
+
+# --- Step 1: read ----------------------------------------------------------------------------------
+
+
+class FileProblem(Exception):
+    """The file as a whole cannot be read (not CSV, not UTF-8, no header): (line, message)."""
+
+
+def read_rows(source, report):
+    """Row records from CSV text or a text stream, empty lines skipped. Raises FileProblem."""
+    stream = io.StringIO(source, newline="") if isinstance(source, str) else source  # newline="": also old-Mac \r
+    reader = csv.reader(stream)
+    try:
+        header = next(reader, None) or []
+    except (csv.Error, UnicodeDecodeError) as exc:
+        raise FileProblem(1, _unreadable(exc)) from exc
+    index = {}
+    for i, name in enumerate(header):  # a repeated column: the last one counts
+        index[name.strip().lower().lstrip("\ufeff")] = i
+    missing = [c for c in REQUIRED_COLUMNS if c not in index]
+    if missing:
+        raise FileProblem(1, f"missing column(s): {', '.join(missing)}. Expected: {', '.join(COLUMNS)}.")
+    temp_header = next((name for name in TEMP_HEADERS if name in index), "temp")
+    report.header_unit = TEMP_HEADERS[temp_header]
+    names = REQUIRED_COLUMNS + ["sg", temp_header, "volts", "level"] + OPTIONAL_COLUMNS
+    columns = [index.get(name) for name in names]
+    width = len(header)
+    padding = [""] * (width + 1)
+    columns = [width if i is None else i for i in columns]  # an absent column reads the empty cell past the end
+    cells = itemgetter(*columns)
+    strip = str.strip
+    make = Row._make
+    try:
+        for row in reader:
+            size = len(row)
+            if size == width:
+                row.append("")
+            elif not size:
+                continue
+            elif size < width:
+                row += padding[size:]
+            else:
+                row = row[:width] + [""]
+            yield make((reader.line_num, *map(strip, cells(row))))
+    except (csv.Error, UnicodeDecodeError) as exc:
+        raise FileProblem(reader.line_num or 1, _unreadable(exc)) from exc
+
+
+def _unreadable(exc):
+    if isinstance(exc, UnicodeDecodeError):
+        return "the file is not UTF-8 text. Save it as CSV (UTF-8) and try again."
+    return f"the file cannot be read as CSV ({exc}). Save it as CSV (UTF-8) and try again."
+
+
+# --- Step 2: group ---------------------------------------------------------------------------------
+
+
+def group_rows(rows):
+    """Lists of consecutive rows that share serial, taken_at and situation as written: one reading each
+    (Checker.readings_in joins neighbours that say the same in other words)."""
+    for _, group in itertools.groupby(rows, key=attrgetter("serial", "taken_at", "situation")):
+        yield list(group)
+
+
+def chunks(groups, rows_per_chunk):
+    """Groups collected into chunks of about rows_per_chunk rows."""
+    chunk, size = [], 0
+    for group in groups:
+        chunk.append(group)
+        size += len(group)
+        if size >= rows_per_chunk:
+            yield chunk
+            chunk, size = [], 0
+    if chunk:
+        yield chunk
+
+
+# --- Step 3: check ---------------------------------------------------------------------------------
+
+
+class Checker:
+    """Checks a file's readings; remembers what the file repeats (batteries, SG texts, cell values)."""
+
+    def __init__(self, batteries, report, notes_out=None, now=None):
+        self.batteries = batteries
+        self.known = {}  # serial -> Battery or None
+        self.report = report
+        self.notes_out = notes_out
+        self.latest_allowed = (now or timezone.now()) + FUTURE_ALLOWANCE
+        self.cell_values = {}  # (profile, site unit, header unit) -> {texts: CellValues or None}
+        self.sgs = {}
+        self.positions = {}  # cell number as written -> number or None
+        self.seen = {}  # reading key -> first line, to find a reading given twice in one file
+
+    def note(self, line, column, message, level=Note.PROBLEM, cell=None):
+        self.report.note(Note(line, column, message, level, cell), self.notes_out)
+
+    def load_batteries(self, chunk):
+        serials = {group[0].serial for group in chunk} - self.known.keys()
+        if serials:
+            found = {b.serial: b for b in self.batteries.filter(serial__in=serials).select_related("profile", "site")}
+            for serial in serials:
+                self.known[serial] = found.get(serial)
+
+    def readings_in(self, chunk):
+        """(rows, shared columns checked) per reading; neighbouring groups that name the same reading in
+        other words ("charged" and "Just charged", a time with and without its offset) are one reading."""
+        merged = []
+        for rows in chunk:
+            shared = self._check_shared(rows[0])
+            if merged and not shared[3] and not merged[-1][1][3] and merged[-1][1][:3] == shared[:3]:
+                merged[-1][0].extend(rows)
+            else:
+                merged.append((rows, shared))
+        return merged
+
+    def check_reading(self, rows, shared):
+        """A CheckedReading, or None after noting every problem of these rows."""
+        first = rows[0]
+        battery, taken_at, situation, problems = shared
+        if problems:
+            for row in rows:
+                for column, message in problems:
+                    self.note(row.line, column, message)
+                self._note_cell_problems(row, battery, shared_faults=True)
+            return None
+        profile = battery.profile
+        site = battery.site
+        memo = self.cell_values.setdefault((profile.pk, site.temp_unit, self.report.header_unit), {})
+        if len(memo) > 100_000:  # bounded by the values a file can hold, but kept small all the same
+            memo.clear()
+        cells, bad, units = [], False, self.report.temp_units
+        positions = profile.positions
+        known_positions = self.positions
+        for row in rows:
+            position = known_positions.get(row.cell, _UNSEEN)
+            if position is _UNSEEN:
+                position = _position(row.cell)
+                if len(known_positions) < 10_000:
+                    known_positions[row.cell] = position
+            texts = row[5:10]  # sg, temp, volts, level, temp_unit
+            values = memo.get(texts, _UNSEEN)
+            if values is _UNSEEN:
+                values = memo[texts] = self._cell_values(battery, texts)
+            if values is None or position is None or position > positions:
+                self._note_cell_problems(row, battery, shared_faults=False)
+                bad = True
+                continue
+            if values.temp_unit:
+                units[values.temp_unit] += 1
+            cells.append(CheckedCell(row.line, position, values))
+        hours, hours_problem = self._rest_hours(rows)
+        if hours_problem:
+            self.note(first.line, "rest_hours", hours_problem)
+            bad = True
+        if bad:
+            return None
+        reading = CheckedReading(first.line, battery, taken_at, situation, hours, tuple(cells))
+        taken = [cell.position for cell in cells]
+        if len(set(taken)) != len(taken):
+            self.note(first.line, "cell", f"{reading.describe()}: a cell appears twice.")
+            return None
+        if len(cells) not in (1, positions):
+            self.note(first.line, "cell", f"{reading.describe()}: {len(cells)} cells read; the profile has "
+                                          f"{positions} (give all of them, or one for a pilot-cell reading).")
+            return None
+        earlier = self.seen.setdefault(reading.key, first.line)
+        if earlier != first.line:
+            self.note(first.line, "taken_at", f"{reading.describe()} is already in this file at line {earlier}: "
+                                              "give each reading once, its rows together.")
+            return None
+        self._note_slips(reading)
+        return reading
+
+    def _check_shared(self, row):
+        """The columns every row of one reading shares: (battery, taken_at, situation, [(column, message)])."""
+        problems = []
+        battery = self.known.get(row.serial)
+        if not row.serial:
+            problems.append(("serial", "serial is empty."))
+        elif battery is None:
+            problems.append(("serial", f"no battery with serial “{_shown(row.serial)}” at your sites."))
+        taken_at, problem = self._taken_at(row.taken_at, battery)
+        if problem:
+            problems.append(("taken_at", problem))
+        situation = SITUATIONS.get(row.situation.lower())
+        if situation is None:
+            problems.append(("situation", f"situation “{_shown(row.situation)}” is not one of "
+                                          f"{', '.join(Inspection.Situation.values)}."))
+        return battery, taken_at, situation, problems
+
+    def _taken_at(self, text, battery):
+        """(aware datetime, None) or (None, message). Times without an offset are the battery's site time."""
+        example = "taken_at “{}” is not a date and time like 2026-03-01T07:30."
+        if len(text) > 40:
+            return None, example.format(_shown(text))
+        try:
+            taken_at = parse_datetime(text)
+        except ValueError:
+            taken_at = None
+        if taken_at is None:
+            return None, example.format(_shown(text))
+        if timezone.is_naive(taken_at):
+            if battery is None:
+                return None, None  # the serial's own message says enough
+            taken_at = timezone.make_aware(taken_at, battery.site.tzinfo)
+        try:
+            taken_at = taken_at.astimezone(dt.timezone.utc)
+        except OverflowError:
+            return None, f"taken_at {_shown(text)} is before 2000-01-01: not a reading this fleet can have."
+        if taken_at > self.latest_allowed:
+            return None, f"taken_at {text} is in the future (more than 10 minutes ahead of now)."
+        if taken_at < EARLIEST:
+            return None, f"taken_at {text} is before 2000-01-01: not a reading this fleet can have."
+        if battery is not None and timezone.localtime(taken_at, battery.site.tzinfo).date() < battery.in_service_date:
+            return None, (f"taken_at {text} is before {battery.serial} entered service "
+                          f"({battery.in_service_date:%Y-%m-%d}).")
+        return taken_at, None
+
+    def _rest_hours(self, rows):
+        texts = {row.rest_hours for row in rows} - {""}
+        if not texts:
+            return None, None
+        if len(texts) > 1:
+            return None, f"rest_hours differs between the rows of one reading ({', '.join(sorted(map(_shown, texts)))})."
+        text = texts.pop()
+        hours = _decimal(text)
+        if hours is None or not 0 <= hours <= 9999:
+            return None, f"rest_hours “{_shown(text)}” is not a number of hours from 0 to 9999."
+        return hours.quantize(Decimal("0.1")), None
+
+    def _sg(self, text):
+        found = self.sgs.get(text)
+        if found is None:
+            try:
+                found = (Decimal(str(chemistry.parse_sg(text))).quantize(Decimal("0.001")), None)
+            except (ValueError, InvalidOperation) as exc:
+                found = (None, str(exc))
+            if len(self.sgs) < 100_000:
+                self.sgs[text] = found
+        return found
+
+    def _cell_values(self, battery, texts):
+        """A row's values for a battery of this profile and site, or None if anything in them is wrong."""
+        problems, values = self._check_values(battery, *texts)
+        if problems:
+            return None
+        sg, temp_c, volts, level, unit = values
+        corrected = _q(corrected_cell_sg(battery.profile, sg, temp_c, False), SG_PLACES)
+        tail = (f"{_copy_text(sg)}\t{_copy_text(corrected)}\t{_copy_text(temp_c, TEMP_PLACES)}\t"
+                f"{_copy_text(volts, VOLTS_PLACES)}\t{level}\n")
+        return CellValues(sg, temp_c, volts, level, corrected, unit, tail)
+
+    def _check_values(self, battery, sg_text, temp_text, volts_text, level_text, unit_text):
+        """([(column, message)], (sg, temp °C, volts, level, (unit, source)) or None)."""
+        problems = []
+        profile, site = battery.profile, battery.site
+        sg = None
+        if len(sg_text) > LONGEST_VALUE:
+            problems.append(("sg", "sg is too long to be a reading."))
+        elif sg_text:
+            sg, problem = self._sg(sg_text)
+            if problem:
+                problems.append(("sg", f"sg: {problem}"))
+            elif not SG_LOW <= sg <= SG_HIGH:
+                problems.append(("sg", f"sg {sg} is outside 1.000–1.350."))
+            elif not profile.is_flooded:
+                problems.append(("sg", f"sg given for {battery.serial}, a sealed battery: it cannot be read with a hydrometer."))
+        unit, source = site.temp_unit, "site"
+        if self.report.header_unit:
+            unit, source = self.report.header_unit, "header"
+        if unit_text:
+            unit = TEMP_UNITS.get(unit_text.lower())
+            source = "column"
+            if unit is None:
+                problems.append(("temp_unit", f"temp_unit “{_shown(unit_text)}” must be C or F."))
+        temp_c = None
+        if len(temp_text) > LONGEST_VALUE:
+            problems.append(("temp", "temp is too long to be a reading."))
+        elif temp_text and unit is not None:
+            temp = _decimal(temp_text)
+            if temp is None:
+                problems.append(("temp", f"temp “{_shown(temp_text)}” is not a number."))
+            else:
+                temp_c = temp if unit == Site.TempUnit.CELSIUS else Decimal(str(round(chemistry.f_to_c(float(temp)), 1)))
+                if not TEMP_LOW_C <= temp_c <= TEMP_HIGH_C:
+                    limits = "−30 to 70 °C" if unit == Site.TempUnit.CELSIUS else "−22 to 158 °F"
+                    problems.append(("temp", f"temp {temp} °{unit} is outside {limits}."))
+        volts = None
+        if len(volts_text) > LONGEST_VALUE:
+            problems.append(("volts", "volts is too long to be a reading."))
+        elif volts_text:
+            volts = _decimal(volts_text)
+            if volts is None:
+                problems.append(("volts", f"volts “{_shown(volts_text)}” is not a number."))
+            else:
+                cells = profile.cells_per_block if profile.reads_by_block else 1
+                low, high = chemistry.plausible_volts_range(cells, profile.technology)
+                if not Decimal(str(low)) <= volts <= Decimal(str(high)):
+                    problems.append(("volts", f"volts {volts} is not plausible for {cells} cell(s) ({low:.2f}–{high:.2f} V)."))
+        if sg is None and volts is None and not problems:
+            problems.append(("sg", "neither sg nor volts given."))
+        if sg is not None and temp_c is None and not problems:
+            problems.append(("temp", "sg given without temp."))
+        level = level_text.lower()
+        if level not in ("", "ok", "low"):
+            problems.append(("level", f"level “{_shown(level_text)}” must be ok, low or empty."))
+        if problems:
+            return problems, None
+        return problems, (sg, temp_c, volts, level, (unit, source) if temp_c is not None else "")
+
+    def _note_cell_problems(self, row, battery, shared_faults):
+        position = _position(row.cell)
+        if position is None:
+            self.note(row.line, "cell", f"cell “{_shown(row.cell)}” is not a whole number.")
+        elif battery is not None and position > battery.profile.positions:
+            self.note(row.line, "cell", f"cell {position} does not exist: {battery.serial} has {battery.profile.positions}.")
+        if battery is None:
+            return
+        problems, _ = self._check_values(battery, row.sg, row.temp, row.volts, row.level, row.temp_unit)
+        for column, message in problems:
+            if shared_faults and message in ("neither sg nor volts given.", "sg given without temp."):
+                continue
+            self.note(row.line, column, message, cell=position)
+
+    def _note_slips(self, reading):
+        """Cells unlike the rest of the tray: stored as written (the reading was taken), but listed to check."""
+        sgs = [(cell, cell.values.sg) for cell in reading.cells if cell.values.sg is not None]
+        if len(sgs) < 3:
+            return
+        ordered = sorted(sg for _, sg in sgs)
+        if ordered[-1] - ordered[0] <= SLIP_ABOVE_SG:  # a tray this even has no cell unlike the rest
+            return
+        for cell, sg in sgs:
+            median = _median_without(ordered, sg)
+            if sg - median > SLIP_ABOVE_SG:
+                why = f"{sg - median:.3f} above the median of the other cells ({median:.3f}): a slip, a misread or acid added?"
+            elif median - sg > SLIP_BELOW_SG:
+                why = f"{median - sg:.3f} below the median of the other cells ({median:.3f}): a weak cell, or a slip?"
+            else:
+                continue
+            self.note(cell.line, "sg", f"cell {cell.position} reads {sg}, {why} Stored as written; check it.",
+                      level=Note.CHECK, cell=cell.position)
 
 
 _UNSEEN = object()
 
 
+def _median_without(ordered, value):
+    """The median of a sorted list once one occurrence of value is left out."""
+    k = bisect.bisect_left(ordered, value)
+    n = len(ordered) - 1
+
+    def at(i):  # the i-th of the others
+        return ordered[i if i < k else i + 1]
+
+    return at(n // 2) if n % 2 else (at(n // 2 - 1) + at(n // 2)) / 2
+
+
+def _position(text):
+    """A cell number as written -> the number, or None unless it is a whole number from 1 (at most 4 digits)."""
+    if text.isdecimal() and len(text) <= 4:
+        value = int(text)
+        return value if value >= 1 else None
+    return None
+
+
 def _decimal(text):
     """The text as a finite Decimal, or None when it is not a number."""
+    if len(text) > LONGEST_VALUE:
+        return None
     try:
         value = Decimal(text)
     except InvalidOperation:
@@ -58,301 +597,44 @@ def _decimal(text):
     return value if value.is_finite() else None
 
 
-class _Memo:
-    """What a file repeats row after row, worked out once per import: battery facts, times, SG and numbers."""
+def _shown(text):
+    """A cell's text for a message, cut short if it is long."""
+    return text if len(text) <= 40 else f"{text[:37]}…"
 
-    def __init__(self, batteries):
-        self.batteries = batteries
-        self.latest_allowed = timezone.now() + dt.timedelta(hours=1)
-        self.facts = {}
-        self.times = {}
-        self.sgs = {}
-        self.decimals = {}
-        self.cells = {}
-        self.positions = {}
 
-    def battery_facts(self, battery):
-        facts = self.facts.get(battery.pk)
-        if facts is None:
-            profile = battery.profile
-            cells = profile.cells_per_block if profile.reads_by_block else 1
-            low, high = chemistry.plausible_volts_range(cells, profile.technology)
-            facts = self.facts[battery.pk] = (profile.positions, profile.is_flooded, cells, low, high,
-                                              Decimal(str(low)), Decimal(str(high)))
-        return facts
+# --- Step 4: already stored ------------------------------------------------------------------------
 
-    def taken_at(self, text, battery):
-        key = (text, battery.site_id if battery else None)
-        if key not in self.times:
-            try:
-                taken_at = parse_datetime(text)
-            except ValueError:
-                taken_at = None
-            if taken_at is not None and timezone.is_naive(taken_at):
-                taken_at = timezone.make_aware(taken_at, battery.site.tzinfo if battery else dt.timezone.utc)
-            self.times[key] = taken_at
-        return self.times[key]
 
-    def sg(self, text):
-        """(SG to 0.001, None) or (None, the parser's message)."""
-        found = self.sgs.get(text)
-        if found is None:
-            try:
-                found = (Decimal(str(chemistry.parse_sg(text))).quantize(Decimal("0.001")), None)
-            except ValueError as exc:
-                found = (None, str(exc))
-            self.sgs[text] = found
+def find_already_stored(readings):
+    """The indexes of readings already stored: the battery has a current reading of the same situation in
+    the same minute (whoever stored it), or this import stored it before (its client UUID)."""
+    if not readings:
+        return set()
+    found = set()
+    uuids = {reading.client_uuid: i for i, reading in enumerate(readings)}
+    found.update(uuids[u] for u in _stored_uuids(list(uuids)))
+    if connection.vendor == "postgresql":
+        with connection.cursor() as cursor:
+            cursor.execute(
+                f"""SELECT k.i - 1 FROM unnest(%s::bigint[], %s::timestamptz[], %s::text[]) WITH ORDINALITY AS k(b, t, s, i)
+                    WHERE EXISTS (SELECT 1 FROM {Inspection._meta.db_table} r
+                                  WHERE r.battery_id = k.b AND r.taken_at >= k.t AND r.taken_at < k.t + interval '1 minute'
+                                    AND r.situation = k.s AND r.is_current AND r.deleted_at IS NULL)""",
+                [[r.battery.pk for r in readings], [r.key[1] for r in readings], [r.situation for r in readings]],
+            )
+            found.update(row[0] for row in cursor.fetchall())
         return found
-
-    def decimal(self, text):
-        if text not in self.decimals:
-            self.decimals[text] = _decimal(text)
-        return self.decimals[text]
-
-    def position(self, text):
-        """A cell number as written -> the number, or None unless it is a whole number from 1."""
-        if text not in self.positions:
-            cleaned = text.strip()
-            self.positions[text] = int(cleaned) if cleaned.isdecimal() and int(cleaned) >= 1 else None
-        return self.positions[text]
-
-    def clean_cells(self, battery):
-        """{(sg, temp, volts, level) as written: clean_cell's answer} for batteries of this one's profile."""
-        return self.cells.setdefault(battery.profile_id, {})
-
-    def clean_cell(self, battery, facts, texts):
-        """A good row's cell values for a battery of this profile: (sg, temp, volts, level, corrected SG,
-        the row's COPY text after its position); None if the texts have anything wrong (the caller then
-        checks the row in full for its messages). Callers keep the answer per distinct texts."""
-        sg_text, temp_text, volts_text, level = (text.strip() for text in texts)
-        messages, values = _check_cell("", facts, "1", sg_text, temp_text, volts_text, level.lower(), self, False)
-        if messages:
-            return None
-        sg, temp, volts, level = values
-        corrected = _q(corrected_cell_sg(battery.profile, sg, temp, False), SG_PLACES)
-        text = _copy_text
-        copy_tail = f"{text(sg)}\t{text(corrected)}\t{text(temp, TEMP_PLACES)}\t{text(volts, VOLTS_PLACES)}\t{level}\n"
-        return sg, temp, volts, level, corrected, copy_tail
-
-
-def _check_group(serial, taken_text, situation_text, raw_situation, memo):
-    """The columns every row of one inspection shares, checked once: (messages, battery, facts, taken_at, situation)."""
-    messages = []
-    battery = memo.batteries.get(serial)
-    if not serial:
-        messages.append("serial is empty.")
-    elif battery is None:
-        messages.append(f"no battery with serial “{serial}” at your sites.")
-    facts = memo.battery_facts(battery) if battery is not None else None
-    taken_at = memo.taken_at(taken_text, battery)
-    if taken_at is None:
-        messages.append(f"taken_at “{taken_text}” is not a date and time like 2026-03-01T07:30.")
-    elif taken_at > memo.latest_allowed:
-        messages.append(f"taken_at {taken_text} is in the future.")
-    situation = SITUATIONS.get(situation_text.lower())
-    if situation is None:
-        messages.append(f"situation “{raw_situation}” is not one of {', '.join(Inspection.Situation.values)}.")
-    return messages, battery, facts, taken_at, situation
-
-
-def _check_cell(serial, facts, cell_text, sg_text, temp_text, volts_text, level, memo, shared_faults):
-    """One row's own columns: (messages, (sg, temp, volts, level) or None). shared_faults: the row's inspection
-    columns are bad, so a missing value is not worth its own message."""
-    messages = []
-    position = int(cell_text) if cell_text.isdecimal() else None
-    if position is None:
-        messages.append(f"cell “{cell_text}” is not a whole number.")
-    elif facts is not None and not 1 <= position <= facts[0]:
-        messages.append(f"cell {position} does not exist: {serial} has {facts[0]}.")
-    sg = None
-    if sg_text:
-        sg, problem = memo.sg(sg_text)
-        if problem:
-            messages.append(f"sg: {problem}")
-        elif not SG_LOW <= sg <= SG_HIGH:
-            messages.append(f"sg {sg} is outside 1.000–1.350.")
-        elif facts is not None and not facts[1]:
-            messages.append(f"sg given for {serial}, a sealed battery: it cannot be read with a hydrometer.")
-    temp = None
-    if temp_text:
-        temp = memo.decimal(temp_text)
-        if temp is None:
-            messages.append(f"temp “{temp_text}” is not a number.")
-        elif not TEMP_LOW_C <= temp <= TEMP_HIGH_C:
-            messages.append(f"temp {temp} °C is outside −30 to 70 °C.")
-    volts = None
-    if volts_text:
-        volts = memo.decimal(volts_text)
-        if volts is None:
-            messages.append(f"volts “{volts_text}” is not a number.")
-        elif facts is not None:
-            _, _, cells, low, high, low_d, high_d = facts
-            if not low_d <= volts <= high_d:
-                messages.append(f"volts {volts} is not plausible for {cells} cell(s) ({low:.2f}–{high:.2f} V).")
-    if sg is None and volts is None and not messages and not shared_faults:
-        messages.append("neither sg nor volts given.")
-    if sg is not None and temp is None and not messages and not shared_faults:
-        messages.append("sg given without temp (°C).")
-    if level not in ("", "ok", "low"):
-        messages.append(f"level “{level}” must be ok, low or empty.")
-    if messages or shared_faults:
-        return messages, None
-    return messages, (sg, temp, volts, level)
-
-
-def _read_rows(text, report):
-    """(column index by name, rows) with empty lines skipped, or None after reporting why the file can't be read."""
-    reader = csv.reader(io.StringIO(text, newline=""))  # newline="": also old-Mac \r line endings
-    try:
-        header = next(reader, None) or []
-        rows = [row for row in reader if row]
-    except csv.Error as exc:
-        report.errors.append((reader.line_num or 1, f"the file cannot be read as CSV ({exc}). Save it as CSV (UTF-8) and try again."))
-        return None
-    index = {name: i for i, name in enumerate(header)}  # a repeated column: the last one counts
-    missing = [c for c in ("serial", "taken_at", "situation", "cell") if c not in index]
-    if missing:
-        report.errors.append((1, f"missing column(s): {', '.join(missing)}. Expected: {', '.join(COLUMNS)}."))
-        return None
-    return index, rows
-
-
-def import_readings(text, *, user, batteries, good_rows_only=False, dry_run=False):
-    """Validate every row, then store all inspections in one transaction (or nothing).
-
-    Rows are grouped by their serial, taken_at and situation as written; each group's shared columns
-    are checked once, each row's own columns per row. Groups whose columns say the same thing in
-    different words ("charged" and "Just charged") are one inspection."""
-    report = ImportReport(dry_run=dry_run)
-    read = _read_rows(text, report)
-    if read is None:
-        return report
-    index, rows = read
-    report.rows_read = len(rows)
-    columns = [index.get(c) for c in COLUMNS]
-    if None in columns:  # an optional column left out: read it as empty
-        rows = [[row[i] if i is not None and i < len(row) else "" for i in columns] for row in rows]
-        columns = list(range(len(COLUMNS)))
-    width = max(columns) + 1
-    padding = [""] * width
-    col_serial, col_taken, col_situation, col_cell = columns[:4]
-    cell_texts = itemgetter(*columns[4:])  # sg, temp, volts, level as written
-
-    serials = {row[col_serial].strip() for row in rows if len(row) > col_serial}
-    memo = _Memo({b.serial: b for b in batteries.filter(serial__in=serials).select_related("profile", "site")})
-
-    errors, positions = report.errors, memo.positions
-    groups = {}  # (serial, aware taken_at, situation) -> [(line, position, clean cell values)]
-    group_battery, bad_groups = {}, set()
-    seen = {}  # (serial, taken_at, situation) as written -> what _check_group found, checked once
-    checked = {}  # the same, stripped (what is written may differ only in spaces)
-    for line, row in enumerate(rows, start=2):
-        if len(row) < width:
-            row = row + padding[len(row):]
-        written = (row[col_serial], row[col_taken], row[col_situation])
-        group = seen.get(written)
-        if group is None:
-            raw = tuple(text.strip() for text in written)
-            group = checked.get(raw)
-            if group is None:
-                shared, battery, facts, taken_at, situation = _check_group(*raw, row[col_situation], memo)
-                key = (raw[0], taken_at, situation)
-                if not shared:
-                    group_battery[key] = battery
-                cells = groups.setdefault(key, []) if not shared else []
-                known = memo.clean_cells(battery) if not shared else {}
-                group = checked[raw] = (shared, battery, facts, key, known, cells, raw[0])
-            seen[written] = group
-        shared, battery, facts, key, known, cells, serial = group
-        position = positions.get(row[col_cell], _UNSEEN)
-        if position is _UNSEEN:
-            position = memo.position(row[col_cell])
-        if not shared and position is not None and position <= facts[0]:
-            texts = cell_texts(row)
-            clean = known.get(texts, _UNSEEN)
-            if clean is _UNSEEN:
-                clean = known[texts] = memo.clean_cell(battery, facts, texts)
-            if clean is not None:
-                cells.append((line, position, clean))
-                continue
-        for message in shared:
-            errors.append((line, message))
-        sg_text, temp_text, volts_text, level_text = (text.strip() for text in cell_texts(row))
-        messages, _values = _check_cell(serial, facts, row[col_cell].strip(), sg_text, temp_text, volts_text,
-                                        level_text.lower(), memo, bool(shared))
-        for message in messages:
-            errors.append((line, message))
-        bad_groups.add(key)
-    for key, members in groups.items():
-        if key in bad_groups:
-            continue
-        serial, taken_at, _ = key
-        battery = group_battery[key]
-        members.sort(key=lambda member: member[0])
-        positions = [position for _, position, _ in members]
-        first_line = members[0][0]
-        if len(set(positions)) != len(positions):
-            errors.append((first_line, f"{serial} at {taken_at:%Y-%m-%d %H:%M}: a cell appears twice."))
-            bad_groups.add(key)
-        elif len(members) not in (1, battery.profile.positions):
-            errors.append((
-                first_line,
-                f"{serial} at {taken_at:%Y-%m-%d %H:%M}: {len(members)} cells read; the profile has "
-                f"{battery.profile.positions} (give all of them, or one for a pilot-cell reading).",
-            ))
-            bad_groups.add(key)
-    errors.sort()
-    if errors and not good_rows_only:
-        return report
-    good = {key: members for key, members in groups.items() if key not in bad_groups}
-    if dry_run:
-        report.inspections_created = len(good)
-        report.cells_created = sum(len(members) for members in good.values())
-        return report
-    _store(good, group_battery, user, report)
-    return report
-
-
-def _client_uuid(key):
-    serial, taken_at, situation = key
-    return uuid.uuid5(IMPORT_NAMESPACE, f"{serial}|{taken_at.isoformat()}|{situation}")
-
-
-# A cell reading before it has an inspection to belong to: what summarise() reads and what is stored.
-_Cell = namedtuple("_Cell", "position sg sg_corrected temp_c volts level")
-
-
-def _store(groups, group_battery, user, report):
-    uuids = {key: _client_uuid(key) for key in groups}
-    stored = _stored_uuids(list(uuids.values()))
-    inspections, cells_by_inspection = [], []
-    for key, members in groups.items():
-        if uuids[key] in stored:
-            report.inspections_already_stored += 1
-            continue
-        serial, taken_at, situation = key
-        battery = group_battery[key]
-        members = sorted(members, key=lambda member: member[1])
-        temps = [clean[1] for _, _, clean in members if clean[1] is not None]
-        inspection = Inspection(
-            battery=battery, taken_by=user, taken_at=taken_at, situation=situation,
-            scope=Inspection.Scope.PILOT if len(members) == 1 and battery.profile.positions > 1 else Inspection.Scope.ALL_CELLS,
-            temp_c=(sum(temps) / len(temps)).quantize(Decimal("0.1")) if temps else None,
-            client_uuid=uuids[key], notes="Imported from CSV",
-        )
-        cells = [(position, clean) for _, position, clean in members]
-        summarise(inspection, [_Cell(position, sg, corrected, temp, volts, level)
-                               for position, (sg, temp, volts, level, corrected, _copy) in cells])
-        inspections.append(inspection)
-        cells_by_inspection.append(cells)
-    with transaction.atomic():
-        _insert_inspections(inspections)
-        _insert_cells(zip(inspections, cells_by_inspection))
-        battery_ids = sorted({inspection.battery_id for inspection in inspections})
-        transaction.on_commit(lambda: signals.inspections_imported.send(Inspection, battery_ids=battery_ids))
-    report.inspections_created = len(inspections)
-    report.cells_created = sum(len(cells) for cells in cells_by_inspection)
-    report.imported = True
+    keys = {reading.key: i for i, reading in enumerate(readings)}
+    minutes = [key[1] for key in keys]
+    stored = Inspection.objects.current().filter(
+        battery_id__in={key[0] for key in keys}, taken_at__gte=min(minutes),
+        taken_at__lt=max(minutes) + dt.timedelta(minutes=1),
+    ).values_list("battery_id", "taken_at", "situation")
+    for battery_id, taken_at, situation in stored.iterator():
+        i = keys.get((battery_id, taken_at.replace(second=0, microsecond=0), situation))
+        if i is not None:
+            found.add(i)
+    return found
 
 
 def _stored_uuids(client_uuids):
@@ -366,6 +648,96 @@ def _stored_uuids(client_uuids):
             [[str(u) for u in client_uuids]],
         )
         return {row[0] if isinstance(row[0], uuid.UUID) else uuid.UUID(row[0]) for row in cursor.fetchall()}
+
+
+# --- Step 5: store ---------------------------------------------------------------------------------
+
+
+def store_readings(readings, user):
+    """Write these readings (inspections with their summaries, and their cells); returns the cells written."""
+    inspections = []
+    for reading in readings:
+        inspection = Inspection(
+            battery=reading.battery, taken_by=user, taken_at=reading.taken_at, situation=reading.situation,
+            scope=reading.scope, temp_c=reading.temp_c, hours_since_charge=reading.hours_since_charge,
+            client_uuid=reading.client_uuid, notes="Imported from CSV",
+        )
+        summarise(inspection, sorted(reading.cells, key=lambda cell: cell.position))
+        inspections.append(inspection)
+    _insert_inspections(inspections)
+    return _insert_cells(zip(inspections, readings))
+
+
+# --- The import ------------------------------------------------------------------------------------
+
+
+def import_readings(source, *, user, batteries, good_rows_only=False, dry_run=False, notes_out=None,
+                    progress=None, rows_per_chunk=None):
+    """Check every row and store every reading in one transaction, or nothing (unless good_rows_only).
+
+    source: CSV text or a text stream. notes_out: a text stream for the full list of notes as CSV.
+    progress(report): called after each chunk. Readings already stored are counted and left alone."""
+    report = ImportReport(dry_run=dry_run)
+    out = csv.writer(notes_out) if notes_out is not None else None
+    if out is not None:
+        out.writerow(NOTE_FILE_HEADER)
+    checker = Checker(batteries, report, out)
+    if dry_run:
+        _run(source, checker, report, None, progress, rows_per_chunk)
+        return report
+    with transaction.atomic():
+        if connection.vendor == "postgresql":
+            with connection.cursor() as cursor:
+                cursor.execute("SELECT pg_advisory_xact_lock(%s)", [IMPORT_LOCK_KEY])
+        battery_ids = set()
+        _run(source, checker, report, (user, battery_ids, good_rows_only), progress, rows_per_chunk)
+        if report.problem_count and not good_rows_only:
+            transaction.set_rollback(True)
+            report.inspections_created = report.cells_created = 0
+            return report
+        report.imported = True
+        ids = sorted(battery_ids)
+        if ids:
+            transaction.on_commit(lambda: signals.inspections_imported.send(Inspection, battery_ids=ids))
+    return report
+
+
+def _run(source, checker, report, store, progress, rows_per_chunk):
+    """Read, check and (when store is (user, battery_ids, good_rows_only)) write the file chunk by chunk."""
+    rows = _counted(read_rows(source, report), report)
+    try:
+        for chunk in chunks(group_rows(rows), rows_per_chunk or CHUNK_ROWS):
+            checker.load_batteries(chunk)
+            readings = [r for r in (checker.check_reading(*found) for found in checker.readings_in(chunk)) if r is not None]
+            already = find_already_stored(readings)
+            new = []
+            for i, reading in enumerate(readings):
+                if i in already:
+                    report.inspections_already_stored += 1
+                    checker.note(reading.line, "taken_at", f"{reading.describe()} is already stored.", level=Note.STORED)
+                else:
+                    new.append(reading)
+            writing = store is not None and (store[2] or not report.problem_count)
+            if writing and new:
+                user, battery_ids, _ = store
+                report.cells_created += store_readings(new, user)
+                battery_ids.update(reading.battery.pk for reading in new)
+            elif store is None:
+                report.cells_created += sum(len(reading.cells) for reading in new)
+            report.inspections_created += len(new)
+            if progress is not None:
+                progress(report)
+    except FileProblem as exc:
+        line, message = exc.args
+        checker.note(line, "file", message)
+    report.problems.sort(key=lambda note: note.line)
+    report.checks.sort(key=lambda note: note.line)
+
+
+def _counted(rows, report):
+    for row in rows:
+        report.rows_read += 1
+        yield row
 
 
 def _copy_text(value, places=None):
@@ -426,28 +798,28 @@ def _insert_inspections(inspections):
         inspection._state.db = connection.alias
 
 
-def _insert_cells(inspections_and_cells):
-    """Store cell readings; on PostgreSQL with COPY, which is several times faster than INSERT for a big file."""
+def _insert_cells(inspections_and_readings):
+    """Store cell readings (on PostgreSQL with COPY, several times faster than INSERT); returns how many."""
     if connection.vendor != "postgresql":
-        CellReading.objects.bulk_create(
-            [
-                CellReading(inspection=inspection, position=position, sg=sg, sg_corrected=corrected, temp_c=temp,
-                            volts=volts, level=level)
-                for inspection, cells in inspections_and_cells
-                for position, (sg, temp, volts, level, corrected, _copy) in cells
-            ],
-            batch_size=2000,
-        )
-        return
+        rows = [
+            CellReading(inspection=inspection, position=cell.position, sg=cell.values.sg,
+                        sg_corrected=cell.values.sg_corrected, temp_c=cell.values.temp_c, volts=cell.values.volts,
+                        level=cell.values.level)
+            for inspection, reading in inspections_and_readings
+            for cell in reading.cells
+        ]
+        CellReading.objects.bulk_create(rows, batch_size=2000)
+        return len(rows)
     lines = []
-    for inspection, cells in inspections_and_cells:
+    for inspection, reading in inspections_and_readings:
         prefix = f"{inspection.pk}\t"
-        lines.extend(f"{prefix}{position}\t{clean[5]}" for position, clean in cells)
+        lines.extend(f"{prefix}{cell.position}\t{cell.values.copy_tail}" for cell in reading.cells)
     with connection.cursor() as cursor:
         cursor.copy_expert(
             f"COPY {CellReading._meta.db_table} (inspection_id, position, sg, sg_corrected, temp_c, volts, level) FROM STDIN",
             io.StringIO("".join(lines)),
         )
+    return len(lines)
 
 
 def write_battery_readings(out, battery):

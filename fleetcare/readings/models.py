@@ -211,3 +211,39 @@ class ReadingChange(models.Model):
     @property
     def what(self):
         return "reading" if self.inspection_id else "water top-up"
+
+
+class CsvImport(models.Model):
+    """An uploaded CSV file and what importing it did. The file is kept on disk (MEDIA_ROOT) until the
+    background task has read it; the result (counts and the first notes) stays here for the import's page."""
+
+    class State(models.TextChoices):
+        WAITING = "waiting", "Waiting for the worker"
+        RUNNING = "running", "Importing"
+        DONE = "done", "Finished"
+        FAILED = "failed", "Failed"
+
+    id = models.UUIDField(primary_key=True, default=uuid.uuid4, editable=False)
+    uploaded_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="csv_imports")
+    uploaded_at = models.DateTimeField(auto_now_add=True)
+    file_name = models.CharField(max_length=200)
+    file = models.FileField(upload_to="imports/", blank=True)
+    size_bytes = models.PositiveBigIntegerField(default=0)
+    dry_run = models.BooleanField(default=False)
+    good_rows_only = models.BooleanField(default=False)
+    state = models.CharField(max_length=8, choices=State.choices, default=State.WAITING)
+    task_id = models.CharField(max_length=64, blank=True)
+    finished_at = models.DateTimeField(null=True, blank=True)
+    result = models.JSONField(default=dict, blank=True)
+    notes_file = models.FileField(upload_to="imports/", blank=True, help_text="Every note of the import, as CSV.")
+    error = models.TextField(blank=True)
+
+    class Meta:
+        ordering = ["-uploaded_at"]
+
+    def __str__(self):
+        return f"{self.file_name} ({self.get_state_display()})"
+
+    @property
+    def finished(self):
+        return self.state in (self.State.DONE, self.State.FAILED)

@@ -1,5 +1,7 @@
 """Reads that feed the reading pages, each in a fixed number of queries."""
-from fleetcare.readings.models import Inspection
+from fleetcare.readings.models import CsvImport, Inspection
+
+RECENT_IMPORTS = 10
 
 
 def tray_columns(positions):
@@ -32,4 +34,25 @@ def inspection_page(inspection):
         "revisions": revisions,
         "superseded_by": Inspection.objects.filter(supersedes=inspection).first(),
         "tray_columns": tray_columns(inspection.battery.profile.positions),
+    }
+
+
+def recent_imports(user):
+    """The user's latest imports, newest first, for the upload page."""
+    return list(CsvImport.objects.filter(uploaded_by=user).order_by("-uploaded_at")[:RECENT_IMPORTS])
+
+
+def import_page(job):
+    """An import's page: while it runs, where to ask for progress; once done, its result as kept."""
+    result = job.result or {}
+    problem_count = result.get("problem_count", 0)
+    return {
+        "job": job,
+        "result": result,
+        "problems": [dict(zip(("line", "cell", "column", "message"), note)) for note in result.get("problems", [])],
+        "checks": [dict(zip(("line", "cell", "column", "message"), note)) for note in result.get("checks", [])],
+        "already": [dict(zip(("line", "cell", "column", "message"), note)) for note in result.get("already", [])],
+        "problems_cut": problem_count > len(result.get("problems", [])),
+        "checks_cut": result.get("check_count", 0) > len(result.get("checks", [])),
+        "already_cut": result.get("inspections_already_stored", 0) > len(result.get("already", [])),
     }

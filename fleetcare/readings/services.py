@@ -255,3 +255,4 @@ def record_top_up(*, battery, user, done_at, volume_ml, volume_entered="", befor
         transaction.on_commit(lambda: signals.top_up_recorded.send(WaterTopUp, top_up=top_up))
 
     return _store_once(top_up, write)
+

@@ -13,4 +13,7 @@ urlpatterns = [
     path("inspection/<int:pk>/remove/", views.remove_inspection, name="remove"),
     path("water/<int:pk>/remove/", views.remove_top_up, name="remove_top_up"),
     path("import/", views.import_csv, name="import"),
+    path("import/<uuid:import_id>/", views.import_result, name="import_result"),
+    path("import/<uuid:import_id>/progress/", views.import_progress, name="import_progress"),
+    path("import/<uuid:import_id>/notes.csv", views.import_notes, name="import_notes"),
 ]

@@ -2,7 +2,9 @@ from decimal import Decimal
 
 from django.contrib import messages
 from django.db.models import Q
-from django.http import HttpResponse
+from django.conf import settings
+from django.core.files.storage import default_storage
+from django.http import FileResponse, Http404, HttpResponse, JsonResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.utils import timezone
@@ -15,11 +17,12 @@ from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
 from fleetcare.fleet.access import battery_or_404, visible_batteries
 from fleetcare.fleet.models import Site
 from fleetcare.readings import csv_io, selectors, services
-from fleetcare.readings.access import inspection_or_404, top_up_or_404
+from fleetcare.readings.access import csv_import_or_404, inspection_or_404, top_up_or_404
 from fleetcare.readings.audit import inspection_versions
 from fleetcare.readings.forms import InspectionForm, TopUpForm
 from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import record_inspection, record_top_up
+from fleetcare.readings.tasks import queue_csv_import, read_progress
 from fleetcare.spreadsheets import attach
 
 
@@ -210,20 +213,47 @@ def export_csv(request, pk):
 @role_required(CREW)
 @require_http_methods(["GET", "POST"])
 def import_csv(request):
-    report = None
-    if request.method == "POST" and request.FILES.get("file"):
-        upload = request.FILES["file"]
-        good_rows_only = bool(request.POST.get("good_rows_only"))
-        dry_run = bool(request.POST.get("dry_run"))
-        try:
-            text = upload.read().decode("utf-8-sig")
-        except UnicodeDecodeError:
-            messages.error(request, "The file is not UTF-8 text. Save it as CSV (UTF-8) and try again.")
+    """Upload page: the file is stored and imported by the background worker; the import's page follows it."""
+    if request.method == "POST":
+        upload = request.FILES.get("file")
+        limit_mb = settings.FLEETCARE_IMPORT_MAX_MB
+        if upload is None:
+            messages.error(request, "Choose a CSV file to import.")
+        elif upload.size > limit_mb * 1024 * 1024:
+            messages.error(request, f"The file is {upload.size / 1024 / 1024:,.0f} MB; the largest accepted is "
+                                    f"{limit_mb} MB. Split it into smaller files and import each.")
+        elif not upload.size:
+            messages.error(request, "The file is empty.")
         else:
-            report = csv_io.import_readings(
-                text, user=request.user, batteries=visible_batteries(request.user),
-                good_rows_only=good_rows_only, dry_run=dry_run,
+            job = queue_csv_import(
+                upload, user=request.user, dry_run=bool(request.POST.get("dry_run")),
+                good_rows_only=bool(request.POST.get("good_rows_only")),
             )
-    elif request.method == "POST":
-        messages.error(request, "Choose a CSV file to import.")
-    return render(request, "readings/import.html", {"report": report, "columns": csv_io.COLUMNS})
+            return redirect("readings:import_result", import_id=job.pk)
+    return render(request, "readings/import.html", {
+        "columns": csv_io.COLUMNS, "optional_columns": csv_io.OPTIONAL_COLUMNS,
+        "limit_mb": settings.FLEETCARE_IMPORT_MAX_MB, "recent": selectors.recent_imports(request.user),
+    })
+
+
+@role_required(CREW)
+def import_result(request, import_id):
+    job = csv_import_or_404(request.user, import_id)
+    return render(request, "readings/import_result.html", selectors.import_page(job))
+
+
+@role_required(CREW)
+def import_progress(request, import_id):
+    job = csv_import_or_404(request.user, import_id)
+    return JsonResponse({"state": job.state, "finished": job.finished, **read_progress(job)})
+
+
+@role_required(CREW)
+def import_notes(request, import_id):
+    """Every note of an import (problems, values to check, readings already stored) as CSV."""
+    job = csv_import_or_404(request.user, import_id)
+    if not job.notes_file.name or not default_storage.exists(job.notes_file.name):
+        raise Http404("This import kept no list of notes.")
+    response = FileResponse(default_storage.open(job.notes_file.name, "rb"), content_type="text/csv; charset=utf-8",
+                            as_attachment=True, filename=f"import-notes-{job.pk}.csv")
+    return response

@@ -31,6 +31,7 @@ KWARG_KINDS = {
     "code": "site_code", "site": "site_code", "site_code": "site_code",
     "site_pk": "site", "site_id": "site",
     "token": "feed_token",
+    "import_id": "csv_import",
 }
 # For a bare `pk` or `id`, the path word before it says what it names ("findings/<int:pk>/").
 PK_NOUNS = {
@@ -140,6 +141,16 @@ class World:
             now = timezone.now()
             return Finding.objects.create(battery=battery, kind=Finding.Kind.HIGH_SPREAD, opened_at=now,
                                           last_seen_at=now, summary="made for the access matrix").pk
+        if kind == "csv_import":
+            from fleetcare.readings.models import CsvImport
+
+            uploader = self.reader if side == "own" else _member_of(battery.site)
+            from django.core.files.base import ContentFile
+
+            job = CsvImport.objects.create(uploaded_by=uploader, file_name="readings.csv", state="done",
+                                           result={"rows_read": 0, "imported": True})
+            job.notes_file.save(f"{job.pk}-notes.csv", ContentFile(b"line,cell,column,kind,message\n"))
+            return job.pk
         pytest.fail(f"no maker for objects of kind “{kind}”: add one to World.make.", pytrace=False)
 
     def path(self, route, side):
@@ -147,6 +158,14 @@ class World:
             return str(self.value(kind_of(route, match.group("name")), side))
 
         return "/" + CONVERTER.sub(fill, route.route)
+
+
+def _member_of(site):
+    from django.contrib.auth import get_user_model
+
+    user = get_user_model().objects.create(username=f"member-of-{site.code}")
+    site.members.add(user)
+    return user
 
 
 @pytest.fixture

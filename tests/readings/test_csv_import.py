@@ -66,7 +66,7 @@ def test_each_kind_of_bad_value_is_reported(battery, crew, change, message):
 
 def test_the_wrong_number_of_cells_for_the_profile_is_reported(battery, crew):
     report = run(HEADER + inspection_rows(cells=20), crew)
-    assert report.errors == [(2, "TW-001 at 2026-11-02 06:00: 20 cells read; the profile has 24 (give all of them, or one for a pilot-cell reading).")]
+    assert report.errors == [(2, "TW-001 at 2026-11-02 06:00 (just charged): 20 cells read; the profile has 24 (give all of them, or one for a pilot-cell reading).")]
 
 
 def test_importing_the_same_file_twice_stores_it_once(battery, crew):
@@ -86,7 +86,7 @@ def test_a_dry_run_stores_nothing(battery, crew):
 def test_another_sites_battery_is_unknown_to_the_upload_page(crew_client, other_battery):
     upload = io.BytesIO((HEADER + inspection_rows(serial="OT-001")).encode())
     upload.name = "readings.csv"
-    response = crew_client.post(reverse("readings:import"), {"file": upload})
+    response = crew_client.post(reverse("readings:import"), {"file": upload}, follow=True)
     assert "no battery with serial “OT-001” at your sites" in response.content.decode()
     assert Inspection.objects.count() == 0
 
@@ -135,7 +135,7 @@ def test_rows_that_name_the_same_reading_in_other_words_are_one_inspection(batte
 
 def test_a_short_row_counts_its_missing_columns_as_empty(battery, crew):
     report = run(HEADER + "TW-001,2026-11-02T06:00,charged,1,1.280\n", crew)
-    assert report.errors == [(2, "sg given without temp (°C).")]
+    assert report.errors == [(2, "sg given without temp.")]
 
 
 def test_notes_and_every_summary_field_arrive_as_computed(battery, crew):

@@ -1,3 +1,8 @@
+import signal
+import subprocess
+import sys
+
+from django.conf import settings
 from django.core.management import call_command
 from django.core.management.base import BaseCommand
 
@@ -8,7 +13,8 @@ from fleetcare.planner import demo as planner_demo
 
 
 class Command(BaseCommand):
-    help = "Migrate, load the invented demo fleet (once), print the demo logins, then serve like runserver."
+    help = ("Migrate, load the invented demo fleet (once), print the demo logins, then serve like runserver, "
+            "with the background worker (db_worker) beside it; stopping the demo stops both.")
 
     def add_arguments(self, parser):
         parser.add_argument("addrport", nargs="?", default="127.0.0.1:8000")
@@ -28,4 +34,19 @@ class Command(BaseCommand):
         for username, first, last, role in demo.DEMO_USERS:
             self.stdout.write(f"  {role:<14} {username:<17} password {demo.DEMO_PASSWORD}")
         if not no_serve:
+            self.serve_with_worker(addrport)
+
+    def serve_with_worker(self, addrport):
+        worker = subprocess.Popen(
+            [sys.executable, str(settings.BASE_DIR / "manage.py"), "db_worker", "--no-reload", "--interval", "1"],
+        )
+        self.stdout.write(f"Background worker started (process {worker.pid}): imports and checks run there.")
+        signal.signal(signal.SIGTERM, lambda signum, frame: sys.exit(0))  # so `finally` stops the worker too
+        try:
             call_command("runserver", addrport, use_reloader=False)
+        finally:
+            worker.terminate()
+            try:
+                worker.wait(timeout=30)
+            except subprocess.TimeoutExpired:
+                worker.kill()
