@@ -111,6 +111,12 @@ if DATABASES["default"]["ENGINE"] == "django.db.backends.postgresql":
     # over a few thousand readings, and spends 15-20 ms compiling a query that runs in 50: it pays
     # off only for long analytical queries, which FleetCare does not run. FLEETCARE_PG_JIT=on keeps it.
     DATABASES["default"].setdefault("OPTIONS", {})["options"] = f"-c jit={os.environ.get('FLEETCARE_PG_JIT', 'off')}"
+if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
+    # Write-ahead logging: pages keep answering while the background worker holds an import's transaction
+    # (in SQLite's default journal mode a long write locks readers out too); writers wait up to 20 s.
+    DATABASES["default"].setdefault("OPTIONS", {}).update(
+        {"init_command": "PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;", "timeout": 20}
+    )
 DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 
 AUTH_PASSWORD_VALIDATORS = [

@@ -655,17 +655,29 @@ def _stored_uuids(client_uuids):
 
 def store_readings(readings, user):
     """Write these readings (inspections with their summaries, and their cells); returns the cells written."""
+    postgres = connection.vendor == "postgresql"
     inspections = []
     for reading in readings:
-        inspection = Inspection(
-            battery=reading.battery, taken_by=user, taken_at=reading.taken_at, situation=reading.situation,
-            scope=reading.scope, temp_c=reading.temp_c, hours_since_charge=reading.hours_since_charge,
-            client_uuid=reading.client_uuid, notes="Imported from CSV",
+        fields = dict(
+            battery=reading.battery, taken_at=reading.taken_at, situation=reading.situation, scope=reading.scope,
+            temp_c=reading.temp_c, hours_since_charge=reading.hours_since_charge, client_uuid=reading.client_uuid,
+            notes="Imported from CSV",
         )
+        # On PostgreSQL the row goes out through COPY, so a plain record is enough (a model instance costs more).
+        inspection = _PendingInspection(battery_id=reading.battery.pk, taken_by_id=user.pk, **fields) if postgres \
+            else Inspection(taken_by=user, **fields)
         summarise(inspection, sorted(reading.cells, key=lambda cell: cell.position))
         inspections.append(inspection)
     _insert_inspections(inspections)
     return _insert_cells(zip(inspections, readings))
+
+
+class _PendingInspection:
+    """An inspection on its way to COPY: what summarise() reads and fills in, and the columns written
+    (any column not set takes its model default)."""
+
+    def __init__(self, **values):
+        self.__dict__.update(values)
 
 
 # --- The import ------------------------------------------------------------------------------------
@@ -778,8 +790,8 @@ def _insert_inspections(inspections):
         Inspection.objects.bulk_create(inspections, batch_size=500)
         return
     table = Inspection._meta.db_table
-    fields = Inspection._meta.concrete_fields
-    writers = [(f.attname, _copy_field(f)) for f in fields]
+    fields = [f for f in Inspection._meta.concrete_fields if not f.primary_key]
+    writers = [(f.attname, _copy_field(f), f.get_default()) for f in fields]
     now = timezone.now()
     with connection.cursor() as cursor:
         cursor.execute(
@@ -787,15 +799,15 @@ def _insert_inspections(inspections):
         )
         lines = []
         for inspection, (pk,) in zip(inspections, cursor.fetchall()):
-            inspection.pk = pk
+            inspection.pk = inspection.id = pk
             inspection.recorded_at = now
-            values = [getattr(inspection, attname) for attname, _ in writers]
-            lines.append("\t".join("\\N" if value is None else write(value)
-                                   for value, (_, write) in zip(values, writers)) + "\n")
-        cursor.copy_expert(f"COPY {table} ({', '.join(f.column for f in fields)}) FROM STDIN", io.StringIO("".join(lines)))
-    for inspection in inspections:
-        inspection._state.adding = False
-        inspection._state.db = connection.alias
+            values = inspection.__dict__
+            lines.append(f"{pk}\t" + "\t".join(
+                "\\N" if value is None else write(value)
+                for value, write in ((values.get(attname, default), write) for attname, write, default in writers)
+            ) + "\n")
+        columns = ", ".join(["id"] + [f.column for f in fields])
+        cursor.copy_expert(f"COPY {table} ({columns}) FROM STDIN", io.StringIO("".join(lines)))
 
 
 def _insert_cells(inspections_and_readings):
