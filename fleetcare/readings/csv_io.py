@@ -690,7 +690,7 @@ def import_readings(source, *, user, batteries, good_rows_only=False, dry_run=Fa
     source: CSV text or a text stream. notes_out: a text stream for the full list of notes as CSV.
     progress(report): called after each chunk. Readings already stored are counted and left alone."""
     report = ImportReport(dry_run=dry_run)
-    out = csv.writer(notes_out) if notes_out is not None else None
+    out = CsvWriter(notes_out) if notes_out is not None else None
     if out is not None:
         out.writerow(NOTE_FILE_HEADER)
     checker = Checker(batteries, report, out)
