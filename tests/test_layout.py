@@ -13,7 +13,7 @@ def installed_apps(**env):
 def test_production_settings_install_no_development_tool():
     apps = installed_apps(**PRODUCTION_ENV)
     assert "fleetcare.tablet" in apps
-    assert [app for app in apps if not app.startswith(("django.", "fleetcare.", "crispy_", "whitenoise."))] == []
+    assert [app for app in apps if not app.startswith(("django.", "fleetcare.", "crispy_", "whitenoise.", "django_tasks"))] == []
     assert "Unknown command: 'benchmark'" in manage("benchmark", "--help", **PRODUCTION_ENV).stderr
 
 
