@@ -1,5 +1,12 @@
-"""The layout holds: development tools stay out of production."""
+"""The layout holds: development tools stay out of production, and our own apps are never optional."""
+import re
+import subprocess
+import sys
+from pathlib import Path
+
 from tests.accounts.test_security_settings import PRODUCTION_ENV, manage
+
+ROOT = Path(__file__).resolve().parents[1]
 
 INSTALLED_APPS = "from django.conf import settings; print(*('app=' + app for app in settings.INSTALLED_APPS))"
 
@@ -20,3 +27,21 @@ def test_production_settings_install_no_development_tool():
 def test_development_settings_offer_the_benchmark():
     assert "tools.benchmark" in installed_apps()
     assert manage("benchmark", "--help").returncode == 0
+
+
+def test_no_app_of_ours_is_imported_as_if_it_might_be_missing():
+    guarded = [
+        f"{path.relative_to(ROOT)}:{number}"
+        for path in sorted((ROOT / "fleetcare").rglob("*.py"))
+        for number, line in enumerate(path.read_text(encoding="utf-8").splitlines(), start=1)
+        if re.search(r"except\s*\(?[\w\s,]*ImportError", line)
+    ]
+    assert guarded == []
+
+
+def test_the_apps_import_one_way_only():
+    """The contracts in pyproject.toml: chemistry, fleet, readings, care/planner/budget, then the pages."""
+    lint = Path(sys.executable).parent / "lint-imports"
+    result = subprocess.run([str(lint)], cwd=ROOT, capture_output=True, text=True, timeout=300)
+    assert result.returncode == 0, result.stdout[-3000:]
+    assert "Contracts: 3 kept, 0 broken." in result.stdout

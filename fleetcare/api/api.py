@@ -14,6 +14,7 @@ from fleetcare.accounts.roles import CREW, has_role, role_of
 from fleetcare.api import schemas, selectors, services
 from fleetcare.api.tokens import user_for_secret
 from fleetcare.fleet.access import battery_or_404
+from fleetcare.planner.selectors import tasks_for_today
 
 LEAST_ROLE = CREW
 SAFE_METHODS = ("GET", "HEAD", "OPTIONS")
@@ -151,17 +152,11 @@ def submit_top_up(request, battery_id: int, payload: schemas.TopUpIn):
     return Status(status, body)
 
 
-try:
-    from fleetcare.planner.selectors import tasks_for_today as planned_tasks
-except ImportError:  # without the planner there is no task list: no endpoint rather than an empty one
-    planned_tasks = None
-
-if planned_tasks is not None:
-    @api.get("/tasks/today", response={200: list[schemas.TaskOut], **ERRORS}, url_name="tasks_today",
-             summary="Today's tasks at your sites")
-    def tasks_today(request):
-        """Readings, waterings and equalizing charges due today at your sites, overdue first, as planned."""
-        return [task.as_dict() for task in planned_tasks(request.auth)]
+@api.get("/tasks/today", response={200: list[schemas.TaskOut], **ERRORS}, url_name="tasks_today",
+         summary="Today's tasks at your sites")
+def tasks_today(request):
+    """Readings, waterings and equalizing charges due today at your sites, overdue first, as planned."""
+    return [task.as_dict() for task in tasks_for_today(request.auth)]
 
 
 @api.get("/offline/pages", response={200: schemas.OfflinePagesOut, **ERRORS}, url_name="offline_pages",

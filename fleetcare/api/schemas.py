@@ -189,9 +189,8 @@ class StatusOut(Schema):
     latest: Optional[ReadingSummary] = Field(description="The latest current inspection of any kind.")
     latest_all_cells: Optional[ReadingSummary] = Field(description="The latest all-cell inspection: its spread.")
     last_top_up: Optional[dt.datetime]
-    findings_available: bool = Field(description="False while the findings module is not installed.")
     open_findings: list[FindingOut]
-    next_work_due: Optional[list[WorkDueOut]] = Field(description="Planned work, or null when no planner answers.")
+    next_work_due: list[WorkDueOut] = Field(description="The battery's work as the planner has it due.")
 
 
 class TaskOut(Schema):

@@ -3,8 +3,10 @@ from django.db.models import Prefetch
 from django.templatetags.static import static
 from django.urls import reverse
 
+from fleetcare.care.models import Finding
 from fleetcare.fleet.access import visible_batteries, visible_sites
 from fleetcare.fleet.models import Battery, BatteryProfile, Fitting
+from fleetcare.planner.selectors import work_due_for_battery
 from fleetcare.readings.models import Inspection, WaterTopUp
 
 
@@ -139,11 +141,7 @@ def _summary(inspection):
 
 
 def open_findings(battery):
-    """Active findings, or None while the findings module is not there."""
-    try:
-        from fleetcare.care.models import Finding
-    except ImportError:
-        return None
+    """The battery's active findings, most severe first."""
     return [
         {"id": f.pk, "kind": f.kind, "title": f.get_kind_display(), "state": f.state, "severity": f.severity,
          "positions": list(f.positions or []), "opened_at": f.opened_at, "summary": f.summary}
@@ -152,11 +150,7 @@ def open_findings(battery):
 
 
 def next_work_due(battery):
-    """Planned work from the planner, or None when it has no answer for one battery."""
-    try:
-        from fleetcare.planner.selectors import work_due_for_battery
-    except ImportError:
-        return None
+    """The battery's work as the planner has it due."""
     return [
         {"kind": item["kind"], "title": item["title"], "due": item["due"]}
         for item in work_due_for_battery(battery)
@@ -180,8 +174,7 @@ def battery_status(battery: Battery):
         "latest": _summary(latest),
         "latest_all_cells": _summary(latest_all),
         "last_top_up": last_top_up,
-        "findings_available": findings is not None,
-        "open_findings": findings or [],
+        "open_findings": findings,
         "next_work_due": next_work_due(battery),
     }
 

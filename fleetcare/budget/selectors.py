@@ -15,6 +15,7 @@ from fleetcare.budget import forecast
 from fleetcare.budget import policy as budget_policy
 from fleetcare.budget.models import BudgetAssumptions, CapacityTest, Policy
 from fleetcare.care import policy as care_policy
+from fleetcare.care.models import Finding
 from fleetcare.care.models import Policy as CarePolicy
 from fleetcare.fleet.models import BatteryProfile
 from fleetcare.readings.models import Inspection
@@ -22,20 +23,8 @@ from fleetcare.readings.models import Inspection
 WEAK_CELL, WEAK_BLOCK = "weak_cell", "weak_block"
 
 
-def finding_model():
-    """The care app's Finding model, or None where it is not there (the budget then reads cells itself)."""
-    try:
-        from fleetcare.care.models import Finding
-    except ImportError:
-        return None
-    return Finding
-
-
 def _weak_findings(batteries):
     """Per battery: the cells its active weak-cell finding calls failing (and why), and whether a block is weak."""
-    Finding = finding_model()
-    if Finding is None:
-        return {}
     rows = Finding.objects.filter(battery__in=batteries.values("pk"), kind__in=(WEAK_CELL, WEAK_BLOCK)).active()
     found = defaultdict(lambda: {"cells": set(), "block": False, "because": ""})
     for finding in rows.only("battery_id", "kind", "positions", "persistent", "evidence"):

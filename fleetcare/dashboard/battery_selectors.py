@@ -11,20 +11,12 @@ from django.db.models.functions import Coalesce
 from django.utils import timezone
 
 from fleetcare import charts
+from fleetcare.care.models import Finding
 from fleetcare.fleet.models import Battery, BatteryProfile, Fitting
+from fleetcare.planner import policy as planner_policy
+from fleetcare.planner.models import EqualizingCharge
+from fleetcare.planner.models import Policy as PlannerPolicy
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
-
-try:  # findings come from the care app; the fleet pages work without it
-    from fleetcare.care.models import Finding
-except ImportError:  # pragma: no cover - only before the care app has its models
-    Finding = None
-
-try:  # the planner owns how often care is due; the fleet pages work without it
-    from fleetcare.planner import policy as planner_policy
-    from fleetcare.planner.models import EqualizingCharge
-    from fleetcare.planner.models import Policy as PlannerPolicy
-except ImportError:  # pragma: no cover - only before the planner app has its models
-    planner_policy = EqualizingCharge = PlannerPolicy = None
 
 HEATMAP_INSPECTIONS = 40
 LIST_PAGE_SIZE = 50
@@ -47,9 +39,7 @@ SOC_BAND_SHORT = {
     NO_READING: "none yet",
 }
 
-# How often equalizing and watering are due comes from the planner's policy (per site and profile,
-# 7 days by default); this default is used only where the planner app is not installed.
-DEFAULT_CARE_INTERVAL_DAYS = 7
+# How often equalizing and watering are due comes from the planner's policy (per site and profile).
 OVERDUE_KINDS = {"equalizing": "Equalizing overdue", "watering": "Watering overdue"}
 
 
@@ -117,8 +107,6 @@ def care_intervals(kind):
     """[(condition on a battery's site and profile, days)] covering every battery once: the planner's
     equalize_every_days or water_every_days as its policy rows resolve them (one query for the rows).
     Days of 0 mean never due by time."""
-    if planner_policy is None:
-        return [(Q(), DEFAULT_CARE_INTERVAL_DAYS)]
     setting = "equalize_every_days" if kind == "equalizing" else "water_every_days"
     policies = list(PlannerPolicy.objects.select_related("site", "profile"))
     return [
@@ -190,7 +178,7 @@ def soc_band_q(key):
 
 
 def finding_kinds():
-    return list(Finding.Kind.choices) if Finding is not None else []
+    return list(Finding.Kind.choices)
 
 
 SORTS = {
@@ -296,7 +284,7 @@ def battery_list(batteries, filters, now):
     batteries = with_latest_reading(batteries)
     if filters.soc:
         batteries = batteries.filter(soc_band_q(filters.soc))
-    if filters.finding and Finding is not None:
+    if filters.finding:
         batteries = batteries.filter(pk__in=Finding.objects.active().filter(kind=filters.finding).values("battery_id"))
     if filters.overdue:
         batteries = batteries.filter(overdue_q(filters.overdue, now))

@@ -19,21 +19,14 @@ from django.urls import reverse
 from django.utils import timezone
 
 from fleetcare import charts
+from fleetcare.care import policy as care_policy
+from fleetcare.care.models import Finding
+from fleetcare.care.models import Policy as CarePolicy
+from fleetcare.care.policy import BY_NAME as CARE_THRESHOLDS
 from fleetcare.dashboard import battery_selectors as fleet
 from fleetcare.fleet.models import Battery, Fitting
 from fleetcare.readings.models import Inspection, WaterTopUp
 
-try:  # findings come from the care app; the page works without it
-    from fleetcare.care.models import Finding
-except ImportError:  # pragma: no cover - only before the care app has its models
-    Finding = None
-try:
-    from fleetcare.care import policy as care_policy
-    from fleetcare.care.models import Policy as CarePolicy
-    from fleetcare.care.policy import BY_NAME as CARE_THRESHOLDS
-except ImportError:  # pragma: no cover
-    care_policy = CarePolicy = None
-    CARE_THRESHOLDS = {}
 
 
 def _care_default(name, fallback):
@@ -75,7 +68,6 @@ def overview(batteries, sites, scope=None, now=None):
         "battery_count": len(in_scope),
         "scope": scope,
         "soc_chart": _soc_chart(in_scope, sites if scope is None else [scope]),
-        "findings_ready": Finding is not None,
         "findings_chart": _findings_chart(scoped, now),
         "water_chart": _water_chart(scoped, in_scope, now),
         "deep_discharge_chart": _deep_discharge_chart(scoped, now),
@@ -123,8 +115,6 @@ def _battery_rows(batteries, now, today):
 
 
 def _open_findings_by_site_and_kind(batteries):
-    if Finding is None:
-        return {}
     grouped = (
         Finding.objects.active()
         .filter(battery__in=batteries)
@@ -192,19 +182,16 @@ def _sections(rows, sites, finding_counts):
             }
         )
     findings_rows = []
-    if Finding is not None:
-        for kind, label in Finding.Kind.choices:
-            label = FINDING_LABELS.get(kind, label)
-            row_cells = cells(label, {"finding": kind}, lambda pk, k=kind: finding_counts.get((pk, k), 0))
-            if row_cells[-1]["count"]:
-                findings_rows.append({"label": label, "attention": True, "cells": row_cells})
+    for kind, label in Finding.Kind.choices:
+        label = FINDING_LABELS.get(kind, label)
+        row_cells = cells(label, {"finding": kind}, lambda pk, k=kind: finding_counts.get((pk, k), 0))
+        if row_cells[-1]["count"]:
+            findings_rows.append({"label": label, "attention": True, "cells": row_cells})
     sections.append(
         {
             "title": "Open findings (batteries)",
             "rows": findings_rows,
-            "note": "None open."
-            if Finding is not None and not findings_rows
-            else ("" if Finding is not None else "Findings are not set up yet."),
+            "note": "" if findings_rows else "None open.",
         }
     )
     sections.append(
@@ -269,8 +256,6 @@ def _buckets(field, edges, aggregate):
 
 
 def _findings_chart(batteries, now):
-    if Finding is None:
-        return None
     edges = _week_starts(now, FINDINGS_WEEKS)
     opened = _buckets("opened_at", edges, lambda q: Count("pk", filter=q))
     cleared = _buckets("cleared_at", edges, lambda q: Count("pk", filter=q))
@@ -370,8 +355,6 @@ def _water_boxes(members, by_battery, edges):
 def deep_discharge_limits():
     """[(condition on an inspection's battery, state-of-charge limit)] from the findings policy, so the
     chart counts what the deep-discharge finding counts (one query for the policy rows)."""
-    if care_policy is None:
-        return [(Q(), DEEP_DISCHARGE_SOC)]
     policies = list(CarePolicy.objects.select_related("site", "profile"))
     return [
         (

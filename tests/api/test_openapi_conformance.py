@@ -13,8 +13,6 @@ from schemathesis.specs.openapi.checks import (
     status_code_conformance,
 )
 
-from fleetcare.api.api import planned_tasks  # noqa: E402
-
 CHECKS = [not_a_server_error, status_code_conformance, content_type_conformance, response_schema_conformance]
 EXAMPLES_PER_OPERATION = 25
 
@@ -49,7 +47,7 @@ def test_every_operation_keeps_to_its_document(schema, crew_token, battery, seal
     # Real ids half the time, so submissions reach the forms; the rest are whatever the document allows.
     battery_ids = st.sampled_from([battery.pk, sealed_battery.pk, other_battery.pk]) | st.integers(-5, 10**6)
     operations = [result.ok() for result in schema.get_all_operations()]
-    assert len(operations) == (9 if planned_tasks else 8)
+    assert len(operations) == 9
 
     for operation in operations:
         @settings(max_examples=EXAMPLES_PER_OPERATION, deadline=None, database=None, derandomize=True,

@@ -40,7 +40,6 @@ def test_it_lists_active_findings_only(token_client, crew, battery):
     Finding.objects.create(battery=battery, kind="high_spread", state="cleared", opened_at=now, last_seen_at=now,
                            cleared_at=now)
     body = token_client.get(f"/api/batteries/{battery.pk}/status").json()
-    assert body["findings_available"] is True
     assert [(f["kind"], f["state"], f["positions"]) for f in body["open_findings"]] == [("weak_cell", "open", [24])]
     assert body["open_findings"][0]["title"] == "Weak cell"
 
@@ -49,12 +48,7 @@ def test_another_sites_battery_answers_404(token_client, other_battery):
     assert token_client.get(f"/api/batteries/{other_battery.pk}/status").status_code == 404
 
 
-def test_it_reports_the_next_work_due_when_the_planner_is_installed(token_client, battery):
-    from fleetcare.api.api import planned_tasks
-
+def test_it_reports_the_next_work_due(token_client, battery):
     body = token_client.get(f"/api/batteries/{battery.pk}/status").json()
-    if planned_tasks is None:
-        assert body["next_work_due"] is None
-    else:
-        kinds = {item["kind"] for item in body["next_work_due"]}
-        assert "all_cells" in kinds  # no all-cell reading on record: one is due
+    kinds = {item["kind"] for item in body["next_work_due"]}
+    assert "all_cells" in kinds  # no all-cell reading on record: one is due

@@ -1,9 +1,4 @@
-"""GET /api/tasks/today: the planner's tasks for today at the user's sites (only when the planner is installed)."""
-import pytest
-
-from fleetcare.api.api import planned_tasks
-
-pytestmark = pytest.mark.skipif(planned_tasks is None, reason="the planner (fleetcare.planner.selectors) is not installed")
+"""GET /api/tasks/today: the planner's tasks for today at the user's sites."""
 
 
 def test_it_asks_for_the_first_all_cell_reading_of_a_battery_with_none(token_client, battery, other_battery):

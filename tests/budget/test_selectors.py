@@ -1,11 +1,11 @@
 import datetime as dt
 from decimal import Decimal
 
-import pytest
 from django.utils import timezone
 
 from fleetcare.budget import selectors
 from fleetcare.budget.models import CapacityTest, ProfileBudget
+from fleetcare.care.models import Finding
 from fleetcare.fleet.models import Battery
 from tests.budget.conftest import post_charge_readings
 
@@ -22,7 +22,6 @@ def add_batteries(site, profile, user, count, start):
         post_charge_readings(b, user, (9, 2))
 
 
-@pytest.mark.skipif(selectors.finding_model() is None, reason="counts the findings query")
 def test_it_reads_the_facts_in_a_fixed_number_of_queries(site, traction_profile, supervisor,
                                                          django_assert_num_queries):
     ProfileBudget.objects.create(profile=traction_profile, typical_depth_percent=Decimal("60"))
@@ -40,9 +39,6 @@ def test_it_reads_the_facts_in_a_fixed_number_of_queries(site, traction_profile,
 
 
 def test_a_weak_cell_finding_offers_the_cell_option(battery, supervisor):
-    Finding = selectors.finding_model()
-    if Finding is None:
-        pytest.skip("the care app has no Finding model here")
     now = timezone.now()
     Finding.objects.create(battery=battery, kind="weak_cell", positions=[5], persistent=True, opened_at=now,
                            last_seen_at=now)
@@ -55,9 +51,6 @@ def test_a_weak_cell_finding_offers_the_cell_option(battery, supervisor):
 
 
 def test_a_cleared_finding_is_not_counted(battery):
-    Finding = selectors.finding_model()
-    if Finding is None:
-        pytest.skip("the care app has no Finding model here")
     now = timezone.now()
     Finding.objects.create(battery=battery, kind="weak_cell", positions=[5], state="cleared", opened_at=now,
                            last_seen_at=now, cleared_at=now)
