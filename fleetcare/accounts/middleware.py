@@ -1,23 +1,25 @@
+import zoneinfo
+
 from django.conf import settings
 from django.utils import timezone
 from django.utils.cache import patch_cache_control
 
 
 class SiteTimezoneMiddleware:
-    """Show times in the signed-in user's (first) site's local time."""
+    """A user whose sites all share one zone reads every page in it; anyone else gets UTC until a page
+    about one site's things switches to that site's clock (fleet.site_time.site_clock) or shows each
+    time in its own site's zone, labelled (the `site_time` filter)."""
 
     def __init__(self, get_response):
         self.get_response = get_response
 
     def __call__(self, request):
-        tz = None
+        zones = set()
         user = getattr(request, "user", None)
         if user is not None and user.is_authenticated:
-            site = user.sites.order_by("name").only("timezone").first()
-            if site is not None:
-                tz = site.tzinfo
-        if tz is not None:
-            timezone.activate(tz)
+            zones = set(user.sites.order_by().values_list("timezone", flat=True).distinct()[:2])
+        if len(zones) == 1:
+            timezone.activate(zoneinfo.ZoneInfo(zones.pop()))
         else:
             timezone.deactivate()
         return self.get_response(request)

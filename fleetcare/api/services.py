@@ -3,10 +3,9 @@
 Each returns (status, body). A client UUID already stored answers with that stored record, whatever
 happened since (the battery retired, the form changed): the first answer is the answer.
 """
-from django.utils import timezone
-
 from fleetcare.api import selectors
 from fleetcare.fleet.models import Battery
+from fleetcare.fleet.site_time import site_clock
 from fleetcare.readings.forms import InspectionForm, TopUpForm
 from fleetcare.readings.models import Inspection, WaterTopUp
 from fleetcare.readings.services import record_inspection, record_top_up
@@ -84,7 +83,7 @@ def submit_inspection(*, user, battery, payload):
     if refused:
         return refused
     data, extra_errors = inspection_form_data(payload, battery.profile)
-    with timezone.override(battery.site.tzinfo):
+    with site_clock(battery):
         form = InspectionForm(data, battery=battery)
         valid = form.is_valid()
     if not valid or extra_errors:
@@ -113,7 +112,7 @@ def submit_top_up(*, user, battery, payload):
         data["per_cell"] = "on"
     if payload.before_charge:
         data["before_charge"] = "on"
-    with timezone.override(battery.site.tzinfo):
+    with site_clock(battery):
         form = TopUpForm(data, battery=battery)
         valid = form.is_valid()
     if not valid:

@@ -66,7 +66,10 @@ class Site(models.Model):
 
     @property
     def tzinfo(self):
-        return zoneinfo.ZoneInfo(self.timezone)
+        """The site's zone; see fleetcare.fleet.site_time.zone_of, which every page, form and export asks."""
+        from fleetcare.fleet.site_time import zone_of
+
+        return zone_of(self)
 
 
 class ShiftWindow(models.Model):

@@ -3,6 +3,8 @@ import uuid
 from django import forms
 from django.utils import timezone
 
+from fleetcare.fleet.site_time import SiteDateTimeField
+
 from fleetcare.planner.models import EqualizingReading
 from fleetcare.planner.selectors import KINDS
 from fleetcare.readings.forms import SGField, check_temp_c, temp_label, to_celsius
@@ -11,11 +13,12 @@ BIG = {"class": "form-control form-control-lg", "autocomplete": "off"}
 
 
 def _when(label):
-    return forms.DateTimeField(label=label, widget=forms.DateTimeInput(
+    return SiteDateTimeField(label=label, widget=forms.DateTimeInput(
         attrs={"type": "datetime-local", "class": "form-control form-control-lg"}, format="%Y-%m-%dT%H:%M"))
 
 
 def _now():
+    """Now on the clock of the site the view made current (site_time.site_clock)."""
     return timezone.localtime().replace(second=0, microsecond=0)
 
 

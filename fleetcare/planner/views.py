@@ -8,7 +8,9 @@ from django.views.decorators.http import require_http_methods, require_POST
 from fleetcare.accounts.access import public_view, role_required
 from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
 from fleetcare.chemistry.equalizing import sg_has_levelled, spaced_readings
+from fleetcare.fleet import site_time
 from fleetcare.fleet.access import battery_or_404, site_or_404, visible_batteries, visible_sites
+from fleetcare.fleet.site_time import site_clock
 from fleetcare.planner import ical, selectors, services
 from fleetcare.planner.forms import EndChargeForm, ReadingForm, SkipForm, StartChargeForm
 from fleetcare.planner.models import SiteSettings
@@ -32,7 +34,7 @@ def home(request):
 def today(request, code):
     site = site_or_404(request.user, code)
     day = selectors.site_days([site])[site.pk]
-    with timezone.override(site.tzinfo):
+    with site_clock(site):
         return render(request, "planner/today.html", {
             "site": site, "day": day, "supervisor": has_role(request.user, SUPERVISOR),
             "other_sites": [s for s in visible_sites(request.user).order_by("name") if s.pk != site.pk],
@@ -46,7 +48,7 @@ def skip(request, code):
     form = SkipForm(request.POST)
     if form.is_valid():
         battery = get_object_or_404(visible_batteries(request.user), pk=form.cleaned_data["battery"], site=site)
-        services.skip_task(battery=battery, kind=form.cleaned_data["kind"], day=timezone.localdate(timezone=site.tzinfo),
+        services.skip_task(battery=battery, kind=form.cleaned_data["kind"], day=site_time.today_at(site),
                            reason=form.cleaned_data["reason"], user=request.user)
         messages.info(request, f"Noted: {battery.serial} not done today ({form.cleaned_data['reason']}). It stays on the list.")
     else:
@@ -119,7 +121,7 @@ def _levelling(charge):
 @require_http_methods(["GET", "POST"])
 def equalizing(request, pk):
     battery = battery_or_404(request.user, pk)
-    with timezone.override(battery.site.tzinfo):
+    with site_clock(battery):
         record = selectors.equalizing_record(battery)
         running = record["running"]
         form = StartChargeForm()
@@ -146,7 +148,7 @@ def equalizing(request, pk):
 @require_POST
 def equalizing_reading(request, pk):
     battery = battery_or_404(request.user, pk)
-    with timezone.override(battery.site.tzinfo):
+    with site_clock(battery):
         record = selectors.equalizing_record(battery)
         running = record["running"]
         if running is None:
@@ -170,7 +172,7 @@ def equalizing_reading(request, pk):
 @require_POST
 def equalizing_end(request, pk):
     battery = battery_or_404(request.user, pk)
-    with timezone.override(battery.site.tzinfo):
+    with site_clock(battery):
         running = selectors.equalizing_record(battery)["running"]
         if running is None:
             return redirect("planner:equalizing", pk=battery.pk)

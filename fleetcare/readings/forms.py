@@ -3,10 +3,10 @@ import uuid
 from decimal import Decimal
 
 from django import forms
-from django.utils import timezone
-
 from fleetcare import chemistry
+from fleetcare.fleet import site_time
 from fleetcare.fleet.models import Battery, Site
+from fleetcare.fleet.site_time import SiteDateTimeField
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 from fleetcare.readings.services import CellEntry
 
@@ -62,7 +62,7 @@ class InspectionForm(forms.Form):
 
     situation = forms.ChoiceField(choices=Inspection.Situation.choices, initial=Inspection.Situation.JUST_CHARGED)
     scope = forms.ChoiceField(choices=Inspection.Scope.choices, initial=Inspection.Scope.ALL_CELLS, widget=forms.HiddenInput)
-    taken_at = forms.DateTimeField(
+    taken_at = SiteDateTimeField(
         label="Taken at", widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M")
     )
     temp = forms.DecimalField(label="Electrolyte temperature", required=False, max_digits=5, decimal_places=1,
@@ -85,8 +85,9 @@ class InspectionForm(forms.Form):
         self.site = battery.site
         initial = kwargs.setdefault("initial", {})
         initial.setdefault("client_uuid", uuid.uuid4())
-        initial.setdefault("taken_at", timezone.localtime().replace(second=0, microsecond=0))
+        initial.setdefault("taken_at", site_time.now_at(battery))
         super().__init__(*args, **kwargs)
+        self.fields["taken_at"].zone = battery
         self.fields["temp"].label = f"Electrolyte temperature ({temp_label(self.site)})"
         self.fields["temp"].widget.attrs["autofocus"] = True
         if not self.profile.is_flooded:
@@ -191,7 +192,7 @@ class InspectionForm(forms.Form):
 
 
 class TopUpForm(forms.Form):
-    done_at = forms.DateTimeField(label="Done at", widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M"))
+    done_at = SiteDateTimeField(label="Done at", widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M"))
     volume = forms.DecimalField(min_value=Decimal("0.001"), max_digits=8, decimal_places=3,
                                 widget=forms.TextInput(attrs=_widget_attrs(inputmode="decimal", autofocus=True)))
     per_cell = forms.BooleanField(label="That amount went into each cell (not the whole battery)", required=False)
@@ -207,8 +208,9 @@ class TopUpForm(forms.Form):
         self.site = battery.site
         initial = kwargs.setdefault("initial", {})
         initial.setdefault("client_uuid", uuid.uuid4())
-        initial.setdefault("done_at", timezone.localtime().replace(second=0, microsecond=0))
+        initial.setdefault("done_at", site_time.now_at(battery))
         super().__init__(*args, **kwargs)
+        self.fields["done_at"].zone = battery
         unit = "US fl oz" if self.site.volume_unit == Site.VolumeUnit.US_FL_OZ else "litres"
         self.fields["volume"].label = f"Water added ({unit})"
 

@@ -7,15 +7,16 @@ from django.core.files.storage import default_storage
 from django.http import FileResponse, Http404, HttpResponse, JsonResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
-from django.utils import timezone
 from django.views.decorators.http import require_http_methods
 
 from fleetcare import chemistry
 from fleetcare.accounts.access import role_required
 from fleetcare.accounts.forms import ReasonForm
 from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
+from fleetcare.fleet import site_time
 from fleetcare.fleet.access import battery_or_404, visible_batteries
 from fleetcare.fleet.models import Site
+from fleetcare.fleet.site_time import site_clock
 from fleetcare.readings import csv_io, selectors, services
 from fleetcare.readings.access import csv_import_or_404, inspection_or_404, top_up_or_404
 from fleetcare.readings.audit import inspection_versions
@@ -62,10 +63,11 @@ def inspect(request, pk):
         if request.GET.get("situation") in Inspection.Situation.values:
             initial["situation"] = request.GET["situation"]
         form = InspectionForm(battery=battery, initial=initial)
-    return render(request, "readings/inspect.html", {
-        "battery": battery, "profile": battery.profile, "form": form, "scope": scope,
-        "tray_columns": selectors.tray_columns(battery.profile.positions),
-    })
+    with site_clock(battery):
+        return render(request, "readings/inspect.html", {
+            "battery": battery, "profile": battery.profile, "form": form, "scope": scope,
+            "tray_columns": selectors.tray_columns(battery.profile.positions),
+        })
 
 
 @role_required(CREW)
@@ -74,7 +76,8 @@ def inspection_detail(request, pk):
     context = selectors.inspection_page(inspection)
     context["versions"] = inspection_versions(inspection)
     context["can_change"] = has_role(request.user, SUPERVISOR) and not services.refusal(inspection)
-    return render(request, "readings/inspection.html", context)
+    with site_clock(inspection):
+        return render(request, "readings/inspection.html", context)
 
 
 def stored_values(inspection):
@@ -85,7 +88,7 @@ def stored_values(inspection):
         temp = Decimal(str(round(chemistry.c_to_f(float(temp)), 1)))
     initial = {
         "situation": inspection.situation, "scope": inspection.scope,
-        "taken_at": timezone.localtime(inspection.taken_at).replace(second=0, microsecond=0), "temp": temp,
+        "taken_at": inspection.taken_at.replace(second=0, microsecond=0), "temp": temp,
         "hydrometer_compensated": inspection.hydrometer_compensated,
         "hours_since_charge": inspection.hours_since_charge, "notes": inspection.notes,
     }
@@ -127,10 +130,11 @@ def correct_inspection(request, pk):
     else:
         form = InspectionForm(battery=battery, initial={**stored_values(old), "scope": scope}, correcting=True)
         reason = ReasonForm()
-    return render(request, "readings/correct.html", {
-        "battery": battery, "profile": battery.profile, "form": form, "scope": scope, "reason_form": reason,
-        "old": old, "tray_columns": selectors.tray_columns(battery.profile.positions),
-    })
+    with site_clock(battery):
+        return render(request, "readings/correct.html", {
+            "battery": battery, "profile": battery.profile, "form": form, "scope": scope, "reason_form": reason,
+            "old": old, "tray_columns": selectors.tray_columns(battery.profile.positions),
+        })
 
 
 @role_required(SUPERVISOR)
@@ -152,7 +156,7 @@ def remove_inspection(request, pk):
         return redirect("fleet:battery", pk=inspection.battery_id)
     return render(request, "readings/remove.html", {
         "form": form, "battery": inspection.battery, "what": "reading",
-        "summary": f"{inspection.get_situation_display()} reading taken {timezone.localtime(inspection.taken_at):%d %b %Y %H:%M}",
+        "summary": f"{inspection.get_situation_display()} reading taken {site_time.local(inspection.taken_at, inspection):%d %b %Y %H:%M %Z}",
         "back": reverse("readings:inspection", args=[inspection.pk]),
     })
 
@@ -175,7 +179,7 @@ def remove_top_up(request, pk):
         return redirect("fleet:battery", pk=top_up.battery_id)
     return render(request, "readings/remove.html", {
         "form": form, "battery": top_up.battery, "what": "water top-up",
-        "summary": f"{top_up.volume_entered or f'{top_up.volume_ml} mL'} on {timezone.localtime(top_up.done_at):%d %b %Y %H:%M}",
+        "summary": f"{top_up.volume_entered or f'{top_up.volume_ml} mL'} on {site_time.local(top_up.done_at, top_up):%d %b %Y %H:%M %Z}",
         "back": reverse("fleet:battery", args=[top_up.battery_id]),
     })
 
@@ -198,7 +202,8 @@ def top_up(request, pk):
             return redirect("fleet:battery", pk=battery.pk)
     else:
         form = TopUpForm(battery=battery)
-    return render(request, "readings/top_up.html", {"battery": battery, "form": form})
+    with site_clock(battery):
+        return render(request, "readings/top_up.html", {"battery": battery, "form": form})
 
 
 @role_required(CREW)
