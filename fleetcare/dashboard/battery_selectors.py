@@ -12,6 +12,7 @@ from django.utils import timezone
 
 from fleetcare import charts
 from fleetcare.care.models import Finding
+from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Battery, BatteryProfile, Fitting
 from fleetcare.planner import policy as planner_policy
 from fleetcare.planner.models import EqualizingCharge
@@ -309,13 +310,14 @@ def battery_record(battery):
         "latest": inspections[0] if inspections else None,
         "fittings": fittings,
         "top_ups": top_ups[:20],
-        "soc_chart": soc_chart(inspections),
+        "soc_chart": soc_chart(battery, inspections),
         "heatmap": sg_heatmap(battery, inspections),
         "water_chart": water_chart(battery, top_ups),
     }
 
 
-def soc_chart(inspections):
+def soc_chart(battery, inspections):
+    """State of charge over time, on the site's clock (plotly is given the local wall time, no offset)."""
     points = [(i.taken_at, i.soc_percent) for i in reversed(inspections) if i.soc_percent is not None]
     if not points:
         return None
@@ -324,10 +326,11 @@ def soc_chart(inspections):
         if inspection.soc_percent is None:
             continue
         label = "After charge" if inspection.is_post_charge else "Other readings"
-        by_kind[label][0].append(inspection.taken_at.isoformat())
+        by_kind[label][0].append(site_time.local(inspection.taken_at, battery).replace(tzinfo=None).isoformat())
         by_kind[label][1].append(float(inspection.soc_percent))
     series = [(name, xs, ys) for name, (xs, ys) in sorted(by_kind.items())]
-    return charts.line(series, "State of charge over time", "State of charge (%)", y_range=(0, 105))
+    return charts.line(series, "State of charge over time", "State of charge (%)", y_range=(0, 105),
+                       x_title=f"Site time ({site_time.zone_of(battery).key})")
 
 
 def sg_heatmap(battery, inspections):
@@ -345,7 +348,7 @@ def sg_heatmap(battery, inspections):
     ):
         if sg is not None and 1 <= position <= cells:
             z[position - 1][index[inspection_id]] = float(sg)
-    x = _column_labels([timezone.localtime(i.taken_at, battery.site.tzinfo) for i in recent])
+    x = _column_labels([site_time.local(i.taken_at, battery) for i in recent])
     y = [f"Cell {n}" for n in range(1, cells + 1)]
     lowest = [
         (x[col], y[i.lowest_position - 1])
@@ -376,8 +379,8 @@ def water_chart(battery, top_ups):
         return None
     per_month = defaultdict(float)
     for top_up in top_ups:
-        month = timezone.localtime(top_up.done_at, battery.site.tzinfo).strftime("%Y-%m")
+        month = site_time.local(top_up.done_at, battery).strftime("%Y-%m")
         per_month[month] += float(top_up.volume_ml) / battery.profile.cell_count
     months = sorted(per_month)
-    values = [round(per_month[m]) for m in months]
-    return charts.bars(months, values, "Water added per cell per month", "mL per cell")
+    values = [float(site_units.cell_water_shown(per_month[m], battery)) for m in months]
+    return charts.bars(months, values, "Water added per cell per month", f"{site_units.cell_water_label(battery)} per cell")

@@ -9,6 +9,7 @@ from fleetcare.accounts.roles import CREW
 from fleetcare.dashboard import battery_selectors as selectors
 from fleetcare.fleet.access import battery_or_404, visible_batteries, visible_sites
 from fleetcare.fleet.models import Battery, BatteryProfile
+from fleetcare.fleet.site_time import site_clock
 
 COLUMNS = (
     ("Serial", "serial"),
@@ -65,4 +66,5 @@ def _sort_links(filters):
 @role_required(CREW)
 def battery_detail(request, pk):
     battery = battery_or_404(request.user, pk)
-    return render(request, "dashboard/battery_detail.html", selectors.battery_record(battery))
+    with site_clock(battery):
+        return render(request, "dashboard/battery_detail.html", selectors.battery_record(battery))

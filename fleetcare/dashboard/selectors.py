@@ -24,6 +24,7 @@ from fleetcare.care.models import Finding
 from fleetcare.care.models import Policy as CarePolicy
 from fleetcare.care.policy import BY_NAME as CARE_THRESHOLDS
 from fleetcare.dashboard import battery_selectors as fleet
+from fleetcare.fleet import site_units
 from fleetcare.fleet.models import Battery, Fitting
 from fleetcare.readings.models import Inspection, WaterTopUp
 
@@ -69,7 +70,7 @@ def overview(batteries, sites, scope=None, now=None):
         "scope": scope,
         "soc_chart": _soc_chart(in_scope, sites if scope is None else [scope]),
         "findings_chart": _findings_chart(scoped, now),
-        "water_chart": _water_chart(scoped, in_scope, now),
+        "water_chart": _water_chart(scoped, in_scope, now, scope or site_units.shared_site(sites, "volume_unit")),
         "deep_discharge_chart": _deep_discharge_chart(scoped, now),
         "spread_chart": _spread_chart(in_scope, now),
     }
@@ -287,10 +288,10 @@ def _outliers(values):
     return [i for i, v in enumerate(values) if (v < low or v > high) and abs(v - median) >= margin]
 
 
-def _water_chart(batteries, rows, now):
+def _water_chart(batteries, rows, now, unit_site=None):
     """Water per cell per month for each waterable battery: a box per month for each battery profile
     (like compared with like), outliers named. A flooded battery in service with no water logged in a
-    month counts as zero (missed watering)."""
+    month counts as zero (missed watering). Amounts are in unit_site's units (mL when the sites shown differ)."""
     edges = _month_starts(now, WATER_MONTHS)
     waterable = [r for r in rows if r["waterable"]]
     if not waterable:
@@ -310,16 +311,16 @@ def _water_chart(batteries, rows, now):
     if len(ranked) > WATER_PROFILES:
         others = [r for _name, members in ranked[WATER_PROFILES - 1 :] for r in members]
         ranked = ranked[: WATER_PROFILES - 1] + [("Other profiles", others)]
-    series = [(name, *_water_boxes(members, by_battery, edges)) for name, members in ranked]
+    series = [(name, *_water_boxes(members, by_battery, edges, unit_site)) for name, members in ranked]
     return charts.box_with_outliers(
         series,
         f"Water added per cell per month, by battery profile<br><sup>last {WATER_MONTHS} complete months · box: middle "
         "half, whiskers: lowest to highest · named: far off its profile at its own site</sup>",
-        "mL per cell",
+        f"{site_units.cell_water_label(unit_site)} per cell" if unit_site else "mL per cell (your sites use different units)",
     )
 
 
-def _water_boxes(members, by_battery, edges):
+def _water_boxes(members, by_battery, edges, unit_site=None):
     """Box values per month for one profile, and the batteries that stand out against the others of
     that profile at their own site (sites charge differently, so their water use differs too)."""
     months = range(len(edges) - 1)
@@ -337,7 +338,8 @@ def _water_boxes(members, by_battery, edges):
             total = totals[i]
             if total is None and not (working and r["in_service_date"] <= month_days[i]):
                 continue
-            value = round(float(total or 0) / r["cells"], 1)
+            ml = float(total or 0) / r["cells"]
+            value = float(site_units.cell_water_shown(ml, unit_site)) if unit_site else round(ml, 1)
             values.append(value)
             per_site[r["site_id"]].append((value, r["serial"]))
         groups.append((month, values))

@@ -1,3 +1,5 @@
+from contextlib import nullcontext
+
 from django.contrib import messages
 from django.http import HttpResponseBadRequest
 from django.shortcuts import redirect, render
@@ -10,13 +12,15 @@ from fleetcare.dashboard import selectors, settings_page
 from fleetcare.dashboard.forms import ChangeSettingForm
 from fleetcare.fleet.access import site_or_404, visible_batteries, visible_sites
 from fleetcare.fleet.models import BatteryProfile
+from fleetcare.fleet.site_time import site_clock
 
 
 @role_required(CREW)
 def home(request):
     scope = site_or_404(request.user, request.GET["site"]) if request.GET.get("site") else None
     sites = list(visible_sites(request.user))
-    return render(request, "dashboard/home.html", selectors.overview(visible_batteries(request.user), sites, scope))
+    with site_clock(scope) if scope else nullcontext():
+        return render(request, "dashboard/home.html", selectors.overview(visible_batteries(request.user), sites, scope))
 
 
 def _profiles(site):

@@ -87,6 +87,13 @@ def to_moment(naive, obj, *, now=None):
     return earlier.astimezone(dt.UTC)  # in UTC: a moment inside the repeated hour never compares equal across zones
 
 
+def planned_moment(naive, obj):
+    """A time the planner chose on the site's clock (naive) as a moment, never refused: a planned time in the
+    skipped hour lands where the clocks do (02:30 on the spring-forward night is 03:30 summer time) and one in
+    the repeated hour is the first of the two."""
+    return naive.replace(tzinfo=zone_of(obj), fold=0).astimezone(dt.UTC)
+
+
 def _wall(aware, zone):
     return aware.astimezone(dt.UTC).astimezone(zone).replace(tzinfo=None)
 

@@ -54,6 +54,13 @@ def temp_typed_to_c(value, obj):
     return Decimal(str(value))
 
 
+def per_degree_shown(value_per_c, obj):
+    """A rate per °C (an SG correction coefficient) as written per degree of the site's unit: '0.00039/°F'."""
+    if uses_fahrenheit(obj):
+        return f"{Decimal(str(value_per_c)) / Decimal('1.8'):.5f}/°F"
+    return f"{value_per_c}/°C"
+
+
 def volume_label(obj):
     """The site's water unit as written beside an amount: 'L' or 'US fl oz'."""
     return "US fl oz" if uses_us_fl_oz(obj) else "L"
@@ -81,3 +88,26 @@ def volume_typed_to_ml(value, obj):
     if uses_us_fl_oz(obj):
         return Decimal(str(chemistry.us_fl_oz_to_litres(float(value)) * 1000))
     return Decimal(str(value)) * 1000
+
+
+def shared_site(sites, unit_field):
+    """One of `sites` to take a unit from when they all use the same `unit_field` ('temp_unit' or
+    'volume_unit'), for a chart that mixes them; None when they differ (or there are none)."""
+    sites = list(sites)
+    if sites and len({getattr(s, unit_field) for s in sites}) == 1:
+        return sites[0]
+    return None
+
+
+def cell_water_label(obj):
+    """The unit of the small amounts a single cell takes (charts and tables per cell): 'mL' or 'US fl oz'."""
+    return "US fl oz" if uses_us_fl_oz(obj) else "mL"
+
+
+def cell_water_shown(ml, obj):
+    """A per-cell amount in mL as shown per cell: whole mL, or US fl oz to 0.1 (Decimal); None stays None."""
+    if ml is None:
+        return None
+    if uses_us_fl_oz(obj):
+        return Decimal(str(chemistry.litres_to_us_fl_oz(float(ml) / 1000.0))).quantize(Decimal("0.1"))
+    return Decimal(str(float(ml))).quantize(Decimal("1"))

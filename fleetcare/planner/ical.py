@@ -1,7 +1,7 @@
 """The site's plan as an iCalendar file (RFC 5545): UTC times, escaped text, lines folded at 75 octets, CRLF."""
 import datetime as dt
 
-from django.utils import timezone
+from fleetcare.fleet import site_time
 
 PRODID = "-//FleetCare//Equalizing and watering plan//EN"
 TITLES = {"equalize": "Equalizing charge", "water": "Water"}
@@ -32,14 +32,20 @@ def utc(value):
     return value.astimezone(dt.UTC).strftime("%Y%m%dT%H%M%SZ")
 
 
+def _site_clock_note(start, end, site):
+    """The times as the site's clocks show them, for a reader whose calendar is set to another zone."""
+    start, end = site_time.local(start, site), site_time.local(end, site)
+    return f"Site time {start:%a %d %b %H:%M}–{end:%H:%M} {end:%Z} ({site_time.zone_of(site).key}). "
+
+
 def calendar(site, plan, serials, built_at, host="fleetcare"):
     """The .ics text for a plan whose tasks carry naive site-local times."""
     lines = ["BEGIN:VCALENDAR", "VERSION:2.0", f"PRODID:{PRODID}", "CALSCALE:GREGORIAN", "METHOD:PUBLISH",
-             f"X-WR-CALNAME:{escape('FleetCare plan: ' + site.name)}"]
+             f"X-WR-CALNAME:{escape('FleetCare plan: ' + site.name)}", f"X-WR-TIMEZONE:{site_time.zone_of(site).key}"]
     stamp = utc(built_at)
     for task in plan.tasks:
-        start = timezone.make_aware(task.start, site.tzinfo)
-        end = timezone.make_aware(task.end, site.tzinfo)
+        start = site_time.planned_moment(task.start, site)
+        end = site_time.planned_moment(task.end, site)
         serial = serials.get(task.battery_id, task.serial)
         summary = f"{TITLES.get(task.kind, task.kind)}: {serial}"
         if task.days_overdue:
@@ -51,7 +57,7 @@ def calendar(site, plan, serials, built_at, host="fleetcare"):
             f"DTSTART:{utc(start)}",
             f"DTEND:{utc(end)}",
             f"SUMMARY:{escape(summary)}",
-            f"DESCRIPTION:{escape(task.reason)}",
+            f"DESCRIPTION:{escape(_site_clock_note(start, end, site) + task.reason)}",
             "TRANSP:TRANSPARENT",
             "END:VEVENT",
         ]

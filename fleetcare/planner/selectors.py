@@ -8,6 +8,7 @@ from django.db.models import Q
 from django.urls import reverse
 from django.utils import timezone
 
+from fleetcare.fleet import site_units
 from fleetcare.fleet.access import visible_sites
 from fleetcare.fleet.models import Battery, Site
 from fleetcare.planner import solver
@@ -175,7 +176,8 @@ def _done_today(site_ids, day_starts, earliest):
         if t.done_at < day_starts[t.battery.site_id]:
             continue
         done[t.battery.site_id].append(DoneItem(WATER, t.battery, t.done_at, _name(t.done_by),
-                                                reverse("fleet:battery", args=[t.battery_id]), t.volume_entered))
+                                                reverse("fleet:battery", args=[t.battery_id]),
+                                                f"{site_units.volume_shown(t.volume_ml, t.battery)} {site_units.volume_label(t.battery)}"))
         done_keys.add((t.battery_id, WATER))
     running = defaultdict(list)
     for c in EqualizingCharge.objects.filter(

@@ -26,6 +26,7 @@ from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
 from fleetcare import chemistry
+from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Site
 from fleetcare.readings import signals
 from fleetcare.readings.forms import SG_HIGH, SG_LOW, TEMP_HIGH_C, TEMP_LOW_C
@@ -837,24 +838,32 @@ def _insert_cells(inspections_and_readings):
 def write_battery_readings(out, battery):
     """Every current cell reading of a battery, oldest first, in the import format plus computed columns."""
     writer = CsvWriter(out)
-    writer.writerow(EXPORT_COLUMNS)
+    writer.writerow(export_header(battery))
     cells = (
         CellReading.objects.filter(inspection__in=Inspection.objects.current().filter(battery=battery))
         .select_related("inspection")
         .order_by("inspection__taken_at", "inspection_id", "position")
     )
-    tz = battery.site.tzinfo
     for cell in cells.iterator(chunk_size=2000):
         inspection = cell.inspection
+        temp_c = cell.temp_c if cell.temp_c is not None else inspection.temp_c
         writer.writerow([
             battery.serial,
-            inspection.taken_at.astimezone(tz).isoformat(timespec="minutes"),
+            site_time.local(inspection.taken_at, battery).isoformat(timespec="minutes"),
             inspection.situation,
             cell.position,
             cell.sg if cell.sg is not None else "",
-            cell.temp_c if cell.temp_c is not None else (inspection.temp_c if inspection.temp_c is not None else ""),
+            site_units.temp_shown(temp_c, battery) if temp_c is not None else "",
             cell.volts if cell.volts is not None else "",
             cell.level,
             cell.sg_corrected if cell.sg_corrected is not None else "",
             inspection.soc_percent if inspection.soc_percent is not None else "",
         ])
+
+
+def export_header(battery):
+    """The import's columns with the temperature's unit in its name (temp_c or temp_f, the site's unit, which
+    the import reads back), then the computed columns. taken_at carries the site's offset."""
+    temp = f"temp_{site_units.temp_unit_code(battery).lower()}"
+    return [temp if name == "temp" else name for name in EXPORT_COLUMNS]
+

@@ -4,7 +4,7 @@ from decimal import Decimal
 
 from django import forms
 from fleetcare import chemistry
-from fleetcare.fleet import site_time
+from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Battery, Site
 from fleetcare.fleet.site_time import SiteDateTimeField
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
@@ -16,15 +16,11 @@ TEMP_LOW_C, TEMP_HIGH_C = Decimal("-30"), Decimal("70")
 
 
 def to_celsius(value, site):
-    if value is None:
-        return None
-    if site.temp_unit == Site.TempUnit.FAHRENHEIT:
-        return Decimal(str(round(chemistry.f_to_c(float(value)), 1)))
-    return value
+    return site_units.temp_typed_to_c(value, site)
 
 
 def temp_label(site):
-    return "°F" if site.temp_unit == Site.TempUnit.FAHRENHEIT else "°C"
+    return site_units.temp_label(site)
 
 
 def check_temp_c(temp_c, site):
@@ -211,7 +207,7 @@ class TopUpForm(forms.Form):
         initial.setdefault("done_at", site_time.now_at(battery))
         super().__init__(*args, **kwargs)
         self.fields["done_at"].zone = battery
-        unit = "US fl oz" if self.site.volume_unit == Site.VolumeUnit.US_FL_OZ else "litres"
+        unit = "US fl oz" if site_units.uses_us_fl_oz(self.site) else "litres"
         self.fields["volume"].label = f"Water added ({unit})"
 
     def clean(self):
@@ -223,12 +219,8 @@ class TopUpForm(forms.Form):
         volume = data.get("volume")
         if volume is None:
             return data
-        if self.site.volume_unit == Site.VolumeUnit.US_FL_OZ:
-            ml = Decimal(str(chemistry.us_fl_oz_to_litres(float(volume)) * 1000))
-            unit = "US fl oz"
-        else:
-            ml = volume * 1000
-            unit = "L"
+        ml = site_units.volume_typed_to_ml(volume, self.site)
+        unit = site_units.volume_label(self.site)
         cells = self.battery.profile.cell_count
         whole_ml = ml * cells if data.get("per_cell") else ml
         if whole_ml / cells > self.MAX_ML_PER_CELL:

@@ -1,5 +1,3 @@
-from decimal import Decimal
-
 from django.contrib import messages
 from django.db.models import Q
 from django.conf import settings
@@ -9,13 +7,11 @@ from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_http_methods
 
-from fleetcare import chemistry
 from fleetcare.accounts.access import role_required
 from fleetcare.accounts.forms import ReasonForm
 from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
-from fleetcare.fleet import site_time
+from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.access import battery_or_404, visible_batteries
-from fleetcare.fleet.models import Site
 from fleetcare.fleet.site_time import site_clock
 from fleetcare.readings import csv_io, selectors, services
 from fleetcare.readings.access import csv_import_or_404, inspection_or_404, top_up_or_404
@@ -82,10 +78,7 @@ def inspection_detail(request, pk):
 
 def stored_values(inspection):
     """The form's initial values from a stored inspection, in the site's units."""
-    site = inspection.battery.site
-    temp = inspection.temp_c
-    if temp is not None and site.temp_unit == Site.TempUnit.FAHRENHEIT:
-        temp = Decimal(str(round(chemistry.c_to_f(float(temp)), 1)))
+    temp = site_units.temp_shown(inspection.temp_c, inspection)
     initial = {
         "situation": inspection.situation, "scope": inspection.scope,
         "taken_at": inspection.taken_at.replace(second=0, microsecond=0), "temp": temp,

@@ -6,6 +6,7 @@ from django.utils import timezone
 
 from fleetcare.accounts.roles import SUPERVISOR, has_role
 from fleetcare.care import selectors
+from fleetcare.fleet import site_time, site_units
 
 register = template.Library()
 
@@ -15,7 +16,7 @@ LABELS = {
     "short_points": "points short", "soc_percent": "state of charge %", "last_charge_at": "last charge logged",
     "in_service_date": "in service since", "days_without_charge": "days without a charge", "vehicle": "truck or chair",
     "shift": "shift", "reported_at": "reported", "level": "level", "position": "cell", "last_top_up_at": "last top-up",
-    "days_since": "days since", "done_at": "done", "volume_ml": "mL (whole battery)", "before_charge": "before charge",
+    "days_since": "days since", "done_at": "done", "before_charge": "before charge",
     "hours_since_charge": "hours after charge", "gap_v": "gap (V)", "not_rested": "not used",
     "years_in_service": "years in service", "cycles_logged": "charges logged", "cycles_estimated": "cycles estimated",
     "charges_per_day": "site charges per day",
@@ -23,13 +24,15 @@ LABELS = {
 SKIP = {"inspection_id"}
 
 
-def _show(value):
+def _show(value, battery):
     if isinstance(value, str) and len(value) >= 19 and value[4] == "-" and "T" in value:
         try:
-            moment = timezone.localtime(datetime.fromisoformat(value))
+            moment = datetime.fromisoformat(value)
         except ValueError:
             return value
-        return moment.strftime("%d %b %Y %H:%M")
+        if timezone.is_naive(moment):
+            return moment.strftime("%d %b %Y %H:%M")
+        return site_time.local(moment, battery).strftime("%d %b %Y %H:%M %Z")
     if value is None:
         return "–"
     if value is True:
@@ -40,8 +43,8 @@ def _show(value):
 
 
 @register.filter
-def reading_lines(reading):
-    """One evidence reading as (label, text) pairs in plain words."""
+def reading_lines(reading, battery):
+    """One evidence reading as (label, text) pairs in plain words, times and amounts as the battery's site reads them."""
     lines = []
     for key, value in reading.items():
         if key in SKIP:
@@ -52,8 +55,13 @@ def reading_lines(reading):
                               f"points below the other cells' mean, {cell['below_highest_points']} below the highest"))
         elif key == "blocks":
             lines.append(("blocks", ", ".join(f"block {p}: {v:.2f} V" for p, v in value.items())))
+        elif key == "volume_ml":
+            amount = site_units.volume_shown(value, battery)
+            lines.append(("water added (whole battery)", f"{amount} {site_units.volume_label(battery)}"))
+        elif key in ("temp_c", "temperature_c"):
+            lines.append(("temperature", f"{site_units.temp_shown(value, battery)} {site_units.temp_label(battery)}"))
         else:
-            lines.append((LABELS.get(key, key.replace("_", " ")), _show(value)))
+            lines.append((LABELS.get(key, key.replace("_", " ")), _show(value, battery)))
     return lines
 
 

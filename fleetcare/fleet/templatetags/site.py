@@ -1,13 +1,16 @@
 """Times, temperatures and water amounts in a template, each in the site of the object it belongs to.
 
 {% load site %}
-{{ inspection.taken_at|site_time:inspection|date:"j M Y H:i T" }}   the site's clock, with its zone's abbreviation
+{{ inspection.taken_at|site_time:inspection|date:"j M Y H:i" }}     the site's clock
+{% site_when inspection.taken_at battery "j M Y H:i" %}             the same, then the zone: '1 Nov 2026 01:30 CST'
 {{ inspection.temp_c|site_temp:battery }}                          '77.0 °F' or '25.0 °C' ('–' when unknown)
 {{ top_up.volume_ml|site_volume:battery }}                         '12.3 US fl oz' or '0.36 L'
 {% temp_unit battery %} {% volume_unit battery %}                  the unit alone, for column headings
 """
+import datetime as dt
+
 from django import template
-from django.templatetags.tz import do_timezone
+from django.utils import dateformat
 
 from fleetcare.fleet import site_time as clock
 from fleetcare.fleet import site_units
@@ -18,10 +21,27 @@ register = template.Library()
 @register.filter("site_time")
 def site_time_filter(moment, obj):
     """A stored moment on the clock of `obj`'s site; the date filter after it keeps that zone."""
-    if moment in (None, ""):
+    if not isinstance(moment, dt.datetime):
         return moment
-    return do_timezone(moment, clock.zone_of(obj))
+    local = clock.local(moment, obj)
+    # Django's own |timezone filter drops `fold`, so 01:30 CST in the repeated hour would print as CDT.
+    return _SiteMoment(local.year, local.month, local.day, local.hour, local.minute, local.second,
+                       local.microsecond, local.tzinfo, fold=local.fold)
 
+
+class _SiteMoment(dt.datetime):
+    convert_to_local_time = False  # already on the site's clock: the date filter must not move it
+
+
+
+@register.simple_tag
+def site_when(moment, obj, fmt="j M Y H:i"):
+    """The moment on the site's clock in a date-filter format, then the zone's abbreviation: '1 Nov 2026 01:30 CST'.
+    (Django's own "T" leaves the abbreviation blank inside the repeated hour, the one time it matters most.)"""
+    if not isinstance(moment, dt.datetime):
+        return ""
+    local = clock.local(moment, obj)
+    return f"{dateformat.format(local, fmt)} {local.tzname()}"
 
 
 @register.filter
@@ -38,6 +58,11 @@ def site_temp_value(temp_c, obj):
 
 
 @register.filter
+def site_per_degree(value_per_c, obj):
+    return site_units.per_degree_shown(value_per_c, obj)
+
+
+@register.filter
 def site_volume(ml, obj):
     value = site_units.volume_shown(ml, obj) if ml not in (None, "") else None
     return "–" if value is None else f"{value} {site_units.volume_label(obj)}"
@@ -47,6 +72,18 @@ def site_volume(ml, obj):
 def site_volume_value(ml, obj):
     value = site_units.volume_shown(ml, obj) if ml not in (None, "") else None
     return "–" if value is None else str(value)
+
+
+@register.filter
+def site_cell_water_value(ml, obj):
+    """A per-cell amount, number alone (mL or US fl oz), for a column whose heading carries the unit."""
+    value = site_units.cell_water_shown(ml, obj) if ml not in (None, "") else None
+    return "–" if value is None else str(value)
+
+
+@register.simple_tag
+def cell_water_unit(obj):
+    return site_units.cell_water_label(obj)
 
 
 @register.simple_tag
