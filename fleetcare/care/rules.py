@@ -8,6 +8,7 @@ from datetime import datetime, timedelta
 
 from fleetcare import chemistry
 from fleetcare.care import wording
+from fleetcare.fleet import site_units
 from fleetcare.readings.services import is_rested
 
 DAYS_PER_MONTH = 30
@@ -450,6 +451,11 @@ def water_use(data):
     }
 
 
+def _cell_water(ml, battery):
+    """A per-cell amount as the battery's site reads it: '1285 mL' or '43.5 US fl oz'."""
+    return f"{site_units.cell_water_shown(ml, battery)} {site_units.cell_water_label(battery)}"
+
+
 def high_water_use(data):
     if not data.profile.watering_allowed:
         return None
@@ -461,8 +467,8 @@ def high_water_use(data):
     per_charge_ah = use["overcharge_ah_month"] / use["charges_month"]
     return Detected(
         kind="high_water_use", severity=2,
-        summary=(f"Uses {use['ml_per_cell_month']:.0f} mL of water per cell per month (band up to "
-                 f"{use['band_ml_per_cell_month']:.0f}): about {use['overcharge_ah_month']:.0f} Ah of overcharge a month, "
+        summary=(f"Uses {_cell_water(use['ml_per_cell_month'], data.battery)} of water per cell per month (band up to "
+                 f"{_cell_water(use['band_ml_per_cell_month'], data.battery)}): about {use['overcharge_ah_month']:.0f} Ah of overcharge a month, "
                  f"{per_charge_ah:.0f} Ah ({use['overcharge_pct_per_charge']:.0f} % of rating) per charge"),
         rule=("Water lost per cell is water split by overcharge (Faraday's law: about "
               f"{use['grams_per_ah']:.3f} g per Ah). Water use above the band means the battery is overcharged: "

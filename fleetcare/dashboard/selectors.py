@@ -24,7 +24,7 @@ from fleetcare.care.models import Finding
 from fleetcare.care.models import Policy as CarePolicy
 from fleetcare.care.policy import BY_NAME as CARE_THRESHOLDS
 from fleetcare.dashboard import battery_selectors as fleet
-from fleetcare.fleet import site_units
+from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Battery, Fitting
 from fleetcare.readings.models import Inspection, WaterTopUp
 
@@ -72,7 +72,7 @@ def overview(batteries, sites, scope=None, now=None):
         "findings_chart": _findings_chart(scoped, now),
         "water_chart": _water_chart(scoped, in_scope, now, scope or site_units.shared_site(sites, "volume_unit")),
         "deep_discharge_chart": _deep_discharge_chart(scoped, now),
-        "spread_chart": _spread_chart(in_scope, now),
+        "spread_chart": _spread_chart(in_scope, now, {s.pk: s for s in sites}),
     }
 
 
@@ -447,8 +447,9 @@ def _deep_discharge_chart(batteries, now):
     )
 
 
-def _spread_chart(rows, now):
-    """Post-charge corrected-SG spread over time for the batteries whose latest spread is widest."""
+def _spread_chart(rows, now, sites):
+    """Post-charge corrected-SG spread over time for the batteries whose latest spread is widest, each reading
+    at its own site's time (sites: {pk: site})."""
     worst = sorted(
         (r for r in rows if r["latest_post_charge_spread"] is not None),
         key=lambda r: (-r["latest_post_charge_spread"], r["serial"]),
@@ -456,6 +457,7 @@ def _spread_chart(rows, now):
     if not worst:
         return None
     serial = {r["pk"]: r["serial"] for r in worst}
+    site_of = {r["pk"]: sites[r["site_id"]] for r in worst}
     readings = (
         Inspection.objects.current()
         .post_charge()
@@ -470,13 +472,14 @@ def _spread_chart(rows, now):
     )
     series = defaultdict(lambda: ([], []))
     for battery_id, taken_at, spread in readings:
-        series[battery_id][0].append(taken_at.isoformat())
+        series[battery_id][0].append(site_time.local(taken_at, site_of[battery_id]).replace(tzinfo=None).isoformat())
         series[battery_id][1].append(round(float(spread) * 1000))
     fig = charts.line(
         [(serial[pk], *series[pk]) for pk in serial if pk in series],
         f"Spread after charge: the {len(worst)} widest"
         f"<br><sup>corrected SG, all-cell readings, last {SPREAD_WEEKS} weeks</sup>",
         "Spread (points of SG)",
+        x_title="Each battery's site time",
         height=360,
     )
     guide = round(float(EQUALIZE_SPREAD_SG) * 1000)

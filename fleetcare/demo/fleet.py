@@ -15,6 +15,7 @@ from django.utils import timezone
 
 from fleetcare import chemistry
 from fleetcare.accounts.roles import ADMINISTRATOR, CREW, MANAGER, SUPERVISOR, ensure_groups
+from fleetcare.fleet import site_units
 from fleetcare.fleet.models import Battery, BatteryProfile, ChargingRoom, Fitting, ShiftWindow, Site, Vehicle
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 from fleetcare.readings.services import CellEntry, build_cells, summarise
@@ -228,7 +229,8 @@ def _flooded_history(rng, today, crew, b, inspections, cells_per, top_ups):
             ml_per_cell = chemistry.electrolysis_water_g(overcharge_ah) * rng.uniform(0.85, 1.15)
             ml = Decimal(str(round(ml_per_cell * n, -1)))
             top_ups.append(WaterTopUp(battery=b, done_by=crew, done_at=_at(b, day, 7, 30), volume_ml=ml,
-                                      volume_entered=f"{ml / 1000} L", water_type=WaterTopUp.WaterType.DEIONISED))
+                                      volume_entered=f"{site_units.volume_shown(ml, b)} {site_units.volume_label(b)}",
+                                      water_type=WaterTopUp.WaterType.DEIONISED))
         day += timedelta(days=1)
 
 

@@ -66,7 +66,8 @@ def plan(request, code):
     view = selectors.week_view(site, week)
     settings = services.site_settings(site)
     feed_url = request.build_absolute_uri(reverse("planner:feed", args=[settings.feed_token]))
-    return render(request, "planner/week.html", {**view, "feed_url": feed_url})
+    with site_clock(site):
+        return render(request, "planner/week.html", {**view, "feed_url": feed_url})
 
 
 @role_required(SUPERVISOR)

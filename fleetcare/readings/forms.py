@@ -84,6 +84,7 @@ class InspectionForm(forms.Form):
         initial.setdefault("taken_at", site_time.now_at(battery))
         super().__init__(*args, **kwargs)
         self.fields["taken_at"].zone = battery
+        self.fields["taken_at"].help_text = f"{self.site.name} time ({site_time.zone_of(battery).key})"
         self.fields["temp"].label = f"Electrolyte temperature ({temp_label(self.site)})"
         self.fields["temp"].widget.attrs["autofocus"] = True
         if not self.profile.is_flooded:
@@ -207,6 +208,7 @@ class TopUpForm(forms.Form):
         initial.setdefault("done_at", site_time.now_at(battery))
         super().__init__(*args, **kwargs)
         self.fields["done_at"].zone = battery
+        self.fields["done_at"].help_text = f"{self.site.name} time ({site_time.zone_of(battery).key})"
         unit = "US fl oz" if site_units.uses_us_fl_oz(self.site) else "litres"
         self.fields["volume"].label = f"Water added ({unit})"
 

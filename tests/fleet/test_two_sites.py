@@ -178,3 +178,26 @@ def test_a_celsius_site_keeps_celsius_and_litres(both, battery):
 def test_the_overview_of_sites_with_different_units_says_so(both):
     overview = both.get(reverse("dashboard:home"))
     assert overview.context["water_chart"]["layout"]["yaxis"]["title"]["text"] == "mL per cell (your sites use different units)"
+
+
+def test_findings_from_two_sites_each_show_their_own_clock(both, battery, chicago_battery):
+    from fleetcare.care.models import Finding
+
+    moment = dt.datetime(2026, 7, 1, 12, 0, tzinfo=UTC)
+    for b in (battery, chicago_battery):
+        Finding.objects.create(battery=b, kind="low_level", severity=2, opened_at=moment, last_seen_at=moment,
+                               summary="test low level")
+    page = text(both.get(reverse("care:findings")))
+    assert "opened 1 Jul 2026 13:00 BST" in page and "opened 1 Jul 2026 07:00 CDT" in page
+
+
+def test_the_equalizing_screen_shows_fahrenheit_at_a_fahrenheit_site(both, chicago_battery):
+    from fleetcare.planner.models import EqualizingCharge, EqualizingReading
+
+    user = chicago_battery.site.members.get()
+    charge = EqualizingCharge.objects.create(battery=chicago_battery, by=user, started_at=timezone.now() - dt.timedelta(hours=1))
+    EqualizingReading.objects.create(charge=charge, taken_at=timezone.now(), sg=Decimal("1.280"), temp_c=Decimal("30.0"),
+                                     sg_corrected=Decimal("1.284"), basis="pilot")
+    page = text(both.get(reverse("planner:equalizing", args=[chicago_battery.pk])))
+    assert '<th scope="col">°F</th>' in page and "<td>86.0</td>" in page  # 30 °C = 86 °F
+    assert "Electrolyte temperature (°F)" in page

@@ -81,6 +81,14 @@ def site_cell_water_value(ml, obj):
     return "–" if value is None else str(value)
 
 
+@register.filter
+def entered_otherwise(volume_entered, obj):
+    """What the crew typed, when it says more than the amount in the site's unit does (per cell, another unit)."""
+    if not volume_entered or volume_entered.endswith(site_units.volume_label(obj)):
+        return ""
+    return volume_entered
+
+
 @register.simple_tag
 def cell_water_unit(obj):
     return site_units.cell_water_label(obj)
