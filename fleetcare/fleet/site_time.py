@@ -8,8 +8,8 @@ Typed local times (no offset) become moments with `to_moment(naive, obj)`:
 - a time the clocks skipped (spring forward) is refused with `NonexistentLocalTime`, a message for the
   person, never guessed;
 - a time the clocks showed twice (fall back) is the later of the two moments if that moment has already
-  passed, else the earlier one: someone typing the time on their clock during or soon after the repeated
-  hour means the recent one, and neither choice is ever in the future when the other is not.
+  passed, else the earlier one: someone typing the time on their clock during or after the repeated hour
+  means the recent one, and a repeated time is never put in the future while one of its moments has passed.
 """
 import datetime as dt
 import zoneinfo
