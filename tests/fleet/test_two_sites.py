@@ -160,9 +160,24 @@ def test_a_fahrenheit_site_reads_in_fahrenheit_and_fluid_ounces_everywhere(both,
 
     export = text(both.get(reverse("readings:export_csv", args=[chicago_battery.pk]))).splitlines()
     header = export[0].split(",")
-    assert header[-1] == "temp_unit"
+    assert header == ["serial", "taken_at", "situation", "cell", "sg", "temp_f", "volts", "level", "sg_corrected",
+                      "inspection_soc_percent"]  # the unit is in the header, as the import reads it back
     first = dict(zip(header, export[1].split(",")))
-    assert first["temp"] == "77.0" and first["temp_unit"] == "F"
+    assert first["temp_f"] == "77.0"
+
+
+def test_a_fahrenheit_export_imports_back_as_the_same_readings(both, chicago_battery):
+    from fleetcare.readings.csv_io import import_readings
+
+    assert post_reading(both, chicago_battery, "2026-01-12T01:55", temp="77").status_code == 302
+    exported = text(both.get(reverse("readings:export_csv", args=[chicago_battery.pk])))
+    Inspection.objects.all().delete()
+    user = chicago_battery.site.members.get()
+    report = import_readings(exported, user=user, batteries=Battery.objects.all())
+    assert report.ok
+    again = Inspection.objects.get()
+    assert again.taken_at == dt.datetime(2026, 1, 12, 7, 55, tzinfo=UTC)
+    assert again.temp_c == Decimal("25.0")
 
 
 def test_a_celsius_site_keeps_celsius_and_litres(both, battery):
@@ -171,7 +186,7 @@ def test_a_celsius_site_keeps_celsius_and_litres(both, battery):
     assert "25.0 °C" in text(both.get(reverse("readings:inspection", args=[inspection.pk])))
     export = text(both.get(reverse("readings:export_csv", args=[battery.pk]))).splitlines()
     first = dict(zip(export[0].split(","), export[1].split(",")))
-    assert first["temp"] == "25.0" and first["temp_unit"] == "C"
+    assert first["temp_c"] == "25.0"
     assert first["taken_at"] == "2026-01-12T01:55+00:00"
 
 

@@ -106,7 +106,7 @@ def test_the_command_imports_and_refuses_bad_files(battery, crew, tmp_path):
 def test_the_export_reimports_to_the_same_readings(crew_client, battery, crew):
     run(HEADER + inspection_rows(temp="31"), crew)
     exported = crew_client.get(reverse("readings:export_csv", args=[battery.pk])).content.decode()
-    assert exported.splitlines()[0] == "serial,taken_at,situation,cell,sg,temp,volts,level,sg_corrected,inspection_soc_percent,temp_unit"
+    assert exported.splitlines()[0] == "serial,taken_at,situation,cell,sg,temp_c,volts,level,sg_corrected,inspection_soc_percent"
     Inspection.objects.all().delete()
     report = run(exported, crew)
     assert report.ok
