@@ -8,6 +8,8 @@ from ninja import Field, Schema
 Situation = Literal["charged", "equalized", "rested", "in_use", "before_charge"]
 Scope = Literal["all", "pilot"]
 WaterType = Literal["distilled", "deionised", "other"]
+ChosenOnTablet = Literal["scan", "search", "today", "page"]
+ChosenVia = Literal["scan", "search", "today", "page", "api", "import", "unknown"]
 
 
 class ErrorOut(Schema):
@@ -89,6 +91,10 @@ class InspectionIn(Schema):
     hours_since_charge: Optional[Union[str, float]] = None
     notes: str = Field("", max_length=4000)
     cells: list[CellIn] = Field(default_factory=list, max_length=80)
+    chosen_via: Optional[ChosenOnTablet] = Field(
+        None, description="FleetCare's own tablet says how its user picked the battery (a scanned label, a search, "
+                          "today's work, the battery's page). Other programs leave it out: their readings are "
+                          "recorded as sent by another program (api).")
 
 
 class CellOut(Schema):
@@ -120,6 +126,7 @@ class InspectionOut(Schema):
     volts_total: Optional[float]
     soc_percent: Optional[float]
     soc_basis: Literal["sg", "ocv", ""]
+    chosen_via: ChosenVia
     is_current: bool
     recorded_at: dt.datetime
     cells: list[CellOut]

@@ -93,6 +93,7 @@ def inspection_row(inspection):
         "volts_total": _float(inspection.volts_total),
         "soc_percent": _float(inspection.soc_percent),
         "soc_basis": inspection.soc_basis,
+        "chosen_via": inspection.chosen_via,
         "is_current": inspection.is_current and inspection.deleted_at is None,
         "recorded_at": inspection.recorded_at,
         "cells": [

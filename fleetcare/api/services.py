@@ -90,7 +90,8 @@ def submit_inspection(*, user, battery, payload):
         errors = {name: list(messages) for name, messages in form.errors.items()}
         errors.update(extra_errors)
         return _rejected(422, NOT_SAVED, errors)
-    inspection, _ = record_inspection(battery=battery, user=user, **form.record_kwargs())
+    chosen_via = payload.chosen_via or Inspection.ChosenVia.API
+    inspection, _ = record_inspection(battery=battery, user=user, chosen_via=chosen_via, **form.record_kwargs())
     if inspection.battery_id != battery.pk:
         return _replay_or_conflict(inspection, battery, "reading")
     return 201, selectors.inspection_row(selectors.stored_inspection(inspection.pk))

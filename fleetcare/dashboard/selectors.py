@@ -26,6 +26,7 @@ from fleetcare.care.policy import BY_NAME as CARE_THRESHOLDS
 from fleetcare.dashboard import battery_selectors as fleet
 from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Battery, Fitting
+from fleetcare.readings import selectors as reading_selectors
 from fleetcare.readings.models import Inspection, WaterTopUp
 
 
@@ -73,6 +74,9 @@ def overview(batteries, sites, scope=None, now=None):
         "water_chart": _water_chart(scoped, in_scope, now, scope or site_units.shared_site(sites, "volume_unit")),
         "deep_discharge_chart": _deep_discharge_chart(scoped, now),
         "spread_chart": _spread_chart(in_scope, now, {s.pk: s for s in sites}),
+        "chosen_via": reading_selectors.chosen_via_by_site(sites, now),
+        "chosen_via_days": reading_selectors.CHOSEN_VIA_DAYS,
+        "chosen_via_others": [label for _, label in reading_selectors.OTHER_WAYS],
     }
 
 

@@ -79,8 +79,8 @@ class TodayTask:
         if self.kind == WATER:
             return reverse("readings:top_up", args=[pk])
         if self.kind == PILOT:
-            return reverse("readings:inspect", args=[pk]) + "?scope=pilot"
-        return reverse("readings:inspect", args=[pk]) + "?scope=all"
+            return reverse("readings:inspect", args=[pk]) + "?scope=pilot&via=today"
+        return reverse("readings:inspect", args=[pk]) + "?scope=all&via=today"
 
     def sort_key(self):
         return (-self.days_overdue, -self.severity, self.start or dt.datetime.max.replace(tzinfo=dt.UTC),

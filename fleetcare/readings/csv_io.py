@@ -662,7 +662,7 @@ def store_readings(readings, user):
         fields = dict(
             battery=reading.battery, taken_at=reading.taken_at, situation=reading.situation, scope=reading.scope,
             temp_c=reading.temp_c, hours_since_charge=reading.hours_since_charge, client_uuid=reading.client_uuid,
-            notes="Imported from CSV",
+            notes="Imported from CSV", chosen_via=Inspection.ChosenVia.IMPORT,
         )
         # On PostgreSQL the row goes out through COPY, so a plain record is enough (a model instance costs more).
         inspection = _PendingInspection(battery_id=reading.battery.pk, taken_by_id=user.pk, **fields) if postgres \

@@ -34,6 +34,20 @@ class Inspection(models.Model):
         ALL_CELLS = "all", "All cells"
         PILOT = "pilot", "Pilot cell"
 
+    class ChosenVia(models.TextChoices):
+        """How the person found the battery before taking the reading: a scanned label is the surest way."""
+
+        SCAN = "scan", "Label scanned"
+        SEARCH = "search", "Found by serial or truck search"
+        TODAY = "today", "From today's work"
+        PAGE = "page", "From the battery list or page"
+        API = "api", "Sent by another program"
+        IMPORT = "import", "CSV import"
+        UNKNOWN = "unknown", "Not recorded"
+
+    # What a tablet screen may claim (it arrives as `via` with the entry screen's address).
+    CHOSEN_ON_TABLET = (ChosenVia.SCAN, ChosenVia.SEARCH, ChosenVia.TODAY, ChosenVia.PAGE)
+
     POST_CHARGE = (Situation.JUST_CHARGED, Situation.JUST_EQUALIZED)
 
     battery = models.ForeignKey(Battery, on_delete=models.PROTECT, related_name="inspections")
@@ -48,6 +62,10 @@ class Inspection(models.Model):
     hours_since_charge = models.DecimalField(max_digits=6, decimal_places=1, null=True, blank=True)
     notes = models.TextField(blank=True)
     client_uuid = models.UUIDField(default=uuid.uuid4, unique=True, help_text="Set by the tablet; a resend stores nothing new.")
+    chosen_via = models.CharField(
+        "battery chosen by", max_length=8, choices=ChosenVia.choices, default=ChosenVia.UNKNOWN,
+        help_text="How the battery was picked before the reading: a scanned label, a search, today's work, ...",
+    )
 
     # Summary computed by fleetcare.chemistry when the inspection is saved.
     sg_mean = models.DecimalField(max_digits=5, decimal_places=3, null=True, blank=True)
@@ -99,6 +117,11 @@ class Inspection(models.Model):
     @property
     def is_post_charge(self):
         return self.situation in self.POST_CHARGE
+
+    @classmethod
+    def chosen_on_tablet(cls, value):
+        """The tablet's `via` value if it is one a tablet may claim, else "not recorded"."""
+        return value if value in cls.CHOSEN_ON_TABLET else cls.ChosenVia.UNKNOWN
 
 
 class CellReading(models.Model):

@@ -1,7 +1,18 @@
 """Reads that feed the reading pages, each in a fixed number of queries."""
+import datetime as dt
+from collections import Counter
+
+from django.db.models import Count
+from django.utils import timezone
+
 from fleetcare.readings.models import CsvImport, Inspection
 
 RECENT_IMPORTS = 10
+
+# How far back the overview counts how batteries were picked: long enough for a site's habit to show,
+# short enough that a change of habit shows within weeks (our own choice, not a published figure).
+CHOSEN_VIA_DAYS = 30
+OTHER_WAYS = [(value, label) for value, label in Inspection.ChosenVia.choices if value != Inspection.ChosenVia.SCAN]
 
 
 def tray_columns(positions):
@@ -56,3 +67,32 @@ def import_page(job):
         "checks_cut": result.get("check_count", 0) > len(result.get("checks", [])),
         "already_cut": result.get("inspections_already_stored", 0) > len(result.get("already", [])),
     }
+
+
+def chosen_via_by_site(sites, now=None, days=CHOSEN_VIA_DAYS):
+    """Per site, the current readings of the last `days` days counted by how their battery was picked: one query.
+
+    Returns one dict per site (in the order given): site, total, by_scan, scan_share (0-1, None without
+    readings), scan_percent (whole percent) and others (counts in the order of OTHER_WAYS)."""
+    now = now or timezone.now()
+    grouped = (
+        Inspection.objects.current()
+        .filter(battery__site__in=sites, taken_at__gte=now - dt.timedelta(days=days), taken_at__lte=now)
+        .values("battery__site_id", "chosen_via")
+        .annotate(n=Count("pk"))
+        .order_by()
+    )
+    counts = {site.pk: Counter() for site in sites}
+    for row in grouped:
+        counts[row["battery__site_id"]][row["chosen_via"]] += row["n"]
+    out = []
+    for site in sites:
+        by_via = counts[site.pk]
+        total = sum(by_via.values())
+        by_scan = by_via[Inspection.ChosenVia.SCAN]
+        out.append({
+            "site": site, "total": total, "by_scan": by_scan, "scan_share": by_scan / total if total else None,
+            "scan_percent": round(100 * by_scan / total) if total else None,
+            "others": [by_via[value] for value, _ in OTHER_WAYS],
+        })
+    return out

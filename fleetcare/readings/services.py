@@ -102,7 +102,7 @@ def build_cells(inspection, entries):
 
 def record_inspection(*, battery, user, taken_at, situation, cells, scope=Inspection.Scope.ALL_CELLS,
                       temp_c=None, hydrometer_compensated=False, hours_since_charge=None, notes="",
-                      client_uuid=None, supersedes=None, revision_reason=""):
+                      client_uuid=None, supersedes=None, revision_reason="", chosen_via=Inspection.ChosenVia.UNKNOWN):
     """Store one inspection and all its cell readings, or nothing. Returns (inspection, created).
 
     A client UUID seen before returns the stored inspection untouched, so a tablet may resend freely.
@@ -113,7 +113,7 @@ def record_inspection(*, battery, user, taken_at, situation, cells, scope=Inspec
     inspection = Inspection(
         battery=battery, taken_by=user, taken_at=taken_at, situation=situation, scope=scope,
         temp_c=temp_c, hydrometer_compensated=hydrometer_compensated, hours_since_charge=hours_since_charge,
-        notes=notes, supersedes=supersedes, revision_reason=revision_reason,
+        notes=notes, supersedes=supersedes, revision_reason=revision_reason, chosen_via=chosen_via,
     )
     if client_uuid is not None:
         inspection.client_uuid = client_uuid
@@ -192,7 +192,7 @@ def correct_inspection(old, *, user, reason, cells, temp_c=None, client_uuid=Non
     with transaction.atomic():
         new, created = record_inspection(
             battery=old.battery, user=old.taken_by, cells=cells, temp_c=temp_c, client_uuid=client_uuid,
-            supersedes=old, revision_reason=reason.strip(), **fields,
+            supersedes=old, revision_reason=reason.strip(), chosen_via=old.chosen_via, **fields,
         )
         if created:
             ReadingChange.objects.create(

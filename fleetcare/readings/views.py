@@ -37,8 +37,9 @@ def find_battery(request):
             ).select_related("profile", "site").distinct()[:25]
         )
         if len(matches) == 1:
-            target = "readings:top_up" if action == "water" else "readings:inspect"
-            return redirect(target, pk=matches[0].pk)
+            if action == "water":
+                return redirect("readings:top_up", pk=matches[0].pk)
+            return redirect(reverse("readings:inspect", args=[matches[0].pk]) + "?via=search")
     return render(request, "readings/find.html", {"query": query, "matches": matches, "then": action})
 
 
@@ -50,7 +51,10 @@ def inspect(request, pk):
     if request.method == "POST":
         form = InspectionForm(request.POST, battery=battery)
         if form.is_valid():
-            inspection, created = record_inspection(battery=battery, user=request.user, **form.record_kwargs())
+            inspection, created = record_inspection(
+                battery=battery, user=request.user, chosen_via=Inspection.chosen_on_tablet(request.POST.get("chosen_via")),
+                **form.record_kwargs(),
+            )
             if not created:
                 messages.info(request, "This inspection was already saved; nothing was stored twice.")
             return redirect("readings:inspection", pk=inspection.pk)
@@ -62,6 +66,7 @@ def inspect(request, pk):
     with site_clock(battery):
         return render(request, "readings/inspect.html", {
             "battery": battery, "profile": battery.profile, "form": form, "scope": scope,
+            "chosen_via": Inspection.chosen_on_tablet(request.POST.get("chosen_via") or request.GET.get("via")),
             "tray_columns": selectors.tray_columns(battery.profile.positions),
         })
 

@@ -137,7 +137,7 @@ def test_it_is_built_in_a_fixed_number_of_queries_whatever_the_fleet_size(
     super_client, build_fleet, size, django_assert_max_num_queries
 ):
     build_fleet(size)
-    with django_assert_max_num_queries(15):
+    with django_assert_max_num_queries(16):
         response = super_client.get(HOME)
     assert response.status_code == 200
     assert counts(response.context, "Batteries by status", "In service")[-1] == size

@@ -40,7 +40,7 @@ def test_the_page_gives_one_tap_into_each_entry_screen(warehouse, crew_client, c
     assert reverse("readings:top_up", args=[a.pk]) in page
     assert reverse("planner:equalizing", args=[a.pk]) in page  # first by serial of those due; one a night
     assert reverse("planner:equalizing", args=[b.pk]) not in page  # planned for a later night
-    assert reverse("readings:inspect", args=[a.pk]) + "?scope=all" in page  # never read: all cells due
+    assert reverse("readings:inspect", args=[a.pk]) + "?scope=all&amp;via=today" in page  # never read: all cells due
     assert "OVERDUE" in page or "DUE TODAY" in page  # state in words, not colour alone
 
 
@@ -63,7 +63,7 @@ def test_a_pilot_reading_is_due_a_week_after_the_last_reading(warehouse, crew, n
     tasks = site_days([warehouse["site"]], now)[warehouse["site"].pk].tasks
     assert "pilot" in kinds_for(tasks, b) and "all_cells" not in kinds_for(tasks, b)
     pilot = next(t for t in tasks if t.battery.pk == b.pk and t.kind == "pilot")
-    assert pilot.entry_url.endswith("?scope=pilot") and pilot.days_overdue == 1
+    assert pilot.entry_url.endswith("?scope=pilot&via=today") and pilot.days_overdue == 1
 
 
 def test_all_cells_are_due_after_an_equalizing_charge(warehouse, crew, now):

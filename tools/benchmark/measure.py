@@ -252,7 +252,7 @@ def csv_import(fleet, batteries=100, readings_each=20, first_minute=1):
     inspection_columns = (
         "id, battery_id, taken_at, taken_by_id, situation, scope, temp_c, hydrometer_compensated, hours_since_charge, "
         "notes, client_uuid, sg_mean, sg_min, sg_max, sg_spread, lowest_position, volts_total, soc_percent, soc_basis, "
-        "is_current, supersedes_id, revision_reason, recorded_at, deleted_at, deleted_by_id"
+        "is_current, supersedes_id, revision_reason, recorded_at, deleted_at, deleted_by_id, chosen_via"
     )
 
     first_id = min(ids.values())

@@ -24,6 +24,15 @@ self.addEventListener("activate", function (event) {
   }).then(function () { return self.clients.claim(); }));
 });
 
+// `via=` says how the battery was picked (scan, search, ...). Offline, a page asked for with it is answered
+// with the copy kept without it (the page's script reads `via` from the address); only copies fetched
+// without it are kept, so a kept page never carries another visit's `via`.
+function withoutVia(url) {
+  var bare = new URL(url.href);
+  bare.searchParams.delete("via");
+  return bare;
+}
+
 function keepable(url) {
   // Searches (find?q=...) are not kept: offline, the offline page filters the kept battery list instead.
   if (url.search && !/^\?scope=(all|pilot)$/.test(url.search)) return false;
@@ -80,13 +89,14 @@ self.addEventListener("message", function (event) {
 });
 
 function pageFromNetwork(request) {
-  var url = new URL(request.url);
+  var asked = new URL(request.url);
+  var url = withoutVia(asked);
   return fetch(request).then(function (response) {
-    if (keepable(url)) keep(PAGES, request, response);
+    if (url.href === asked.href && keepable(url)) keep(PAGES, request, response);
     return response;
   }).catch(function () {
     return caches.open(PAGES).then(function (cache) {
-      return cache.match(request, {ignoreVary: true}).then(function (hit) {
+      return cache.match(url.href, {ignoreVary: true}).then(function (hit) {
         if (hit) return hit;
         if (request.mode !== "navigate") return Response.error();
         return cache.match(OFFLINE_PAGE, {ignoreVary: true}).then(function (page) { return page || Response.error(); });

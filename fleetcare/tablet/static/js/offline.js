@@ -13,6 +13,8 @@
   var RETRY_MS = 20000;
   var PRECACHE_EVERY_MS = 10 * 60 * 1000;
   var sending = false;
+  // How the battery was picked (a scanned label, a search, ...): the entry screen's address says `via=`.
+  var TABLET_CHOICES = ["scan", "search", "today", "page"];
 
   // ---- Service worker: keep the entry screens on the tablet. -------------------------------------
   if ("serviceWorker" in navigator && config.sw) {
@@ -217,6 +219,7 @@
       hydrometer_compensated: data.get("hydrometer_compensated") !== null,
       hours_since_charge: blank(data.get("hours_since_charge")), notes: data.get("notes") || "", cells: []
     };
+    if (TABLET_CHOICES.indexOf(data.get("chosen_via")) >= 0) body.chosen_via = data.get("chosen_via");
     form.querySelectorAll("input[data-position]").forEach(function (input) {
       var position = Number(input.dataset.position);
       if (input.name.indexOf("volts_") === 0) {
@@ -314,6 +317,8 @@
   }
 
   function hookForm(form) {
+    var via = new URLSearchParams(location.search).get("via");
+    if (form.elements.chosen_via && TABLET_CHOICES.indexOf(via) >= 0) form.elements.chosen_via.value = via;
     var hasErrors = form.querySelector(".is-invalid, .has-error, .alert-danger");
     var match = /^#resume=([0-9a-f-]{36})$/.exec(location.hash);
     if (match) resume(form, match[1]);
@@ -394,7 +399,7 @@
           batteries.filter(function (b) {
             return !q || b.serial.toLowerCase().indexOf(q) >= 0 || (b.vehicle || "").toLowerCase().indexOf(q) >= 0;
           }).forEach(function (b) {
-            list.appendChild(el("a", {"class": "list-group-item list-group-item-action py-3", href: b.inspect_url},
+            list.appendChild(el("a", {"class": "list-group-item list-group-item-action py-3", href: b.inspect_url + "?via=search"},
                                 b.serial + (b.vehicle ? " · in " + b.vehicle : "") + " · " + b.site));
           });
         }
