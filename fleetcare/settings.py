@@ -52,6 +52,7 @@ INSTALLED_APPS = [
     "fleetcare.accounts",
     "fleetcare.fleet",
     "fleetcare.readings",
+    "fleetcare.labels",
     "fleetcare.care",
     "fleetcare.budget",
     "fleetcare.dashboard",
@@ -157,6 +158,13 @@ FLEETCARE_IMPORT_CHUNK_ROWS = int(os.environ.get("FLEETCARE_IMPORT_CHUNK_ROWS", 
 # Long work (CSV imports, the findings pass after them, "check now") runs as tasks in the database,
 # picked up by `manage.py db_worker` (started by `manage.py demo`; its own service in production).
 TASKS = {"default": {"BACKEND": "django_tasks_db.DatabaseBackend", "QUEUES": ["default"]}}
+
+# Where FleetCare is reached from the battery room, e.g. https://fleetcare.example.com: printed labels'
+# QR codes hold this address. Empty: the address the supervisor printing the labels used (fine when the
+# tablets reach FleetCare the same way); set it when they do not, e.g. behind a proxy or another name.
+FLEETCARE_BASE_URL = os.environ.get("FLEETCARE_BASE_URL", "").strip().rstrip("/")
+if FLEETCARE_BASE_URL and not FLEETCARE_BASE_URL.startswith(("http://", "https://")):
+    raise ImproperlyConfigured(f"FLEETCARE_BASE_URL must start with https:// (or http://), not “{FLEETCARE_BASE_URL}”.")
 
 LOGIN_URL = "/accounts/login/"
 LOGIN_REDIRECT_URL = "/"

@@ -8,6 +8,7 @@ urlpatterns = [
     path("accounts/", include("fleetcare.accounts.urls")),
     path("batteries/", include("fleetcare.dashboard.battery_urls")),
     path("readings/", include("fleetcare.readings.urls")),
+    path("labels/", include("fleetcare.labels.urls")),
     path("care/", include("fleetcare.care.urls")),
     path("budget/", include("fleetcare.budget.urls")),
     path("planner/", include("fleetcare.planner.urls")),

@@ -181,8 +181,9 @@ def battery_status(battery: Battery):
 
 
 def offline_pages(user):
-    """The entry screens a tablet keeps: the find page and every active battery's reading pages."""
-    pages = [reverse("readings:find"), reverse("tablet:offline"), reverse("tablet:outbox"), reverse("api:batteries")]
+    """The entry screens a tablet keeps: the find and scan pages and every active battery's reading pages."""
+    pages = [reverse("readings:find"), reverse("labels:scan"), reverse("tablet:offline"), reverse("tablet:outbox"),
+             reverse("api:batteries")]
     for battery in visible_batteries(user).active().select_related("profile").order_by("serial"):
         inspect = reverse("readings:inspect", args=[battery.pk])
         pages.append(inspect)
@@ -193,7 +194,7 @@ def offline_pages(user):
 
 OFFLINE_ASSETS = (
     "vendor/bootstrap/bootstrap.min.css", "vendor/bootstrap/bootstrap.bundle.min.js", "css/fleetcare.css",
-    "js/entry.js", "js/offline.js", "manifest.webmanifest", "icons/fleetcare-192.png", "icons/fleetcare-512.png",
+    "js/entry.js", "js/offline.js", "js/scan.js", "vendor/jsqr/jsQR.js", "manifest.webmanifest", "icons/fleetcare-192.png", "icons/fleetcare-512.png",
 )
 
 

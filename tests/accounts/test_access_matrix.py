@@ -32,6 +32,7 @@ KWARG_KINDS = {
     "site_pk": "site", "site_id": "site",
     "token": "feed_token",
     "import_id": "csv_import",
+    "serial": "battery_serial",
 }
 # For a bare `pk` or `id`, the path word before it says what it names ("findings/<int:pk>/").
 PK_NOUNS = {
@@ -127,6 +128,8 @@ class World:
             return battery.site.pk
         if kind == "site_code":
             return battery.site.code
+        if kind == "battery_serial":
+            return battery.serial
         if kind == "inspection":
             return store_inspection(battery, self.reader).pk
         if kind == "top_up":

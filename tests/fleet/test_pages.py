@@ -24,7 +24,7 @@ def test_the_battery_list_shows_only_my_sites(crew_client, battery, other_batter
 def test_find_by_asset_number_goes_straight_to_entry(crew_client, battery):
     response = crew_client.get(reverse("readings:find"), {"q": "FL-01"})
     assert response.status_code == 302
-    assert response["Location"] == reverse("readings:inspect", args=[battery.pk])
+    assert response["Location"] == reverse("readings:inspect", args=[battery.pk]) + "?via=search"
 
 
 def test_another_sites_battery_record_answers_404(crew_client, other_battery):

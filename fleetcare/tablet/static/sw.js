@@ -8,7 +8,7 @@ var PAGES = "fleetcare-pages-v1";
 var ASSETS = "fleetcare-assets-v1";
 var OFFLINE_PAGE = "/api/offline/";
 var BATTERY_LIST = "/api/batteries";
-var KEPT_PAGES = [/^\/readings\/find\/$/, /^\/readings\/battery\/\d+\/inspect\/$/, /^\/api\/offline\/$/, /^\/api\/outbox\/$/];
+var KEPT_PAGES = [/^\/readings\/find\/$/, /^\/labels\/scan\/$/, /^\/readings\/battery\/\d+\/inspect\/$/, /^\/api\/offline\/$/, /^\/api\/outbox\/$/];
 
 self.addEventListener("install", function (event) {
   event.waitUntil(caches.open(PAGES).then(function (cache) {
