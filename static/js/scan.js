@@ -20,12 +20,16 @@
   var finished = false;
   var TICK_MS = 150;
 
-  function say(text) { statusBox.textContent = text; statusBox.hidden = false; }
+  function say(text, tone) {
+    statusBox.className = "alert fs-5 alert-" + (tone || "info");
+    statusBox.textContent = text;
+    statusBox.hidden = false;
+  }
 
   function problem(text) {
     problemBox.textContent = text;
     problemBox.hidden = false;
-    say("Nothing was opened. Point the camera at another label, or find the battery by serial.");
+    say("Point the camera at another label, or find the battery by serial.", "secondary");
   }
 
   function fill(template, values) {
@@ -74,7 +78,7 @@
     if (result.kind === "open") {
       finished = true;
       problemBox.hidden = true;
-      say("Label read: opening " + result.serial + "…");
+      say("Label read: opening " + result.serial + "…", "success");
       stop();
       location.assign(result.url);
       return;
