@@ -5,6 +5,7 @@ import io
 import os
 import shutil
 import subprocess
+from pathlib import Path
 
 import pytest
 import zxingcpp
@@ -17,16 +18,20 @@ from fleetcare.labels import selectors
 from fleetcare.labels.sheets import LAYOUTS, label_sheet
 
 BASE = "https://fleetcare.example.com"
+ARTIFACTS = Path(__file__).resolve().parents[2] / "test-artifacts" / "labels"
 PDFTOPPM = shutil.which("pdftoppm")
 # Under CI=true a missing poppler fails these tests instead of skipping them (.ci/run installs it).
 needs_poppler = pytest.mark.skipif(PDFTOPPM is None and os.environ.get("CI", "").lower() not in ("1", "true", "yes"),
                                    reason="pdftoppm (Debian package poppler-utils) is not installed")
 
 
-def read_codes(pdf):
-    """Every QR code on every page, as (page number, text)."""
+def read_codes(pdf, keep_as=None):
+    """Every QR code on every page, as (page number, text); keep_as: keep page 1 in test-artifacts/labels/ to look at."""
     found = []
     for number, image in enumerate(rasterised(pdf), start=1):
+        if keep_as and number == 1:
+            ARTIFACTS.mkdir(parents=True, exist_ok=True)
+            image.save(ARTIFACTS / f"{keep_as}.png")
         found += [(number, code.text) for code in zxingcpp.read_barcodes(image, formats=zxingcpp.BarcodeFormat.QRCode)]
     return found
 
@@ -80,7 +85,7 @@ def url_of(battery):
 def test_every_code_on_the_sheet_reads_back_as_exactly_the_batteries_asked_for(site, fleet, layout, per_page):
     asked = ["TW-003", "TW-PAIR/7", "TW-011", "TW-001", "TW-004", "TW-005", "TW-006", "TW-007", "TW-008", "TW-009", "TW-010"]
     pdf = selectors.sheet_pdf(site, asked, layout, BASE)
-    codes = read_codes(pdf)
+    codes = read_codes(pdf, keep_as=f"label-sheet-{layout}")
     by_serial = {b.serial: b for b in fleet}
     assert [text for _, text in codes] != []
     assert sorted(text for _, text in codes) == sorted(url_of(by_serial[s]) for s in asked)
