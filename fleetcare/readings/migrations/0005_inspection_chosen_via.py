@@ -6,7 +6,7 @@ from django.db import migrations, models
 class Migration(migrations.Migration):
 
     dependencies = [
-        ('readings', '0003_overview_indexes'),
+        ('readings', '0004_reading_change_from_accounts'),
     ]
 
     operations = [
