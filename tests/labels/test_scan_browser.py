@@ -54,7 +54,7 @@ def filming(playwright, live_server, crew, tmp_path):
         context = browser.new_context(base_url=live_server.url, viewport={"width": 1024, "height": 768}, has_touch=True,
                                       permissions=["camera"])
         context.add_cookies([{"name": "sessionid", "value": client.cookies["sessionid"].value, "url": live_server.url}])
-        context.set_default_timeout(20_000)
+        context.set_default_timeout(45_000)  # generous: a loaded machine decodes few frames a second
         opened.append(browser)
         return context, context.new_page()
 
