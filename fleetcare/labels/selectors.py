@@ -10,7 +10,7 @@ from decimal import Decimal
 from django.conf import settings
 from django.urls import reverse
 
-from fleetcare.accounts.access import visible_batteries, visible_sites
+from fleetcare.fleet.access import visible_batteries, visible_sites
 from fleetcare.fleet.models import Battery
 from fleetcare.labels.sheets import Label, label_sheet
 from fleetcare.readings.models import Inspection

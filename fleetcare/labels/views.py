@@ -4,7 +4,8 @@ from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
 
-from fleetcare.accounts.access import role_required, site_or_404, visible_sites
+from fleetcare.accounts.access import role_required
+from fleetcare.fleet.access import site_or_404, visible_sites
 from fleetcare.accounts.roles import CREW, SUPERVISOR
 from fleetcare.fleet.models import Battery
 from fleetcare.labels import selectors
