@@ -98,8 +98,8 @@ def test_the_overview_shows_each_sites_share_of_readings_by_scan(client, supervi
 @pytest.mark.django_db(transaction=True)
 def test_readings_stored_before_the_field_existed_count_as_not_recorded(site, traction_profile, crew):
     executor = MigrationExecutor(connection)
-    executor.migrate([("readings", "0004_reading_change_from_accounts")])
-    old_apps = executor.loader.project_state([("readings", "0004_reading_change_from_accounts")]).apps
+    executor.migrate([("readings", "0005_csv_import")])
+    old_apps = executor.loader.project_state([("readings", "0005_csv_import")]).apps
     OldInspection = old_apps.get_model("readings", "Inspection")
     battery = Battery.objects.create(serial="TW-OLD", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1))
     OldInspection.objects.create(battery_id=battery.pk, taken_by_id=crew.pk, taken_at=timezone.now(),

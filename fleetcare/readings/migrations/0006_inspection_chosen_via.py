@@ -6,7 +6,7 @@ from django.db import migrations, models
 class Migration(migrations.Migration):
 
     dependencies = [
-        ('readings', '0004_reading_change_from_accounts'),
+        ('readings', '0005_csv_import'),
     ]
 
     operations = [
