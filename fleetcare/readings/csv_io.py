@@ -425,7 +425,12 @@ class Checker:
         if timezone.is_naive(taken_at):
             if battery is None:
                 return None, None  # the serial's own message says enough
-            taken_at = timezone.make_aware(taken_at, battery.site.tzinfo)
+            try:
+                taken_at = site_time.to_moment(taken_at, battery)
+            except site_time.NonexistentLocalTime as exc:
+                return None, f"taken_at {_shown(text)}: {exc}"
+            except OverflowError:
+                return None, f"taken_at {_shown(text)} is before 2000-01-01: not a reading this fleet can have."
         try:
             taken_at = taken_at.astimezone(dt.timezone.utc)
         except OverflowError:

@@ -180,6 +180,23 @@ def test_a_fahrenheit_export_imports_back_as_the_same_readings(both, chicago_bat
     assert again.temp_c == Decimal("25.0")
 
 
+def test_the_csv_import_refuses_a_skipped_time_and_reads_a_repeated_one_as_the_forms_do(both, chicago_battery):
+    from fleetcare.readings.csv_io import import_readings
+
+    user = chicago_battery.site.members.get()
+    header = "serial,taken_at,situation,cell,sg,temp,volts,level\n"
+
+    def rows(taken):
+        return "".join(f"CH-001,{taken},charged,{n},1.280,77,,ok\n" for n in range(1, 25))
+
+    report = import_readings(header + rows("2026-03-08T02:30"), user=user, batteries=Battery.objects.all())
+    assert not report.ok and not Inspection.objects.exists()
+    assert "did not happen at Chicago DC (America/Chicago)" in str(report.errors)
+    report = import_readings(header + rows("2026-11-01T01:30"), user=user, batteries=Battery.objects.all())
+    assert report.ok
+    assert Inspection.objects.get().taken_at == dt.datetime(2026, 11, 1, 7, 30, tzinfo=UTC)  # as the form stores it
+
+
 def test_a_celsius_site_keeps_celsius_and_litres(both, battery):
     assert post_reading(both, battery, "2026-01-12T01:55", temp="25").status_code == 302
     inspection = Inspection.objects.get()
