@@ -7,7 +7,6 @@ database holds at most one open-or-acknowledged finding per battery and kind.
 """
 import logging
 from collections import defaultdict
-from dataclasses import dataclass, field
 from datetime import timedelta
 
 from django.db import connection, transaction
@@ -227,74 +226,6 @@ def detect_fleet(now=None, site=None):
     if site is not None:
         batteries = batteries.filter(site=site)
     return detect_for_batteries(batteries, now=now)
-
-
-# --- Deep-discharge counts for the dashboard -----------------------------------------------------
-
-
-@dataclass
-class DeepDischargeCounts:
-    """Deep-discharge events per battery and per truck (the truck the battery was fitted to at the time)."""
-
-    events: list = field(default_factory=list)  # dicts: battery, inspection, taken_at, soc_percent, vehicle, shift
-    by_battery: dict = field(default_factory=dict)  # battery pk -> count
-    by_vehicle: dict = field(default_factory=dict)  # vehicle pk -> count
-    by_vehicle_shift: dict = field(default_factory=dict)  # (vehicle pk, shift) -> count
-    batteries: dict = field(default_factory=dict)  # pk -> Battery
-    vehicles: dict = field(default_factory=dict)  # pk -> Vehicle
-
-    def battery_rows(self):
-        """[(battery, count)], most events first."""
-        return sorted(((self.batteries[pk], n) for pk, n in self.by_battery.items()),
-                      key=lambda row: (-row[1], row[0].serial))
-
-    def vehicle_rows(self):
-        """[(vehicle, shift, count)], most events first; shift is '' where the site does not rotate."""
-        return sorted(((self.vehicles[pk], shift, n) for (pk, shift), n in self.by_vehicle_shift.items()),
-                      key=lambda row: (-row[2], row[0].asset_number, row[1]))
-
-
-def deep_discharge_counts(batteries, since=None, now=None):
-    """Count deep-discharge events (in-use or before-charge readings under the policy's state of charge).
-
-    `since` defaults to each battery's policy event window. Fixed number of queries.
-    """
-    now = now or timezone.now()
-    battery_list = list(batteries.select_related("profile", "site"))
-    counts = DeepDischargeCounts(batteries={b.pk: b for b in battery_list})
-    if not battery_list:
-        return counts
-    policies = list(Policy.objects.select_related("site", "profile"))
-    data = {b.pk: rules.BatteryData(battery=b, policy=care_policy.resolve(b, policies), now=now) for b in battery_list}
-    earliest = since or now - timedelta(days=max(int(d.policy.event_window_days) for d in data.values()) + 1)
-    ids = _battery_ids(batteries)
-    inspections = (
-        Inspection.objects.current()
-        .filter(battery_id__in=ids, taken_at__gte=earliest, taken_at__lte=now,
-                situation__in=[Inspection.Situation.IN_USE, Inspection.Situation.BEFORE_CHARGE],
-                soc_percent__isnull=False)
-        .order_by("-taken_at", "-pk")
-    )
-    for inspection in inspections:
-        data[inspection.battery_id].recent.append(inspection)
-    for fitting in Fitting.objects.filter(battery_id__in=ids).select_related("vehicle").order_by("-fitted_at"):
-        data[fitting.battery_id].fittings.append(fitting)
-    by_battery, by_vehicle, by_shift = defaultdict(int), defaultdict(int), defaultdict(int)
-    for pk, d in data.items():
-        for event in rules.deep_discharge_events(d, since=since):
-            inspection, vehicle = event["inspection"], event["vehicle"]
-            counts.events.append({
-                "battery": d.battery, "inspection": inspection, "taken_at": inspection.taken_at,
-                "soc_percent": inspection.soc_percent, "vehicle": vehicle, "shift": event["shift"],
-            })
-            by_battery[pk] += 1
-            if vehicle is not None:
-                counts.vehicles[vehicle.pk] = vehicle
-                by_vehicle[vehicle.pk] += 1
-                by_shift[(vehicle.pk, event["shift"])] += 1
-    counts.by_battery, counts.by_vehicle, counts.by_vehicle_shift = dict(by_battery), dict(by_vehicle), dict(by_shift)
-    counts.events.sort(key=lambda e: e["taken_at"], reverse=True)
-    return counts
 
 
 # --- Detection on save ---------------------------------------------------------------------------

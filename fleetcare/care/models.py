@@ -19,11 +19,8 @@ class FindingQuerySet(models.QuerySet):
         """Open or acknowledged: still shown by the latest readings."""
         return self.filter(state__in=Finding.ACTIVE)
 
-    def for_batteries(self, batteries):
-        return self.filter(battery__in=batteries)
-
     def visible_to(self, user):
-        """Findings of the batteries the user may see (the access rules live in fleetcare.accounts.access)."""
+        """Findings of the batteries the user may see (the access rules live in fleetcare.fleet.access)."""
         from fleetcare.fleet.access import visible_batteries
 
         return self.filter(battery__in=visible_batteries(user))

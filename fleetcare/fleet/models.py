@@ -201,9 +201,6 @@ class BatteryProfile(models.Model):
 
 
 class BatteryQuerySet(models.QuerySet):
-    def at_site(self, site):
-        return self.filter(site=site)
-
     def visible_to(self, user):
         return self.filter(site__in=Site.objects.for_user(user))
 

@@ -116,10 +116,6 @@ class EqualizingCharge(models.Model):
     def __str__(self):
         return f"{self.battery} equalizing from {self.started_at:%Y-%m-%d %H:%M}"
 
-    @property
-    def is_running(self):
-        return self.ended_at is None
-
 
 class EqualizingReading(models.Model):
     class Basis(models.TextChoices):

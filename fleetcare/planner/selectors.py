@@ -281,39 +281,6 @@ def first_due(care, today):
     return due(eq), due(water)
 
 
-def due_summary(batteries, now=None):
-    """Counts for the dashboard: batteries whose equalizing charge or watering is overdue (due before today, or
-    never on record) or due today, by the planning policy. Sealed batteries that may not be equalized or
-    watered never count. Fixed number of queries."""
-    now = now or timezone.now()
-    wanted = set(Battery.objects.filter(pk__in=_pks(batteries)).values_list("pk", flat=True))
-    sites = Site.objects.filter(batteries__in=wanted).distinct()
-    counts = {"equalize_overdue": 0, "water_overdue": 0, "equalize_due_today": 0, "water_due_today": 0,
-              "equalize_overdue_ids": [], "water_overdue_ids": []}
-    for entry in planner_inputs.build(sites, now, 1).values():
-        if entry.inputs is None:
-            continue
-        for care in entry.inputs.batteries:
-            if care.battery_id not in wanted:
-                continue
-            eq_due, water_due = first_due(care, entry.today)
-            for kind, due, last in (("equalize", eq_due, care.last_equalized), ("water", water_due, care.last_watered)):
-                if due is None:
-                    continue
-                if due < entry.today or last is None:
-                    counts[f"{kind}_overdue"] += 1
-                    counts[f"{kind}_overdue_ids"].append(care.battery_id)
-                elif due == entry.today:
-                    counts[f"{kind}_due_today"] += 1
-    return counts
-
-
-def _pks(batteries):
-    if hasattr(batteries, "values_list"):
-        return batteries.values_list("pk", flat=True)
-    return [b.pk if hasattr(b, "pk") else b for b in batteries]
-
-
 def work_due_for_battery(battery, now=None):
     """[{kind, title, due}] for one battery: its next planned equalizing and watering (from the site's stored
     plan) and any reading due; `due` is an aware datetime. Used by the JSON API."""

@@ -332,13 +332,6 @@ class Plan:
     def for_day(self, day: date) -> list[PlannedTask]:
         return [t for t in self.tasks if t.day == day]
 
-    def by_room_and_day(self) -> dict:
-        """{room_id: {day: [tasks]}}, rooms and days in order of first appearance (chronological)."""
-        grouped: dict = {}
-        for task in self.tasks:
-            grouped.setdefault(task.room_id, {}).setdefault(task.day, []).append(task)
-        return grouped
-
     def to_json_dict(self) -> dict:
         return {
             "site_id": self.site_id,

@@ -2,7 +2,6 @@
 import datetime as dt
 from decimal import Decimal
 
-from fleetcare.care.detection import deep_discharge_counts
 from fleetcare.care.models import Policy
 from fleetcare.fleet.models import Battery, Fitting, Vehicle
 from tests.care.helpers import detect, inspect, kinds, one
@@ -47,7 +46,7 @@ def test_the_floor_follows_policy(battery, crew, watered, now, traction_profile)
     assert "deep_discharge" in kinds(detect(battery, now))
 
 
-def test_counts_go_to_the_truck_and_shift_fitted_at_the_time(battery, crew, watered, now, site, traction_profile):
+def test_events_go_to_the_truck_and_shift_fitted_at_the_time(crew, watered, now, site, traction_profile, battery):
     night_truck = Vehicle.objects.create(asset_number="FL-09", kind=Vehicle.Kind.COUNTERBALANCE, site=site)
     spare = Battery.objects.create(serial="TW-002", profile=traction_profile, site=site, in_service_date=dt.date(2025, 1, 1))
     Fitting.objects.create(battery=spare, vehicle=night_truck, fitted_at=now - 20 * DAY, removed_at=now - 10 * DAY,
@@ -57,19 +56,10 @@ def test_counts_go_to_the_truck_and_shift_fitted_at_the_time(battery, crew, wate
     pilot(spare, crew, now - 12 * DAY, "1.150")
     pilot(spare, crew, now - 2 * DAY, "1.160")
     pilot(spare, crew, now - 8 * DAY, "1.160")  # between fittings: not on a truck
-    pilot(battery, crew, now - DAY, "1.165")
-    counts = deep_discharge_counts(Battery.objects.all(), now=now)
-    assert counts.by_battery == {spare.pk: 4, battery.pk: 1}
-    rows = [(v.asset_number, shift, n) for v, shift, n in counts.vehicle_rows()]
-    assert rows == [("FL-09", "Night", 2), ("FL-01", "", 1), ("FL-01", "Day", 1)]
-    assert counts.by_vehicle[night_truck.pk] == 2
-    assert [b.serial for b, _ in counts.battery_rows()] == ["TW-002", "TW-001"]
-
-
-def test_counts_take_a_fixed_number_of_queries(battery, crew, site, traction_profile, now, django_assert_num_queries):
-    for n in range(5):
-        b = Battery.objects.create(serial=f"TW-1{n}", profile=traction_profile, site=site, in_service_date=dt.date(2025, 1, 1))
-        pilot(b, crew, now - DAY, "1.150")
-    with django_assert_num_queries(4):
-        counts = deep_discharge_counts(Battery.objects.all(), now=now)
-    assert sum(counts.by_battery.values()) == 5
+    finding = one(detect(spare, now), "deep_discharge")
+    assert finding.evidence["event_count"] == 4
+    assert finding.evidence["by_truck"] == [
+        {"vehicle": "FL-01", "shift": "Day", "events": 1},
+        {"vehicle": "FL-09", "shift": "Night", "events": 2},
+        {"vehicle": "not fitted", "shift": "", "events": 1},
+    ]

@@ -36,7 +36,7 @@ def test_it_records_a_charge_and_says_when_sg_has_stopped_rising(crew_client, ba
     began = timezone.now().replace(second=0, microsecond=0) - dt.timedelta(hours=4)
     assert start(crew_client, battery, began).status_code == 302
     charge = EqualizingCharge.objects.get(battery=battery)
-    assert charge.is_running
+    assert charge.ended_at is None
     # points as the crew types them; every 40 minutes; rising, then level over the last three
     for n, sg in enumerate(["268", "279", "285", "286", "286"]):
         response = read(crew_client, battery, began + dt.timedelta(minutes=60 + 40 * n), sg)

@@ -572,6 +572,3 @@ def test_its_json_is_plain_and_its_views_group_by_day_and_room():
         "reason": "equalizing every 7 days, last on 2025-02-24",
     }
     assert [t.serial for t in plan.for_day(START)] == ["A", "B"]
-    week = plan.by_room_and_day()
-    assert sorted(week) == ["A", "B"]
-    assert list(week["A"]) == [START, START + timedelta(days=7)]

@@ -9,7 +9,7 @@ from django.urls import reverse
 
 from fleetcare.fleet.models import ShiftWindow
 from fleetcare.planner.models import TaskSkip
-from fleetcare.planner.selectors import due_summary, site_days, tasks_for_today, work_due_for_battery
+from fleetcare.planner.selectors import site_days, tasks_for_today, work_due_for_battery
 
 from .conftest import add_batteries, cared_for, finding, inspect, water
 
@@ -114,15 +114,6 @@ def test_the_home_page_sends_a_one_site_user_straight_to_its_list(client, django
     client.force_login(make_user(django_user_model, "solo", "crew", [site]))
     response = client.get(reverse("planner:home"))
     assert response.status_code == 302 and response["Location"] == reverse("planner:today", args=["tw"])
-
-
-def test_due_summary_counts_overdue_equalizing_and_watering(warehouse, sealed_battery, crew, now):
-    fresh, stale, never = warehouse["trays"][:3]
-    cared_for(fresh, crew, now, days_ago=1)
-    cared_for(stale, crew, now, days_ago=9)
-    summary = due_summary([fresh, stale, never, sealed_battery], now=now)
-    assert summary["equalize_overdue"] == 2 and summary["water_overdue"] == 2
-    assert set(summary["equalize_overdue_ids"]) == {stale.pk, never.pk}
 
 
 def test_work_due_for_battery_gives_dated_work(warehouse, crew, now):
