@@ -1,6 +1,6 @@
 """When each battery will need replacing and what it will cost: plain data in, plain data out.
 
-No Django and no database here. `fleetcare.budget.selectors` builds `BatteryFacts` from the database
+No Django and no database here. `fleetcare.budget.selectors` builds `ServiceHistory` from the database
 in a fixed number of queries; `forecast_battery` weighs the evidence for one battery; `build_budget`
 rolls the resulting lines into calendar quarters and fiscal years over a horizon.
 
@@ -103,7 +103,10 @@ class PostCharge:
 
 
 @dataclass(frozen=True)
-class BatteryFacts:
+class ServiceHistory:
+    """One battery's service so far, as the forecast reads it: age, charges, capacity tests, post-charge
+    readings and the cells the findings call failing."""
+
     battery_id: int
     serial: str
     site_code: str
@@ -153,7 +156,7 @@ class Evidence:
 class Line:
     """One budgeted event: a battery (or some of its cells) replaced on `budget_date`."""
 
-    facts: BatteryFacts
+    facts: ServiceHistory
     kind: str
     decided_by: Evidence
     likely: date
@@ -181,7 +184,7 @@ class Line:
 
 @dataclass(frozen=True)
 class Forecast:
-    facts: BatteryFacts
+    facts: ServiceHistory
     evidence: tuple
     decided_by: Evidence
     likely: date

@@ -58,7 +58,7 @@ DEFAULT_RULES = forecast.Rules()
 
 
 def battery_facts(batteries, today, rules=DEFAULT_RULES):
-    """BatteryFacts for every battery in `batteries` that is not retired, oldest serial first."""
+    """ServiceHistory for every battery in `batteries` that is not retired, oldest serial first."""
     batteries = batteries.active().select_related("profile", "site", "profile__budget_settings").order_by("serial")
     rows = list(batteries)
     ids = batteries.values("pk")
@@ -95,7 +95,7 @@ def battery_facts(batteries, today, rules=DEFAULT_RULES):
         installation = settings.installation_cost if settings is not None else None
         log = logged.get(b.pk)
         found = weak.get(b.pk, {"cells": set(), "block": False, "because": ""})
-        facts.append(forecast.BatteryFacts(
+        facts.append(forecast.ServiceHistory(
             battery_id=b.pk, serial=b.serial, site_code=b.site.code, site_name=b.site.name,
             profile_id=profile.pk, profile_name=profile.name, in_service_date=b.in_service_date,
             design_life_years=float(profile.design_life_years), design_cycles=profile.design_cycles,

@@ -86,14 +86,14 @@ def _with_cells(rows):
 
 
 def load(batteries, now):
-    """BatteryData for every battery in the queryset, in a fixed number of queries."""
+    """ReadingHistory for every battery in the queryset, in a fixed number of queries."""
     battery_list = list(batteries.select_related("profile", "site").order_by("pk"))
     if not battery_list:
         return []
     ids = _battery_ids(batteries)
     policies = list(Policy.objects.select_related("site", "profile"))
     data = {
-        b.pk: rules.BatteryData(battery=b, policy=care_policy.resolve(b, policies), now=now) for b in battery_list
+        b.pk: rules.ReadingHistory(battery=b, policy=care_policy.resolve(b, policies), now=now) for b in battery_list
     }
     depth = max(2, max(int(d.policy.sulfation_inspections) for d in data.values()))
     lookback_days = max(

@@ -89,7 +89,7 @@ class Detected:
 
 
 @dataclass
-class BatteryData:
+class ReadingHistory:
     """Everything the rules may look at for one battery, loaded by detection in a fixed number of queries."""
 
     battery: object

@@ -31,8 +31,9 @@ INPUTS_VERSION = "1"
 
 
 @dataclass
-class BatteryFacts:
-    """What the Django side knows about one battery beyond the planner's view of it."""
+class CareRecord:
+    """One battery's care so far (last equalized, watered, read), what care it may have, its settings and
+    airflow: what the Django side knows beyond the planner's view of it."""
 
     battery: Battery
     settings: planner_policy.Resolved
@@ -53,7 +54,9 @@ class BatteryFacts:
 
 
 @dataclass
-class RoomFacts:
+class RoomLoad:
+    """A charging room's everyday load: batteries charging at once, their airflow, and where that figure came from."""
+
     room: ChargingRoom
     charging_at_once: int
     baseline_airflow_m3h: float
@@ -65,8 +68,8 @@ class SiteInputs:
     site: object
     today: dt.date
     inputs: solver.PlanInputs | None
-    facts: dict = field(default_factory=dict)  # battery pk -> BatteryFacts
-    rooms: dict = field(default_factory=dict)  # room pk -> RoomFacts
+    facts: dict = field(default_factory=dict)  # battery pk -> CareRecord
+    rooms: dict = field(default_factory=dict)  # room pk -> RoomLoad
     windows: list = field(default_factory=list)  # ShiftWindow rows
     settings: SiteSettings | None = None
     problem: str = ""
@@ -200,7 +203,7 @@ def clip_windows(windows):
 def _facts(battery, site, policies, charge, reading, watered_at, vehicle):
     profile = battery.profile
     settings = planner_policy.resolve(site.pk, profile.pk, policies)
-    facts = BatteryFacts(
+    facts = CareRecord(
         battery=battery, settings=settings,
         can_equalize=bool(profile.equalizing_allowed),
         can_water=bool(profile.is_flooded and profile.watering_allowed),
@@ -232,11 +235,11 @@ def _room_facts(room, members):
     if settings is not None and settings.charging_at_once is not None:
         at_once = settings.charging_at_once
     if settings is not None and settings.baseline_airflow_m3h is not None:
-        return RoomFacts(room, at_once, float(settings.baseline_airflow_m3h), "set for this room")
+        return RoomLoad(room, at_once, float(settings.baseline_airflow_m3h), "set for this room")
     loads = sorted((f.normal_airflow_m3h for f in members), reverse=True)[:at_once]
     source = (f"normal charging of the {len(loads)} largest of the room's batteries "
               f"({'every charger' if settings is None or settings.charging_at_once is None else 'set for this room'})")
-    return RoomFacts(room, at_once, sum(loads), source)
+    return RoomLoad(room, at_once, sum(loads), source)
 
 
 def charges_logged(logged_times, since_date, site, now):

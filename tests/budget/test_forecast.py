@@ -17,7 +17,7 @@ def tray(**overrides):
         unit_price=Decimal("7800"), weight_kg=Decimal("1350"), cell_count=24, full_charge_sg=1.290,
     )
     values.update(overrides)
-    return fc.BatteryFacts(**values)
+    return fc.ServiceHistory(**values)
 
 
 def post_charge(start, days_apart, means, spreads=None, lowest=None, mins=None):
