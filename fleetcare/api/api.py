@@ -18,8 +18,9 @@ from fleetcare.planner.selectors import tasks_for_today
 
 LEAST_ROLE = CREW
 SAFE_METHODS = ("GET", "HEAD", "OPTIONS")
-ERRORS = {401: schemas.ErrorOut, 403: schemas.ErrorOut}
-NOT_FOUND = {404: schemas.ErrorOut}
+# Every operation may answer these (a bad query or body, no sign-in, too low a role, not yours, a conflict, values
+# the form refuses); documented on each so clients and schema checks know them.
+ERRORS = {code: schemas.ErrorOut for code in (400, 401, 403, 404, 409, 422)}
 
 
 def _with_role(user):
@@ -87,7 +88,9 @@ def _invalid(request, exc):
     errors = {}
     for error in exc.errors:
         errors.setdefault(_field_key(error.get("loc", ())), []).append(str(error.get("msg", "Invalid value.")))
-    return api.create_response(request, {"detail": services.NOT_SAVED, "errors": errors}, status=422)
+    detail = services.NOT_SAVED if request.method not in SAFE_METHODS else (
+        "The request's parameters are not valid: fix the ones listed and ask again.")
+    return api.create_response(request, {"detail": detail, "errors": errors}, status=422)
 
 
 class BatteryFilter(Schema):
@@ -120,14 +123,14 @@ def list_profiles(request):
     return selectors.profiles_for(request.auth)
 
 
-@api.get("/batteries/{battery_id}/status", response={200: schemas.StatusOut, **ERRORS, **NOT_FOUND},
+@api.get("/batteries/{battery_id}/status", response={200: schemas.StatusOut, **ERRORS},
          url_name="battery_status", summary="A battery's latest state")
 def battery_status(request, battery_id: int):
     """Latest state of charge and spread, open findings and the next planned work."""
     return selectors.battery_status(battery_or_404(request.auth, battery_id))
 
 
-SUBMIT_RESPONSES = {201: None, 409: schemas.ErrorOut, 422: schemas.ErrorOut, **ERRORS, **NOT_FOUND}
+SUBMIT_RESPONSES = {201: None, **ERRORS}
 
 
 @api.post("/batteries/{battery_id}/inspections",
@@ -136,7 +139,8 @@ SUBMIT_RESPONSES = {201: None, 409: schemas.ErrorOut, 422: schemas.ErrorOut, **E
 def submit_inspection(request, battery_id: int, payload: schemas.InspectionIn):
     """Checked exactly as the tablet form checks it; errors come back per field with the form's messages.
 
-    409: the battery was retired, or the client_uuid belongs to another battery's reading.
+    409: the battery was retired, or the client_uuid was used before for another battery's reading or with
+    other values (nothing is stored; the same body again answers 201 with the stored reading).
     """
     battery = battery_or_404(request.auth, battery_id)
     status, body = services.submit_inspection(user=request.auth, battery=battery, payload=payload)

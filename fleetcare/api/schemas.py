@@ -1,9 +1,22 @@
 """What the API takes and gives, as pydantic schemas (they become the OpenAPI document)."""
 import datetime as dt
 import uuid
-from typing import Literal, Optional, Union
+from typing import Annotated, Literal, Optional, Union
 
 from ninja import Field, Schema
+from pydantic import StrictFloat, StrictInt, StrictStr
+
+# A number as JSON (never true/false: a boolean is not a volume) or as the crew types it ("265", "4,8", "").
+NUMBER_TEXT = r"^\s*([+-]?([0-9]{1,9}([.,][0-9]{0,9})?|[.,][0-9]{1,9}))?\s*$"
+NumberText = Annotated[StrictStr, Field(pattern=NUMBER_TEXT, max_length=24)]
+
+
+def number(low, high, above_low=False):
+    """A JSON number from low (or above it) to high, the widest any site's unit allows (the form checks the
+    site's own limits), or the same as text."""
+    bounds = Field(gt=low, le=high) if above_low else Field(ge=low, le=high)
+    return Union[Annotated[StrictInt, bounds], Annotated[StrictFloat, bounds], NumberText]
+
 
 Situation = Literal["charged", "equalized", "rested", "in_use", "before_charge"]
 Scope = Literal["all", "pilot"]
@@ -71,10 +84,10 @@ class BatteryOut(Schema):
 
 class CellIn(Schema):
     position: int = Field(ge=1, le=80, description="Cell number (flooded) or block number (sealed).")
-    sg: Optional[Union[str, float]] = Field(
+    sg: Optional[number(0, 1350)] = Field(
         None, description="Observed SG as the crew says it: \"265\", \"1265\" or \"1.265\" all mean 1.265.")
     low: bool = Field(False, description="Electrolyte below the level mark.")
-    volts: Optional[Union[str, float]] = Field(None, description="Block voltage (sealed blocks).")
+    volts: Optional[number(0, 100)] = Field(None, description="Block voltage (sealed blocks).")
 
 
 class InspectionIn(Schema):
@@ -86,9 +99,9 @@ class InspectionIn(Schema):
         description="ISO 8601 date and time; without an offset it is the battery's site local time.",
         json_schema_extra={"format": "date-time"},
     )
-    temp: Optional[Union[str, float]] = Field(None, description="Electrolyte temperature in the site's unit.")
+    temp: Optional[number(-40, 160)] = Field(None, description="Electrolyte temperature in the site's unit.")
     hydrometer_compensated: bool = False
-    hours_since_charge: Optional[Union[str, float]] = None
+    hours_since_charge: Optional[number(0, 100000)] = None
     notes: str = Field("", max_length=4000)
     cells: list[CellIn] = Field(default_factory=list, max_length=80)
     chosen_via: Optional[ChosenOnTablet] = Field(
@@ -137,7 +150,7 @@ class TopUpIn(Schema):
     client_uuid: uuid.UUID = Field(description="Made by the client once per top-up; the same UUID twice stores one.")
     done_at: str = Field(description="ISO 8601; without an offset it is the site's local time.",
                          json_schema_extra={"format": "date-time"})
-    volume: Union[str, float] = Field(description="Water added, in the site's volume unit (litres or US fl oz).")
+    volume: number(0, 100000, above_low=True) = Field(description="Water added, in the site's volume unit (litres or US fl oz).")
     per_cell: bool = Field(False, description="The volume went into each cell, not the whole battery.")
     before_charge: bool = False
     water_type: WaterType = "distilled"

@@ -3,6 +3,9 @@
 Each returns (status, body). A client UUID already stored answers with that stored record, whatever
 happened since (the battery retired, the form changed): the first answer is the answer.
 """
+import hashlib
+import json
+
 from fleetcare.api import selectors
 from fleetcare.fleet.models import Battery
 from fleetcare.fleet.site_time import site_clock
@@ -26,7 +29,17 @@ def _rejected(status, detail, errors):
     return status, {"detail": detail, "errors": errors}
 
 
-def _replay_or_conflict(existing, battery, what):
+def body_digest(payload):
+    """SHA-256 of a submission as parsed: a resend of the same body has the same digest."""
+    canonical = json.dumps(payload.model_dump(mode="json"), sort_keys=True, separators=(",", ":"))
+    return hashlib.sha256(canonical.encode("utf-8")).hexdigest()
+
+
+def _replay_or_conflict(existing, battery, what, digest=None):
+    if digest is not None and existing.client_digest and existing.client_digest != digest:
+        return _rejected(409, f"This client_uuid was already used for another {what}: nothing was saved.", {
+            "client_uuid": [f"Already used for a {what} with other values: make a new one for this {what}."],
+        })
     if existing.battery_id != battery.pk:
         return _rejected(409, f"This client_uuid was already used for a {what} of another battery.", {
             "client_uuid": [f"Already used for a {what} of another battery: make a new one for this {what}."],
@@ -75,9 +88,10 @@ def inspection_form_data(payload, profile):
 
 
 def submit_inspection(*, user, battery, payload):
+    digest = body_digest(payload)
     existing = Inspection.objects.filter(client_uuid=payload.client_uuid).first()
     if existing is not None:
-        return _replay_or_conflict(existing, battery, "reading") or (201, selectors.inspection_row(
+        return _replay_or_conflict(existing, battery, "reading", digest) or (201, selectors.inspection_row(
             selectors.stored_inspection(existing.pk)))
     refused = _retired(battery, "readings")
     if refused:
@@ -91,16 +105,20 @@ def submit_inspection(*, user, battery, payload):
         errors.update(extra_errors)
         return _rejected(422, NOT_SAVED, errors)
     chosen_via = payload.chosen_via or Inspection.ChosenVia.API
-    inspection, _ = record_inspection(battery=battery, user=user, chosen_via=chosen_via, **form.record_kwargs())
-    if inspection.battery_id != battery.pk:
-        return _replay_or_conflict(inspection, battery, "reading")
+    inspection, created = record_inspection(battery=battery, user=user, chosen_via=chosen_via, client_digest=digest,
+                                            **form.record_kwargs())
+    if not created:
+        refused = _replay_or_conflict(inspection, battery, "reading", digest)
+        if refused:
+            return refused
     return 201, selectors.inspection_row(selectors.stored_inspection(inspection.pk))
 
 
 def submit_top_up(*, user, battery, payload):
+    digest = body_digest(payload)
     existing = WaterTopUp.objects.filter(client_uuid=payload.client_uuid).first()
     if existing is not None:
-        return _replay_or_conflict(existing, battery, "top-up") or (201, selectors.top_up_row(
+        return _replay_or_conflict(existing, battery, "top-up", digest) or (201, selectors.top_up_row(
             selectors.stored_top_up(existing.pk)))
     refused = _retired(battery, "water")
     if refused:
@@ -119,11 +137,13 @@ def submit_top_up(*, user, battery, payload):
     if not valid:
         return _rejected(422, NOT_SAVED, {name: list(messages) for name, messages in form.errors.items()})
     clean = form.cleaned_data
-    top_up, _ = record_top_up(
+    top_up, created = record_top_up(
         battery=battery, user=user, done_at=clean["done_at"], volume_ml=clean["volume_ml"],
         volume_entered=clean["volume_entered"], before_charge=clean["before_charge"],
-        water_type=clean["water_type"], notes=clean["notes"], client_uuid=clean["client_uuid"],
+        water_type=clean["water_type"], notes=clean["notes"], client_uuid=clean["client_uuid"], client_digest=digest,
     )
-    if top_up.battery_id != battery.pk:
-        return _replay_or_conflict(top_up, battery, "top-up")
+    if not created:
+        refused = _replay_or_conflict(top_up, battery, "top-up", digest)
+        if refused:
+            return refused
     return 201, selectors.top_up_row(selectors.stored_top_up(top_up.pk))

@@ -160,6 +160,9 @@ class InspectionForm(forms.Form):
                     f"{value} V is not plausible for a {self.profile.cells_per_block}-cell block "
                     f"(expected {low:.2f}–{high:.2f} V). Check the meter and its leads.",
                 )
+        filled = [p for p in range(1, self.profile.positions + 1) if data.get(f"volts_{p}") is not None]
+        if scope != Inspection.Scope.ALL_CELLS and len(filled) != 1:
+            self.add_error(None, "A single-block reading has exactly one block filled in.")
 
     def cell_entries(self):
         data = self.cleaned_data

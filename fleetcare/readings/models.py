@@ -66,6 +66,10 @@ class Inspection(models.Model):
         "battery chosen by", max_length=8, choices=ChosenVia.choices, default=ChosenVia.UNKNOWN,
         help_text="How the battery was picked before the reading: a scanned label, a search, today's work, ...",
     )
+    client_digest = models.CharField(
+        max_length=64, blank=True, default="",
+        help_text="SHA-256 of the API submission that stored it: the same client UUID with another body is refused.",
+    )
 
     # Summary computed by fleetcare.chemistry when the inspection is saved.
     sg_mean = models.DecimalField(max_digits=5, decimal_places=3, null=True, blank=True)
@@ -171,6 +175,8 @@ class WaterTopUp(models.Model):
     water_type = models.CharField(max_length=10, choices=WaterType.choices, default=WaterType.DISTILLED)
     notes = models.TextField(blank=True)
     client_uuid = models.UUIDField(default=uuid.uuid4, unique=True)
+    client_digest = models.CharField(max_length=64, blank=True, default="",
+                                     help_text="SHA-256 of the API submission that stored it.")
     recorded_at = models.DateTimeField(auto_now_add=True)
     deleted_at = models.DateTimeField(null=True, blank=True)
 

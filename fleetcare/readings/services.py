@@ -102,7 +102,8 @@ def build_cells(inspection, entries):
 
 def record_inspection(*, battery, user, taken_at, situation, cells, scope=Inspection.Scope.ALL_CELLS,
                       temp_c=None, hydrometer_compensated=False, hours_since_charge=None, notes="",
-                      client_uuid=None, supersedes=None, revision_reason="", chosen_via=Inspection.ChosenVia.UNKNOWN):
+                      client_uuid=None, supersedes=None, revision_reason="", chosen_via=Inspection.ChosenVia.UNKNOWN,
+                      client_digest=""):
     """Store one inspection and all its cell readings, or nothing. Returns (inspection, created).
 
     A client UUID seen before returns the stored inspection untouched, so a tablet may resend freely.
@@ -114,6 +115,7 @@ def record_inspection(*, battery, user, taken_at, situation, cells, scope=Inspec
         battery=battery, taken_by=user, taken_at=taken_at, situation=situation, scope=scope,
         temp_c=temp_c, hydrometer_compensated=hydrometer_compensated, hours_since_charge=hours_since_charge,
         notes=notes, supersedes=supersedes, revision_reason=revision_reason, chosen_via=chosen_via,
+        client_digest=client_digest,
     )
     if client_uuid is not None:
         inspection.client_uuid = client_uuid
@@ -238,14 +240,14 @@ def remove_top_up(top_up, *, user, reason):
 
 
 def record_top_up(*, battery, user, done_at, volume_ml, volume_entered="", before_charge=False,
-                  water_type=WaterTopUp.WaterType.DISTILLED, notes="", client_uuid=None):
+                  water_type=WaterTopUp.WaterType.DISTILLED, notes="", client_uuid=None, client_digest=""):
     """Store one water top-up. Returns (top_up, created); a repeated client UUID stores nothing new."""
     existing = _already_stored(WaterTopUp, client_uuid)
     if existing is not None:
         return existing, False
     top_up = WaterTopUp(
         battery=battery, done_by=user, done_at=done_at, volume_ml=volume_ml, volume_entered=volume_entered,
-        before_charge=before_charge, water_type=water_type, notes=notes,
+        before_charge=before_charge, water_type=water_type, notes=notes, client_digest=client_digest,
     )
     if client_uuid is not None:
         top_up.client_uuid = client_uuid
