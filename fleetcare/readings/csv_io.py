@@ -153,7 +153,7 @@ class CheckedReading:
         return (sum(temps) / len(temps)).quantize(Decimal("0.1")) if temps else None
 
     def describe(self):
-        local = timezone.localtime(self.taken_at, self.battery.site.tzinfo)
+        local = site_time.local(self.taken_at, self.battery)
         return f"{self.battery.serial} at {local:%Y-%m-%d %H:%M} ({Inspection.Situation(self.situation).label.lower()})"
 
 
@@ -439,7 +439,7 @@ class Checker:
             return None, f"taken_at {text} is in the future (more than 10 minutes ahead of now)."
         if taken_at < EARLIEST:
             return None, f"taken_at {text} is before 2000-01-01: not a reading this fleet can have."
-        if battery is not None and timezone.localtime(taken_at, battery.site.tzinfo).date() < battery.in_service_date:
+        if battery is not None and site_time.local(taken_at, battery).date() < battery.in_service_date:
             return None, (f"taken_at {text} is before {battery.serial} entered service "
                           f"({battery.in_service_date:%Y-%m-%d}).")
         return taken_at, None

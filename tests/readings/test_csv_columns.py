@@ -120,3 +120,10 @@ def test_bytes_that_are_not_utf8_get_a_message(crew_client, battery):
     page = crew_client.post(reverse("readings:import"), {"file": upload}, follow=True).content.decode()
     assert "the file is not UTF-8 text" in page
     assert not Inspection.objects.exists()
+
+
+def test_a_local_time_the_clocks_skipped_is_refused_with_the_sites_reason(battery, crew):
+    """Europe/London went from 01:00 to 02:00 on 29 March 2026: 01:30 never happened there."""
+    report = run(tray(temp="25", taken="2026-03-29T01:30"), crew)
+    assert "did not happen at Test warehouse (Europe/London)" in report.errors[0][1]
+    assert not Inspection.objects.exists()
