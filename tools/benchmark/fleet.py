@@ -109,7 +109,7 @@ def _readings(start, profile, crew):
     params = {
         "start": start, "days": DAYS, "cells": CELLS, "crew": crew.pk, "weak_every": WEAK_EVERY,
         "ref": profile.sg_reference_temp_c, "coef": profile.sg_coefficient_per_c,
-        "full": profile.full_charge_sg, "empty": profile.discharged_sg,
+        "full": profile.full_charge_sg, "empty": profile.discharged_sg, "chosen_via": Inspection.ChosenVia.UNKNOWN.value,
     }
     with transaction.atomic(), connection.cursor() as cursor:
         cursor.execute("SET LOCAL synchronous_commit = off")
@@ -166,12 +166,12 @@ def _readings(start, profile, crew):
                 id, battery_id, taken_at, taken_by_id, situation, scope, temp_c, hydrometer_compensated,
                 hours_since_charge, notes, client_uuid, sg_mean, sg_min, sg_max, sg_spread, lowest_position,
                 volts_total, soc_percent, soc_basis, is_current, supersedes_id, revision_reason, recorded_at,
-                deleted_at, deleted_by_id)
+                deleted_at, deleted_by_id, chosen_via, client_digest)
             SELECT p.id, p.battery_id, p.taken_at, %(crew)s, p.situation, p.scope, p.temp, false,
                    NULL, '', md5('bench-' || p.id)::uuid, round(s.mean, 3), s.lowest, s.highest, s.highest - s.lowest,
                    s.lowest_position, NULL,
                    round(greatest(0, least(100, 100 * (s.mean - %(empty)s) / (%(full)s - %(empty)s))), 1), 'sg',
-                   true, NULL, '', p.taken_at, NULL, NULL
+                   true, NULL, '', p.taken_at, NULL, NULL, %(chosen_via)s, ''
             FROM bench_plan p
             JOIN (SELECT inspection_id, avg(sg_corrected) AS mean, min(sg_corrected) AS lowest,
                          max(sg_corrected) AS highest,
@@ -189,10 +189,10 @@ def _top_ups(start, crew):
     with connection.cursor() as cursor:
         cursor.execute("""
             INSERT INTO readings_watertopup (battery_id, done_at, done_by_id, volume_ml, volume_entered, before_charge,
-                                             water_type, notes, client_uuid, recorded_at, deleted_at)
+                                             water_type, notes, client_uuid, recorded_at, deleted_at, client_digest)
             SELECT b.id, %(start)s::timestamptz + w * interval '7 days' + interval '7 hours', %(crew)s,
                    (3600 + (b.id * 37 + w * 11) %% 600)::numeric(8, 1), '', false, 'distilled', '',
-                   md5('bench-water-' || b.id || '-' || w)::uuid, now(), NULL
+                   md5('bench-water-' || b.id || '-' || w)::uuid, now(), NULL, ''
             FROM fleet_battery b CROSS JOIN generate_series(0, %(weeks)s - 1) AS w
         """, {"start": start, "crew": crew.pk, "weeks": DAYS // 7})
 
