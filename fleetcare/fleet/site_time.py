@@ -16,6 +16,7 @@ import zoneinfo
 from contextlib import contextmanager
 
 from django import forms
+from django.forms.fields import BaseTemporalField
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
@@ -137,8 +138,13 @@ class SiteDateTimeField(forms.DateTimeField):
             except ValueError:
                 parsed = None
             if parsed is None:
-                parsed = forms.BaseTemporalField.to_python(self, text)
+                parsed = BaseTemporalField.to_python(self, text)
         if timezone.is_aware(parsed):
+            try:  # a year-1 time with an offset is before year 1 in UTC or in the site's zone
+                parsed.astimezone(dt.timezone.utc)
+                parsed.astimezone(zone_of(self._zone()))
+            except OverflowError as exc:
+                raise forms.ValidationError(self.error_messages["invalid"], code="invalid") from exc
             return parsed
         try:
             return to_moment(parsed, self._zone())

@@ -95,3 +95,13 @@ def test_an_empty_reading_is_refused_on_a_flooded_battery(token_client, battery)
         body = reading_body(scope=scope, cells=[])
         assert post_json(token_client, f"/api/batteries/{battery.pk}/inspections", body).status_code == 422
     assert Inspection.objects.count() == 0
+
+
+def test_an_impossible_time_is_refused_with_a_message_not_a_500(token_client, battery):
+    body = top_up(done_at="2024-01-01T12:99:00Z")  # found by schemathesis
+    response = post_json(token_client, f"/api/batteries/{battery.pk}/top-ups", body)
+    assert response.status_code == 422
+    assert "done_at" in response.json()["errors"]
+    body = top_up(done_at="0001-01-01T00:30:00+05:00")  # a year-1 time with an offset
+    assert post_json(token_client, f"/api/batteries/{battery.pk}/top-ups", body).status_code == 422
+    assert WaterTopUp.objects.count() == 0
