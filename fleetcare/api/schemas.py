@@ -87,6 +87,10 @@ class CellIn(Schema):
     sg: Optional[number(0, 1350)] = Field(
         None, description="Observed SG as the crew says it: \"265\", \"1265\" or \"1.265\" all mean 1.265.")
     low: bool = Field(False, description="Electrolyte below the level mark.")
+    confirmed: bool = Field(
+        False, description="The crew confirmed this cell's SG although it is unlike the rest of the tray (more than "
+                           "0.020 above or 0.050 below the median of the other cells by default, or outside the "
+                           "profile's plausible band). Without it such a cell is refused with 422, naming the cell.")
     volts: Optional[number(0, 100)] = Field(None, description="Block voltage (sealed blocks).")
 
 

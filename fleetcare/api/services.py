@@ -68,7 +68,8 @@ def inspection_form_data(payload, profile):
     for cell in payload.cells:
         p = cell.position
         if p > profile.positions:
-            errors.append(f"There is no {unit} {p}: this battery has {profile.positions} {unit}s.")
+            errors.append(f"There is no {unit} {p}: this battery has {profile.positions} {unit}s. "
+                          "Check that this is the right battery.")
             continue
         if p in seen:
             errors.append(f"{unit.capitalize()} {p} is sent twice.")
@@ -84,6 +85,8 @@ def inspection_form_data(payload, profile):
             data[f"sg_{p}"] = _text(cell.sg)
             if cell.low:
                 data[f"low_{p}"] = "on"
+            if cell.confirmed:
+                data[f"confirm_{p}"] = "on"
     return data, ({"cells": errors} if errors else {})
 
 

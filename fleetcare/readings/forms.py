@@ -1,18 +1,21 @@
 """Entry forms for the battery room: every bad value gets its message beside the box it came from."""
 import uuid
+from dataclasses import dataclass
 from decimal import Decimal
 
 from django import forms
+from django.utils import timezone
+
 from fleetcare import chemistry
 from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Battery, Site
 from fleetcare.fleet.site_time import SiteDateTimeField
+from fleetcare.readings import validation
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 from fleetcare.readings.services import CellEntry
+from fleetcare.readings.validation import SG_HIGH, SG_LOW, TEMP_HIGH_C, TEMP_LOW_C  # noqa: F401 (used by the CSV import)
 
 RETIRED_MESSAGE = "This battery is retired: nothing can be logged against it. Check the serial, or ask a supervisor."
-SG_LOW, SG_HIGH = Decimal("1.000"), Decimal("1.350")
-TEMP_LOW_C, TEMP_HIGH_C = Decimal("-30"), Decimal("70")
 
 
 def to_celsius(value, site):
@@ -24,11 +27,16 @@ def temp_label(site):
 
 
 def check_temp_c(temp_c, site):
-    if temp_c is not None and not TEMP_LOW_C <= temp_c <= TEMP_HIGH_C:
-        if site.temp_unit == Site.TempUnit.FAHRENHEIT:
-            return "Electrolyte temperature must be between −22 and 158 °F."
-        return "Electrolyte temperature must be between −30 and 70 °C."
-    return None
+    return validation.temp_problem(temp_c, fahrenheit=site.temp_unit == Site.TempUnit.FAHRENHEIT)
+
+
+def check_when(form, name, battery):
+    """The one date rule (validation.date_problem) on a form's date field, as the field's own error."""
+    when = form.cleaned_data.get(name)
+    problem = validation.date_problem(when, battery, timezone.now(), label=str(form.fields[name].label))
+    if problem:
+        raise forms.ValidationError(problem)
+    return when
 
 
 class SGField(forms.CharField):
@@ -38,12 +46,9 @@ class SGField(forms.CharField):
         value = super().to_python(value)
         if value in self.empty_values:
             return None
-        try:
-            sg = Decimal(str(chemistry.parse_sg(value))).quantize(Decimal("0.001"))
-        except ValueError as exc:
-            raise forms.ValidationError(str(exc)) from exc
-        if not SG_LOW <= sg <= SG_HIGH:
-            raise forms.ValidationError(f"{sg} is outside 1.000–1.350. Check the hydrometer reading.")
+        sg, problem = validation.parse_sg(value)
+        if problem:
+            raise forms.ValidationError(problem)
         return sg
 
 
@@ -51,6 +56,15 @@ def _widget_attrs(**extra):
     attrs = {"autocomplete": "off", "class": "form-control form-control-lg"}
     attrs.update(extra)
     return attrs
+
+
+@dataclass(frozen=True)
+class CellRow:
+    position: int
+    field: forms.BoundField
+    low: forms.BoundField | None = None
+    confirm: forms.BoundField | None = None
+    suspect: bool = False
 
 
 class InspectionForm(forms.Form):
@@ -85,6 +99,7 @@ class InspectionForm(forms.Form):
         super().__init__(*args, **kwargs)
         self.fields["taken_at"].zone = battery
         self.fields["taken_at"].help_text = f"{self.site.name} time ({site_time.zone_of(battery).key})"
+        self.limits = validation.limits_for(battery, timezone.now())
         self.fields["temp"].label = f"Electrolyte temperature ({temp_label(self.site)})"
         self.fields["temp"].widget.attrs["autofocus"] = True
         if not self.profile.is_flooded:
@@ -105,14 +120,23 @@ class InspectionForm(forms.Form):
                 self.fields[f"low_{position}"] = forms.BooleanField(
                     label="low", required=False, widget=forms.CheckboxInput(attrs={"class": "form-check-input"})
                 )
+                self.fields[f"confirm_{position}"] = forms.BooleanField(
+                    label="Yes, it reads this", required=False,
+                    widget=forms.CheckboxInput(attrs={"class": "form-check-input", "data-confirm": position}),
+                )
 
     def cell_rows(self):
-        """Bound fields per position, for the tray grid template."""
+        """One row per box of the tray grid: its value box, and for cells the low and confirmation boxes."""
+        suspects = getattr(self, "suspects", {})
         for position in range(1, self.profile.positions + 1):
             if self.profile.reads_by_block:
-                yield position, self[f"volts_{position}"], None
+                yield CellRow(position, self[f"volts_{position}"])
             else:
-                yield position, self[f"sg_{position}"], self[f"low_{position}"]
+                yield CellRow(position, self[f"sg_{position}"], self[f"low_{position}"], self[f"confirm_{position}"],
+                              suspect=position in suspects)
+
+    def clean_taken_at(self):
+        return check_when(self, "taken_at", self.battery)
 
     def header_fields(self):
         return [self[name] for name in ("situation", "taken_at", "temp", "hydrometer_compensated", "hours_since_charge") if name in self.fields]
@@ -141,25 +165,35 @@ class InspectionForm(forms.Form):
             for p in range(1, self.profile.positions + 1):
                 if f"sg_{p}" in data and data[f"sg_{p}"] is None and f"sg_{p}" not in self.errors:
                     self.add_error(f"sg_{p}", f"Cell {p} is empty: an all-cell reading needs all {self.profile.positions} cells.")
+            typed = [p for p in range(1, self.profile.positions + 1) if str(self.data.get(f"sg_{p}", "")).strip()]
+            problem = validation.missing_cells_problem(len(typed), self.profile.positions, False, self.battery.serial)
+            if problem:
+                self.add_error(None, problem)
         elif len(filled) != 1:
             self.add_error(None, "A pilot-cell reading has exactly one cell filled in.")
         if filled and data.get("temp") is None and not data.get("hydrometer_compensated"):
             self.add_error("temp", "Enter the electrolyte temperature, or tick that your hydrometer corrects for it.")
+        values = {p: data[f"sg_{p}"] for p in filled}
+        problem = validation.tray_problem(values, self.limits, self.battery.serial)
+        if problem:
+            self.add_error(None, problem)
+            return
+        self.suspects = validation.suspect_cells(values, self.limits)
+        for p, why in self.suspects.items():
+            if not data.get(f"confirm_{p}"):
+                self.add_error(f"sg_{p}", why)
 
     def _clean_blocks(self, data, scope):
-        low, high = chemistry.plausible_volts_range(self.profile.cells_per_block, self.profile.technology)
         for p in range(1, self.profile.positions + 1):
             name = f"volts_{p}"
             value = data.get(name)
             if value is None:
                 if name not in self.errors and scope == Inspection.Scope.ALL_CELLS:
                     self.add_error(name, f"Block {p} is empty: read every block.")
-            elif not Decimal(str(low)) <= value <= Decimal(str(high)):
-                self.add_error(
-                    name,
-                    f"{value} V is not plausible for a {self.profile.cells_per_block}-cell block "
-                    f"(expected {low:.2f}–{high:.2f} V). Check the meter and its leads.",
-                )
+                continue
+            problem = validation.volts_problem(value, self.profile, self.battery.serial)
+            if problem:
+                self.add_error(name, problem)
         filled = [p for p in range(1, self.profile.positions + 1) if data.get(f"volts_{p}") is not None]
         if scope != Inspection.Scope.ALL_CELLS and len(filled) != 1:
             self.add_error(None, "A single-block reading has exactly one block filled in.")
@@ -203,6 +237,9 @@ class TopUpForm(forms.Form):
 
     MAX_ML_PER_CELL = Decimal("2000")
 
+    def clean_done_at(self):
+        return check_when(self, "done_at", self.battery)
+
     def __init__(self, *args, battery, **kwargs):
         self.battery = battery
         self.site = battery.site
@@ -212,6 +249,7 @@ class TopUpForm(forms.Form):
         super().__init__(*args, **kwargs)
         self.fields["done_at"].zone = battery
         self.fields["done_at"].help_text = f"{self.site.name} time ({site_time.zone_of(battery).key})"
+        self.limits = validation.limits_for(battery, timezone.now())
         unit = "US fl oz" if site_units.uses_us_fl_oz(self.site) else "litres"
         self.fields["volume"].label = f"Water added ({unit})"
 

@@ -87,7 +87,7 @@ def test_it_refuses_cells_the_battery_does_not_have(token_client, battery):
     body["cells"].append({"position": 25, "sg": "280"})
     response = post_json(token_client, url(battery), body)
     assert response.status_code == 422
-    assert response.json()["errors"] == {"cells": ["There is no cell 25: this battery has 24 cells."]}
+    assert response.json()["errors"] == {"cells": ["There is no cell 25: this battery has 24 cells. Check that this is the right battery."]}
 
 
 def test_it_takes_block_voltages_for_a_sealed_pair(token_client, sealed_battery):

@@ -1,0 +1,297 @@
+"""One validation of a reading: every rule on a single reading's values, in one place.
+
+The tablet form, the API (through the form), the CSV import and the tablet's offline check all apply
+these rules. The browser gets the same numbers as JSON from `limits_for(battery).as_json()`, so the
+offline check cannot drift from the server's. Rules that need a battery's history (findings) are not
+here: these judge one reading on its own.
+
+Messages are for the crew and name the box they belong to; keys follow the form's field names
+(`temp`, `taken_at`, `sg_3`, `volts_2`, `confirm_3`, `__all__`).
+"""
+import datetime as dt
+from dataclasses import dataclass
+from decimal import Decimal, InvalidOperation
+from statistics import median
+
+from fleetcare import chemistry
+
+SG_LOW, SG_HIGH = Decimal("1.000"), Decimal("1.350")
+TEMP_LOW_C, TEMP_HIGH_C = Decimal("-30"), Decimal("70")
+SG_PLACES = Decimal("0.001")
+# Fewest other cells the median of the tray is taken over before a cell is judged against it.
+SLIP_MIN_OTHER_CELLS = 3
+
+
+@dataclass(frozen=True)
+class Setting:
+    name: str
+    label: str
+    default: Decimal
+    unit: str
+    source: str
+
+
+SETTINGS = (
+    Setting("slip_above_median_sg", "suspect entry: cell above the median of the other cells by more than",
+            Decimal("0.020"), "SG",
+            "common practice: after charge a cell rarely reads high; a high reading is usually a misread, a "
+            "typing slip or acid added by mistake. 0.020 is four float-hydrometer graduations (0.005 each, "
+            "field notes), so instrument noise alone does not reach it"),
+    Setting("slip_below_median_sg", "suspect entry: cell below the median of the other cells by more than",
+            Decimal("0.050"), "SG",
+            "common practice: a failing cell reads 0.030-0.050 below the others (field notes); a cell further "
+            "down is asked for once, so a real weak cell is kept and a slip is caught"),
+    Setting("plausible_band_margin_sg", "suspect entry: outside the profile's discharged to full-charge SG, "
+            "widened by", Decimal("0.030"), "SG",
+            "FleetCare default: the nameplate's discharged and full-charge SG (field notes: about 1.100-1.150 "
+            "and 1.280-1.300) with room for temperature (0.0007 per °C, common practice) and hydrometer error"),
+    Setting("future_minutes", "a reading may be dated ahead of now by at most", Decimal("10"), "minutes",
+            "FleetCare default: room for a tablet clock a few minutes fast, none for a wrong day or year"),
+)
+BY_NAME = {s.name: s for s in SETTINGS}
+EARLIEST_WHEN_UNKNOWN = dt.date(2000, 1, 1)
+
+
+def setting_defaults():
+    return {s.name: s.default for s in SETTINGS}
+
+
+# ---- Single values --------------------------------------------------------------------------------
+
+def parse_sg(text):
+    """(SG as Decimal to 0.001, None) or (None, message) for what the crew typed in one SG box."""
+    try:
+        sg = Decimal(str(chemistry.parse_sg(text))).quantize(SG_PLACES)
+    except ValueError as exc:
+        return None, str(exc)
+    except InvalidOperation:
+        return None, f"{text!s} is not a hydrometer reading. Enter a specific gravity such as 1.265 or 265."
+    if not sg.is_finite() or not SG_LOW <= sg <= SG_HIGH:
+        return None, f"{sg} is outside {SG_LOW}–{SG_HIGH}. Check the hydrometer reading."
+    return sg, None
+
+
+def temp_problem(temp_c, fahrenheit=False):
+    """A message when an electrolyte temperature (°C) is outside what can be read, else None."""
+    if temp_c is None:
+        return None
+    try:
+        inside = TEMP_LOW_C <= Decimal(temp_c) <= TEMP_HIGH_C
+    except (InvalidOperation, TypeError):
+        inside = False
+    if inside:
+        return None
+    if fahrenheit:
+        return "Electrolyte temperature must be between −22 and 158 °F."
+    return "Electrolyte temperature must be between −30 and 70 °C."
+
+
+def volts_band(profile):
+    """(low, high) volts one block of this profile can plausibly read."""
+    low, high = chemistry.plausible_volts_range(profile.cells_per_block, profile.technology)
+    return Decimal(str(round(low, 2))), Decimal(str(round(high, 2)))
+
+
+def volts_problem(volts, profile, serial=""):
+    """A message when a block voltage cannot belong to this profile's blocks, naming the profile it looks like."""
+    if volts is None:
+        return None
+    low, high = volts_band(profile)
+    if low <= volts <= high:
+        return None
+    cells = profile.cells_per_block
+    message = (f"{volts} V is not plausible for a {cells}-cell block "
+               f"({cells * 2} V nominal: expected {low:.2f}–{high:.2f} V).")
+    looks_like = _cells_for_volts(volts, profile.technology)
+    if looks_like and looks_like != cells:
+        what = "block" if looks_like <= 6 else "battery"
+        message += (f" It looks like a {looks_like * 2} V {what}: check that this is "
+                    f"{serial or 'the battery you are reading'}, and read each block on its own.")
+    else:
+        message += " Check the meter, its leads and the decimal point."
+    return message
+
+
+# Cells in series of the usual blocks and batteries: 6 and 12 V blocks, 24-80 V traction trays (field notes).
+COMMON_CELL_COUNTS = (3, 6, 12, 18, 24, 36, 40)
+
+
+def _cells_for_volts(volts, technology):
+    """How many cells in series a rested or charging voltage most likely spans (None if none fits)."""
+    try:
+        cells = round(float(volts) / 2.1)
+    except (ValueError, OverflowError):
+        return None
+    if cells not in COMMON_CELL_COUNTS:
+        return None
+    low, high = chemistry.plausible_volts_range(cells, technology)
+    return cells if low <= float(volts) <= high else None
+
+
+# ---- Dates ----------------------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class DateWindow:
+    earliest: dt.datetime
+    latest: dt.datetime
+    earliest_reason: str
+
+
+def date_window(battery, now, future_minutes=None):
+    """Earliest and latest moment a record of this battery may carry: its service start, and now + a few minutes."""
+    minutes = BY_NAME["future_minutes"].default if future_minutes is None else future_minutes
+    start = getattr(battery, "in_service_date", None)
+    tz = battery.site.tzinfo
+    if start:
+        reason = f"before this battery entered service ({start:%d %b %Y})"
+    else:
+        start = EARLIEST_WHEN_UNKNOWN
+        reason = f"before {start:%d %b %Y}"
+    earliest = dt.datetime.combine(start, dt.time.min, tzinfo=tz)
+    return DateWindow(earliest=earliest, latest=now + dt.timedelta(minutes=int(minutes)), earliest_reason=reason)
+
+
+def date_problem(when, battery, now, label="Taken at", future_minutes=None):
+    """A message naming the field when `when` (aware) is ahead of now by more than the allowance or before service."""
+    if when is None:
+        return None
+    try:
+        when_utc = when.astimezone(dt.timezone.utc)
+    except (OverflowError, ValueError):
+        return f"{label}: that date cannot be right. Check the date and the tablet's clock."
+    window = date_window(battery, now, future_minutes)
+    if when_utc > window.latest:
+        minutes = int((window.latest - now).total_seconds() // 60)
+        return (f"{label} is in the future (more than {minutes} minutes from now). "
+                "Check the date and the tablet's clock.")
+    if when_utc < window.earliest:
+        return f"{label} is {window.earliest_reason}. Check the date."
+    return None
+
+
+# ---- The tray as a whole --------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Limits:
+    """Everything a single reading of one battery is judged by, as plain data (sent to the tablet as JSON)."""
+
+    positions: int
+    reads_by_block: bool
+    sg_low: Decimal
+    sg_high: Decimal
+    temp_low_c: Decimal
+    temp_high_c: Decimal
+    fahrenheit: bool
+    slip_above: Decimal
+    slip_below: Decimal
+    band_low: Decimal | None
+    band_high: Decimal | None
+    volts_low: Decimal | None
+    volts_high: Decimal | None
+    cells_per_block: int
+    earliest: dt.datetime
+    earliest_reason: str
+    future_minutes: int
+    slip_min_others: int = SLIP_MIN_OTHER_CELLS
+
+    def as_json(self):
+        def num(value):
+            return None if value is None else float(value)
+        return {
+            "positions": self.positions, "readsByBlock": self.reads_by_block, "sgLow": num(self.sg_low),
+            "sgHigh": num(self.sg_high), "tempLowC": num(self.temp_low_c), "tempHighC": num(self.temp_high_c),
+            "fahrenheit": self.fahrenheit, "slipAbove": num(self.slip_above), "slipBelow": num(self.slip_below),
+            "bandLow": num(self.band_low), "bandHigh": num(self.band_high), "voltsLow": num(self.volts_low),
+            "voltsHigh": num(self.volts_high), "cellsPerBlock": self.cells_per_block,
+            "earliest": self.earliest.isoformat(), "earliestReason": self.earliest_reason,
+            "futureMinutes": self.future_minutes, "slipMinOthers": self.slip_min_others,
+        }
+
+
+def limits_for(battery, now, values=None):
+    """The limits for one battery; `values` overrides the declared defaults by setting name."""
+    settings = {**setting_defaults(), **(values or {})}
+    profile = battery.profile
+    margin = settings["plausible_band_margin_sg"]
+    band_low = profile.discharged_sg - margin if profile.discharged_sg is not None else None
+    band_high = profile.full_charge_sg + margin if profile.full_charge_sg is not None else None
+    volts_low = volts_high = None
+    if profile.reads_by_block:
+        volts_low, volts_high = volts_band(profile)
+    window = date_window(battery, now, settings["future_minutes"])
+    return Limits(
+        positions=profile.positions, reads_by_block=profile.reads_by_block, sg_low=SG_LOW, sg_high=SG_HIGH,
+        temp_low_c=TEMP_LOW_C, temp_high_c=TEMP_HIGH_C, fahrenheit=battery.site.temp_unit == "F",
+        slip_above=settings["slip_above_median_sg"], slip_below=settings["slip_below_median_sg"],
+        band_low=band_low, band_high=band_high, volts_low=volts_low, volts_high=volts_high,
+        cells_per_block=profile.cells_per_block, earliest=window.earliest, earliest_reason=window.earliest_reason,
+        future_minutes=int(settings["future_minutes"]),
+    )
+
+
+def _in_band(value, limits):
+    return ((limits.band_low is None or value >= limits.band_low)
+            and (limits.band_high is None or value <= limits.band_high))
+
+
+def suspect_cells(sg_by_position, limits):
+    """{position: why} for cells unlike the rest of the tray: likely typing slips, to be confirmed or fixed.
+
+    A cell is suspect when it is more than `slip_above` above the median of the other cells, more than
+    `slip_below` below it, or outside the profile's plausible band while the other cells are inside it
+    (a whole tray outside the band is `tray_problem`'s business, not a slip). Medians need
+    `slip_min_others` other cells; a pilot-cell reading is judged by the band alone.
+    """
+    suspects = {}
+    filled = {p: Decimal(v) for p, v in sg_by_position.items() if v is not None}
+    for position, sg in sorted(filled.items()):
+        others = [v for p, v in filled.items() if p != position]
+        middle = Decimal(median(others)).quantize(SG_PLACES) if others else None
+        if len(others) >= limits.slip_min_others:
+            if sg - middle > limits.slip_above:
+                suspects[position] = (f"{sg} is {sg - middle:.3f} above the other cells (median {middle}). "
+                                      "A typing slip? Fix it, or confirm it is what the hydrometer shows.")
+                continue
+            if middle - sg > limits.slip_below:
+                suspects[position] = (f"{sg} is {middle - sg:.3f} below the other cells (median {middle}). "
+                                      "Fix it if it is a slip, or confirm it: a real weak cell is worth keeping.")
+                continue
+        if _in_band(sg, limits) or (middle is not None and not _in_band(middle, limits)):
+            continue
+        if limits.band_high is not None and sg > limits.band_high:
+            suspects[position] = (f"{sg} is above what this battery reads when full (over {limits.band_high}). "
+                                  "Fix it, or confirm it is what the hydrometer shows.")
+        else:
+            suspects[position] = (f"{sg} is below what this battery reads when flat (under {limits.band_low}). "
+                                  "Fix it, or confirm it is what the hydrometer shows.")
+    return suspects
+
+
+def tray_problem(sg_by_position, limits, serial=""):
+    """A message when the cells as a whole read like another battery's (above this profile's full-charge band)."""
+    filled = [Decimal(v) for v in sg_by_position.values() if v is not None]
+    if len(filled) <= limits.slip_min_others or limits.band_high is None:
+        return None
+    middle = Decimal(median(filled)).quantize(SG_PLACES)
+    if middle <= limits.band_high:
+        return None
+    return (f"The cells read about {middle}, more than {serial or 'this battery'} reads even when full "
+            f"(up to {limits.band_high}): these look like another battery's readings. Check the serial on the "
+            "tray, and the hydrometer.")
+
+
+def unconfirmed_suspects(sg_by_position, confirmed, limits):
+    """{position: why} for suspect cells that were not confirmed one by one."""
+    return {p: why for p, why in suspect_cells(sg_by_position, limits).items() if p not in set(confirmed)}
+
+
+def missing_cells_problem(filled_count, positions, reads_by_block, serial=""):
+    """A message when an all-cell reading has as many boxes filled as another usual battery has cells, or None.
+
+    Each empty box gets its own message anyway; this one says the reading may belong to another battery.
+    """
+    if filled_count == positions or filled_count not in COMMON_CELL_COUNTS:
+        return None
+    unit = "block" if reads_by_block else "cell"
+    return (f"{filled_count} {unit}s filled in, but {serial or 'this battery'} has {positions}: "
+            f"fill in every {unit}, and check that this is the right battery.")
