@@ -167,7 +167,7 @@ if FLEETCARE_BASE_URL and not FLEETCARE_BASE_URL.startswith(("http://", "https:/
     raise ImproperlyConfigured(f"FLEETCARE_BASE_URL must start with https:// (or http://), not “{FLEETCARE_BASE_URL}”.")
 
 LOGIN_URL = "/accounts/login/"
-LOGIN_REDIRECT_URL = "/"
+LOGIN_REDIRECT_URL = "/start/"
 LOGOUT_REDIRECT_URL = "/accounts/login/"
 
 AUTHENTICATION_BACKENDS = ["fleetcare.accounts.backends.ThrottledModelBackend"]

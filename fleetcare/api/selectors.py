@@ -181,20 +181,26 @@ def battery_status(battery: Battery):
 
 
 def offline_pages(user):
-    """The entry screens a tablet keeps: the find and scan pages and every active battery's reading pages."""
+    """The crew's screens a tablet keeps: today's work per site, the find and scan pages, and every active
+    battery's entry screens (all cells or block voltages, pilot cell, water and equalizing where it takes them)."""
     pages = [reverse("readings:find"), reverse("labels:scan"), reverse("tablet:offline"), reverse("tablet:outbox"),
              reverse("api:batteries")]
+    pages += [reverse("planner:today", args=[code]) for code in visible_sites(user).values_list("code", flat=True)]
     for battery in visible_batteries(user).active().select_related("profile").order_by("serial"):
         inspect = reverse("readings:inspect", args=[battery.pk])
         pages.append(inspect)
         if not battery.profile.reads_by_block:
             pages.append(f"{inspect}?scope=pilot")
+        if battery.profile.watering_allowed:
+            pages.append(reverse("readings:top_up", args=[battery.pk]))
+        if battery.profile.equalizing_allowed:
+            pages.append(reverse("planner:equalizing", args=[battery.pk]))
     return pages
 
 
 OFFLINE_ASSETS = (
     "vendor/bootstrap/bootstrap.min.css", "vendor/bootstrap/bootstrap.bundle.min.js", "css/fleetcare.css",
-    "js/entry.js", "js/offline.js", "js/scan.js", "vendor/jsqr/jsQR.js", "manifest.webmanifest", "icons/fleetcare-192.png", "icons/fleetcare-512.png",
+    "js/entry.js", "js/rules.js", "js/offline.js", "js/scan.js", "vendor/jsqr/jsQR.js", "manifest.webmanifest", "icons/fleetcare-192.png", "icons/fleetcare-512.png",
 )
 
 

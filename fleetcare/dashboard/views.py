@@ -16,6 +16,14 @@ from fleetcare.fleet.site_time import site_clock
 
 
 @role_required(CREW)
+def start(request):
+    """Where signing in lands: the crew on today's work (the site they last used), everyone else on the overview."""
+    if has_role(request.user, SUPERVISOR):
+        return redirect("dashboard:home")
+    return redirect("planner:home")
+
+
+@role_required(CREW)
 def home(request):
     scope = site_or_404(request.user, request.GET["site"]) if request.GET.get("site") else None
     sites = list(visible_sites(request.user))

@@ -7,7 +7,7 @@ from fleetcare.fleet.site_time import SiteDateTimeField
 
 from fleetcare.planner.models import EqualizingReading
 from fleetcare.planner.selectors import KINDS
-from fleetcare.readings.forms import SGField, check_temp_c, temp_label, to_celsius
+from fleetcare.readings.forms import SGField, check_temp_c, check_when, temp_label, to_celsius
 
 BIG = {"class": "form-control form-control-lg", "autocomplete": "off"}
 
@@ -22,7 +22,27 @@ def _now():
     return timezone.localtime().replace(second=0, microsecond=0)
 
 
-class StartChargeForm(forms.Form):
+class DatedForm(forms.Form):
+    """A form whose date field follows the one date rule for the battery (not ahead of now, not before service)."""
+
+    date_field = ""
+
+    def __init__(self, *args, battery=None, **kwargs):
+        self.battery = battery
+        super().__init__(*args, **kwargs)
+
+    def clean(self):
+        data = super().clean()
+        if self.battery is not None and self.date_field in data:
+            try:
+                check_when(self, self.date_field, self.battery)
+            except forms.ValidationError as exc:
+                self.add_error(self.date_field, exc)
+        return data
+
+
+class StartChargeForm(DatedForm):
+    date_field = "started_at"
     started_at = _when("Charger switched to equalizing at")
     notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2, "class": "form-control"}))
     client_uuid = forms.UUIDField(widget=forms.HiddenInput)
@@ -34,7 +54,8 @@ class StartChargeForm(forms.Form):
         super().__init__(*args, **kwargs)
 
 
-class ReadingForm(forms.Form):
+class ReadingForm(DatedForm):
+    date_field = "taken_at"
     taken_at = _when("Taken at")
     basis = forms.ChoiceField(label="Cells read", choices=EqualizingReading.Basis.choices,
                               widget=forms.Select(attrs={"class": "form-select form-select-lg"}),
@@ -62,7 +83,8 @@ class ReadingForm(forms.Form):
         return temp_c
 
 
-class EndChargeForm(forms.Form):
+class EndChargeForm(DatedForm):
+    date_field = "ended_at"
     ended_at = _when("Charger back to normal (or off) at")
     notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2, "class": "form-control"}))
 

@@ -39,6 +39,7 @@ class TodayTask:
     status: str = "to_do"
     skip_reason: str = ""
     not_planned_reason: str = ""
+    situation: str = ""  # the situation its entry screen opens with ("equalized" after an equalizing charge)
 
     @property
     def title(self):
@@ -78,9 +79,10 @@ class TodayTask:
             return reverse("planner:equalizing", args=[pk])
         if self.kind == WATER:
             return reverse("readings:top_up", args=[pk])
+        situation = f"&situation={self.situation}" if self.situation else ""
         if self.kind == PILOT:
-            return reverse("readings:inspect", args=[pk]) + "?scope=pilot&via=today"
-        return reverse("readings:inspect", args=[pk]) + "?scope=all&via=today"
+            return reverse("readings:inspect", args=[pk]) + "?scope=pilot&via=today" + situation
+        return reverse("readings:inspect", args=[pk]) + "?scope=all&via=today" + situation
 
     def sort_key(self):
         return (-self.days_overdue, -self.severity, self.start or dt.datetime.max.replace(tzinfo=dt.UTC),
@@ -133,12 +135,18 @@ def _aware(site, naive):
     return timezone.make_aware(naive, site.tzinfo)
 
 
+def read_after_equalizing(facts):
+    """True when an equalizing charge ended after the battery's last all-cell reading: read all cells, "Just equalized"."""
+    return bool(facts.equalizing_ended_at) and (
+        facts.all_cells_at is None or facts.equalizing_ended_at > facts.all_cells_at)
+
+
 def reading_tasks(facts, today):
     """(kind, due day, why) for the all-cell and pilot readings due by today (never before they are due)."""
     settings = facts.settings
     found = []
     every_all = int(settings.all_cells_every_days) or None
-    if facts.equalizing_ended_at and (facts.all_cells_at is None or facts.equalizing_ended_at > facts.all_cells_at):
+    if read_after_equalizing(facts):
         ended = timezone.localtime(facts.equalizing_ended_at, facts.battery.site.tzinfo)
         found.append((ALL_CELLS, ended.date(), f"after the equalizing charge that ended {ended:%-d %b %H:%M}: choose “Just equalized”"))
     elif facts.last_all_cells is None:
@@ -246,6 +254,9 @@ def site_days(sites, now=None):
         for facts in entry.facts.values():
             for kind, due_day, why in reading_tasks(facts, today):
                 add(kind, facts, due_day, why)
+                if kind == ALL_CELLS and read_after_equalizing(facts) and day.tasks and day.tasks[-1].kind == kind \
+                        and day.tasks[-1].battery.pk == facts.battery.pk:
+                    day.tasks[-1].situation = "equalized"
         day.tasks.sort(key=TodayTask.sort_key)
         result[site.pk] = day
     return result

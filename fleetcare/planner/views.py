@@ -15,6 +15,7 @@ from fleetcare.planner import ical, selectors, services
 from fleetcare.planner.forms import EndChargeForm, ReadingForm, SkipForm, StartChargeForm
 from fleetcare.planner.models import SiteSettings
 from fleetcare.planner.plans import PLAN_DAYS
+from fleetcare.readings import validation
 
 EQUALIZING_CAUTION = (
     "Equalizing gives off more hydrogen than any normal charge: check the room's ventilation is running before "
@@ -22,9 +23,16 @@ EQUALIZING_CAUTION = (
 )
 
 
+LAST_SITE_COOKIE = "fc_site"  # the site whose work this tablet last opened: the crew land there next time
+
+
 @role_required(CREW)
 def home(request):
     sites = list(visible_sites(request.user).order_by("name"))
+    last = request.COOKIES.get(LAST_SITE_COOKIE)
+    remembered = next((s for s in sites if s.code == last), None)
+    if remembered is not None and "choose" not in request.GET:
+        return redirect("planner:today", code=remembered.code)
     if len(sites) == 1:
         return redirect("planner:today", code=sites[0].code)
     return render(request, "planner/home.html", {"sites": sites, "supervisor": has_role(request.user, SUPERVISOR)})
@@ -35,10 +43,13 @@ def today(request, code):
     site = site_or_404(request.user, code)
     day = selectors.site_days([site])[site.pk]
     with site_clock(site):
-        return render(request, "planner/today.html", {
+        response = render(request, "planner/today.html", {
             "site": site, "day": day, "supervisor": has_role(request.user, SUPERVISOR),
             "other_sites": [s for s in visible_sites(request.user).order_by("name") if s.pk != site.pk],
         })
+    response.set_cookie(LAST_SITE_COOKIE, site.code, max_age=365 * 24 * 3600, samesite="Lax",
+                        secure=request.is_secure(), httponly=True)
+    return response
 
 
 @role_required(CREW)
@@ -127,7 +138,7 @@ def equalizing(request, pk):
         running = record["running"]
         form = StartChargeForm()
         if request.method == "POST" and running is None:
-            form = StartChargeForm(request.POST)
+            form = StartChargeForm(request.POST, battery=battery)
             if form.is_valid():
                 try:
                     services.start_charge(battery=battery, user=request.user, **form.cleaned_data)
@@ -141,6 +152,7 @@ def equalizing(request, pk):
             "running": running, "start_form": form, "reading_form": ReadingForm(site=battery.site),
             "end_form": EndChargeForm(), "levelling": _levelling(running), "caution": EQUALIZING_CAUTION,
             "closing_url": reverse("readings:inspect", args=[battery.pk]) + "?scope=all&situation=equalized",
+            "limits": validation.limits_for(battery, timezone.now()).as_json(),
             "last_ended": next((c for c in record["past"] if c.ended_at), None),
         })
 
@@ -155,7 +167,7 @@ def equalizing_reading(request, pk):
         if running is None:
             messages.error(request, "No equalizing charge is running on this battery: start one first.")
             return redirect("planner:equalizing", pk=battery.pk)
-        form = ReadingForm(request.POST, site=battery.site)
+        form = ReadingForm(request.POST, site=battery.site, battery=battery)
         if form.is_valid():
             data = form.cleaned_data
             services.add_reading(charge=running, taken_at=data["taken_at"], sg=data["sg"], temp_c=data["temp"],
@@ -166,6 +178,7 @@ def equalizing_reading(request, pk):
             "running": running, "start_form": None, "reading_form": form, "end_form": EndChargeForm(),
             "levelling": _levelling(running), "caution": EQUALIZING_CAUTION,
             "closing_url": reverse("readings:inspect", args=[battery.pk]) + "?scope=all&situation=equalized",
+            "limits": validation.limits_for(battery, timezone.now()).as_json(),
         }, status=400)
 
 
@@ -177,9 +190,10 @@ def equalizing_end(request, pk):
         running = selectors.equalizing_record(battery)["running"]
         if running is None:
             return redirect("planner:equalizing", pk=battery.pk)
-        form = EndChargeForm(request.POST)
+        form = EndChargeForm(request.POST, battery=battery)
         if not form.is_valid():
-            messages.error(request, "Enter when the equalizing charge ended.")
+            problems = [m for field in form.errors.values() for m in field]
+            messages.error(request, " ".join(problems) or "Enter when the equalizing charge ended.")
             return redirect("planner:equalizing", pk=battery.pk)
         services.end_charge(charge=running, ended_at=form.cleaned_data["ended_at"], notes=form.cleaned_data["notes"])
         messages.success(request, f"Equalizing charge on {battery.serial} ended. Now read all cells: choose "

@@ -100,7 +100,7 @@ class InspectionForm(forms.Form):
         self.fields["taken_at"].zone = battery
         self.fields["taken_at"].help_text = f"{self.site.name} time ({site_time.zone_of(battery).key})"
         self.limits = validation.limits_for(battery, timezone.now())
-        self.fields["temp"].label = f"Electrolyte temperature ({temp_label(self.site)})"
+        self.fields["temp"].label = f"{self.temp_word} ({temp_label(self.site)})"
         self.fields["temp"].widget.attrs["autofocus"] = True
         if not self.profile.is_flooded:
             del self.fields["hydrometer_compensated"]
@@ -141,9 +141,14 @@ class InspectionForm(forms.Form):
     def header_fields(self):
         return [self[name] for name in ("situation", "taken_at", "temp", "hydrometer_compensated", "hours_since_charge") if name in self.fields]
 
+    @property
+    def temp_word(self):
+        """Sealed blocks have no electrolyte to reach: their temperature is the block's."""
+        return "Electrolyte temperature" if self.profile.is_flooded else "Block temperature"
+
     def clean_temp(self):
         temp_c = to_celsius(self.cleaned_data.get("temp"), self.site)
-        message = check_temp_c(temp_c, self.site)
+        message = validation.temp_problem(temp_c, self.site.temp_unit == Site.TempUnit.FAHRENHEIT, self.temp_word)
         if message:
             raise forms.ValidationError(message)
         return temp_c

@@ -14,21 +14,13 @@ from decimal import Decimal, InvalidOperation
 from statistics import median
 
 from fleetcare import chemistry
+from fleetcare.policy_layers import Setting
 
 SG_LOW, SG_HIGH = Decimal("1.000"), Decimal("1.350")
 TEMP_LOW_C, TEMP_HIGH_C = Decimal("-30"), Decimal("70")
 SG_PLACES = Decimal("0.001")
 # Fewest other cells the median of the tray is taken over before a cell is judged against it.
 SLIP_MIN_OTHER_CELLS = 3
-
-
-@dataclass(frozen=True)
-class Setting:
-    name: str
-    label: str
-    default: Decimal
-    unit: str
-    source: str
 
 
 SETTINGS = (
@@ -46,7 +38,8 @@ SETTINGS = (
             "FleetCare default: the nameplate's discharged and full-charge SG (field notes: about 1.100-1.150 "
             "and 1.280-1.300) with room for temperature (0.0007 per °C, common practice) and hydrometer error"),
     Setting("future_minutes", "a reading may be dated ahead of now by at most", Decimal("10"), "minutes",
-            "FleetCare default: room for a tablet clock a few minutes fast, none for a wrong day or year"),
+            "FleetCare default: room for a tablet clock a few minutes fast, none for a wrong day or year",
+            integer=True),
 )
 BY_NAME = {s.name: s for s in SETTINGS}
 EARLIEST_WHEN_UNKNOWN = dt.date(2000, 1, 1)
@@ -71,7 +64,7 @@ def parse_sg(text):
     return sg, None
 
 
-def temp_problem(temp_c, fahrenheit=False):
+def temp_problem(temp_c, fahrenheit=False, label="Electrolyte temperature"):
     """A message when an electrolyte temperature (°C) is outside what can be read, else None."""
     if temp_c is None:
         return None
@@ -82,8 +75,8 @@ def temp_problem(temp_c, fahrenheit=False):
     if inside:
         return None
     if fahrenheit:
-        return "Electrolyte temperature must be between −22 and 158 °F."
-    return "Electrolyte temperature must be between −30 and 70 °C."
+        return f"{label} must be between −22 and 158 °F."
+    return f"{label} must be between −30 and 70 °C."
 
 
 def volts_band(profile):
@@ -250,11 +243,11 @@ def suspect_cells(sg_by_position, limits):
         if len(others) >= limits.slip_min_others:
             if sg - middle > limits.slip_above:
                 suspects[position] = (f"{sg} is {sg - middle:.3f} above the other cells (median {middle}). "
-                                      "A typing slip? Fix it, or confirm it is what the hydrometer shows.")
+                                      "A slip? Fix it, or confirm it.")
                 continue
             if middle - sg > limits.slip_below:
                 suspects[position] = (f"{sg} is {middle - sg:.3f} below the other cells (median {middle}). "
-                                      "Fix it if it is a slip, or confirm it: a real weak cell is worth keeping.")
+                                      "Fix a slip, or confirm a weak cell.")
                 continue
         if _in_band(sg, limits) or (middle is not None and not _in_band(middle, limits)):
             continue

@@ -30,15 +30,18 @@ def find_battery(request):
     action = request.GET.get("then", "inspect")
     matches = []
     if query:
+        batteries = visible_batteries(request.user).active()
+        if action == "water":
+            batteries = batteries.filter(profile__watering_allowed=True)  # sealed blocks are never watered
         matches = list(
-            visible_batteries(request.user).active().filter(
+            batteries.filter(
                 Q(serial__icontains=query)
                 | Q(fittings__vehicle__asset_number__icontains=query, fittings__removed_at__isnull=True)
             ).select_related("profile", "site").distinct()[:25]
         )
         if len(matches) == 1:
             if action == "water":
-                return redirect("readings:top_up", pk=matches[0].pk)
+                return redirect(reverse("readings:top_up", args=[matches[0].pk]) + "?via=search")
             return redirect(reverse("readings:inspect", args=[matches[0].pk]) + "?via=search")
     return render(request, "readings/find.html", {"query": query, "matches": matches, "then": action})
 
@@ -68,6 +71,8 @@ def inspect(request, pk):
             "battery": battery, "profile": battery.profile, "form": form, "scope": scope,
             "chosen_via": Inspection.chosen_on_tablet(request.POST.get("chosen_via") or request.GET.get("via")),
             "tray_columns": selectors.tray_columns(battery.profile.positions),
+            "by_search": (request.POST.get("chosen_via") or request.GET.get("via")) == "search",
+            "fitting": battery.current_fitting(),
         })
 
 
@@ -186,6 +191,9 @@ def remove_top_up(request, pk):
 @require_http_methods(["GET", "POST"])
 def top_up(request, pk):
     battery = battery_or_404(request.user, pk)
+    if not battery.profile.watering_allowed:
+        messages.info(request, f"{battery.serial} has sealed blocks: they are never watered. Read the block voltages instead.")
+        return redirect("readings:inspect", pk=battery.pk)
     if request.method == "POST":
         form = TopUpForm(request.POST, battery=battery)
         if form.is_valid():
@@ -201,7 +209,10 @@ def top_up(request, pk):
     else:
         form = TopUpForm(battery=battery)
     with site_clock(battery):
-        return render(request, "readings/top_up.html", {"battery": battery, "form": form})
+        return render(request, "readings/top_up.html", {
+            "battery": battery, "form": form, "by_search": request.GET.get("via") == "search",
+            "fitting": battery.current_fitting(),
+        })
 
 
 @role_required(CREW)

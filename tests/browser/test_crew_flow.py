@@ -19,10 +19,9 @@ POINTS[16] = "275"
 def test_it_logs_a_24_cell_inspection_from_the_keyboard_alone(tablet, crew, battery):
     page = tablet
     sign_in(page, "crew1")
-    page.get_by_role("heading", name="Fleet overview").wait_for()
-    screenshot(page, "crew-1-overview")
-
-    page.get_by_role("link", name="Today's work").first.click()
+    # Crew land on today's work; with two sites and none opened yet on this tablet, they pick one.
+    page.get_by_role("heading", name="Today's work").wait_for()
+    screenshot(page, "crew-1-start")
     page.get_by_role("link", name="Test warehouse").click()
     page.get_by_role("heading", name="Today's work · Test warehouse").wait_for()
     # the planner's list for today: TW-001 has no all-cell reading on record, so reading it is due
@@ -62,8 +61,8 @@ def test_it_logs_a_24_cell_inspection_from_the_keyboard_alone(tablet, crew, batt
     assert "Weak cell" in findings and "cell 9" in findings
     assert "equalizing" in findings.lower()
 
-    page.get_by_role("link", name="Today's work").first.click()
-    page.get_by_role("link", name="Test warehouse").click()
+    page.get_by_role("link", name="Today's work").first.click()  # the tablet remembers the site
+    page.get_by_role("heading", name="Today's work · Test warehouse").wait_for()
     done = page.locator("h2:has-text('Done today') + ul").inner_text()
     assert "All cells read" in done and "TW-001" in done and "crew1" in done
     screenshot(page, "crew-5-today-done")

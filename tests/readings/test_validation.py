@@ -128,3 +128,58 @@ def test_the_limits_reach_the_page_as_data(crew_client, battery):
     html = crew_client.get(reverse("readings:inspect", args=[battery.pk])).content.decode()
     assert '<script id="fc-limits" type="application/json">' in html
     assert '"slipAbove": 0.02' in html and '"bandHigh": 1.32' in html
+
+
+# ---- Property tests: crafted dates and numbers on the form and the API never give a 500 and store nothing.
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+PROPERTY = settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+offsets = st.sampled_from(["", "Z", "+05:00", "-05:00", "+14:00", "-12:00"])
+absurd_moments = st.one_of(
+    st.datetimes(min_value=dt.datetime(1, 1, 1), max_value=dt.datetime(2023, 12, 31)),  # before service
+    st.datetimes(min_value=dt.datetime(2027, 1, 1), max_value=dt.datetime(9999, 12, 31, 23, 59)),  # ahead
+)
+crafted_numbers = st.one_of(
+    st.sampled_from(["NaN", "-Infinity", "1e400", "0x1F", "١٢٦٥", "1_265", "２６５", "-265", "12655", "1.2.6"]),
+    st.floats(allow_nan=True, allow_infinity=True).map(str),
+    st.integers(min_value=-10**30, max_value=10**30).map(str),
+)
+
+
+@PROPERTY
+@given(moment=absurd_moments, offset=offsets)
+def test_absurd_dates_never_store_and_never_fail(crew_client, battery, moment, offset):
+    stamp = moment.strftime("%Y-%m-%dT%H:%M").rjust(16, "0") + offset
+    response = crew_client.post(reverse("readings:inspect", args=[battery.pk]), form_post(["281"] * 24, taken_at=stamp))
+    assert response.status_code == 200 and response.context["form"].errors["taken_at"]
+    body = {"client_uuid": str(uuid.uuid4()), "situation": "charged", "taken_at": stamp, "temp": "25",
+            "cells": [{"position": p, "sg": "281"} for p in range(1, 25)]}
+    response = post_json(crew_client, f"/api/batteries/{battery.pk}/inspections", body)
+    assert response.status_code == 422 and response.json()["errors"]["taken_at"]
+    assert Inspection.objects.count() == 0
+
+
+@PROPERTY
+@given(text=crafted_numbers, position=st.integers(min_value=1, max_value=24), where=st.sampled_from(["sg", "temp"]))
+def test_crafted_numbers_get_a_message_never_a_500(crew_client, battery, text, position, where):
+    points = ["281"] * 24
+    extra = {}
+    if where == "sg":
+        points[position - 1] = text
+    else:
+        extra["temp"] = text
+    before = Inspection.objects.count()  # examples share the database: valid ones are stored
+    response = crew_client.post(reverse("readings:inspect", args=[battery.pk]), form_post(points, **extra))
+    cells = [{"position": p, "sg": v} for p, v in enumerate(points, start=1)]
+    body = {"client_uuid": str(uuid.uuid4()), "situation": "charged", "taken_at": "2026-11-30T06:15",
+            "temp": extra.get("temp", "25"), "cells": cells}
+    api = post_json(crew_client, f"/api/batteries/{battery.pk}/inspections", body)
+    if response.status_code == 302:  # the text happened to be a valid reading ("-265"-like texts are not)
+        assert api.status_code == 201
+        return
+    assert response.status_code == 200
+    errors = response.context["form"].errors
+    assert errors and all(errors.values())
+    assert api.status_code == 422 and api.json()["errors"]
+    assert Inspection.objects.count() == before

@@ -4,11 +4,14 @@
 // except the battery list the offline page shows.
 "use strict";
 
-var PAGES = "fleetcare-pages-v1";
-var ASSETS = "fleetcare-assets-v1";
+var PAGES = "fleetcare-pages-v2";
+var ASSETS = "fleetcare-assets-v2";
 var OFFLINE_PAGE = "/api/offline/";
 var BATTERY_LIST = "/api/batteries";
-var KEPT_PAGES = [/^\/readings\/find\/$/, /^\/labels\/scan\/$/, /^\/readings\/battery\/\d+\/inspect\/$/, /^\/api\/offline\/$/, /^\/api\/outbox\/$/];
+// The crew's screens: today's work, find, all cells / pilot cell / block voltages, water, equalizing.
+var KEPT_PAGES = [/^\/readings\/find\/$/, /^\/labels\/scan\/$/, /^\/readings\/battery\/\d+\/inspect\/$/, /^\/readings\/battery\/\d+\/water\/$/,
+                  /^\/planner\/battery\/\d+\/equalizing\/$/, /^\/planner\/[\w-]+\/today\/$/,
+                  /^\/api\/offline\/$/, /^\/api\/outbox\/$/];
 
 self.addEventListener("install", function (event) {
   event.waitUntil(caches.open(PAGES).then(function (cache) {
@@ -97,6 +100,14 @@ function pageFromNetwork(request) {
   }).catch(function () {
     return caches.open(PAGES).then(function (cache) {
       return cache.match(url.href, {ignoreVary: true}).then(function (hit) {
+        // A task's link carries the situation (?scope=all&situation=equalized): the kept page for that
+        // scope stands in, and the entry screen picks the situation from the address itself.
+        if (hit || !url.search || !/^\/readings\/battery\/\d+\/inspect\/$/.test(url.pathname)) return hit;
+        var scope = url.searchParams.get("scope");
+        var plain = url.origin + url.pathname;
+        var scoped = scope === "pilot" ? cache.match(plain + "?scope=pilot", {ignoreVary: true}) : Promise.resolve();
+        return scoped.then(function (page) { return page || cache.match(plain, {ignoreVary: true}); });
+      }).then(function (hit) {
         if (hit) return hit;
         if (request.mode !== "navigate") return Response.error();
         return cache.match(OFFLINE_PAGE, {ignoreVary: true}).then(function (page) { return page || Response.error(); });

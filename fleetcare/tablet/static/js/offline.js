@@ -141,17 +141,39 @@
   }
 
   // ---- Sending what waits. -----------------------------------------------------------------------
+  function sendForm(item, token) {
+    // An equalizing record: the page's own form, posted as the page would have posted it.
+    var body = new URLSearchParams();
+    item.fields.forEach(function (pair) { body.append(pair[0], pair[1]); });
+    body.append("csrfmiddlewaretoken", token);
+    return fetch(item.api, {method: "POST", credentials: "same-origin", body: body}).then(function (response) {
+      if (response.ok && response.redirected && !isSignIn(response.url)) return {status: 201, answer: {}};
+      if (response.redirected && isSignIn(response.url)) return {status: 401, answer: {}};
+      if (response.status >= 500) return {status: response.status, answer: {}};
+      return {status: 422, answer: {detail: "FleetCare did not take it: open it to see why, then save it again."}};
+    });
+  }
+
+  function isSignIn(url) { return new URL(url, location.href).pathname.indexOf("/accounts/login") === 0; }
+
   function sendOne(item) {
     var token = cookie("csrftoken") || item.csrf || "";
-    return fetch(item.api, {
+    var sent = item.kind === "form" ? sendForm(item, token) : fetch(item.api, {
       method: "POST", credentials: "same-origin",
       headers: {"Content-Type": "application/json", "Accept": "application/json", "X-CSRFToken": token},
       body: JSON.stringify(item.body)
     }).then(function (response) {
       return response.json().catch(function () { return {}; }).then(function (answer) {
+        return {status: response.status, answer: answer};
+      });
+    });
+    return sent.then(function (result) {
+      var response = {status: result.status};
+      var answer = result.answer;
+      return Promise.resolve().then(function () {
         if (response.status === 201 || response.status === 200) {
           return deleteItem(item.client_uuid).then(function () {
-            say("Sent: the " + item.serial + " reading taken " + item.body.taken_at.replace("T", " ") + " is stored.", "success");
+            say("Sent: the " + item.serial + " " + whatOf(item) + " of " + whenOf(item) + " is stored.", "success");
           });
         }
         if (response.status === 401) {
@@ -164,7 +186,7 @@
           item.detail = answer.detail || ("Refused (" + response.status + ").");
           item.errors = answer.errors || {};
           return putItem(item).then(function () {
-            say("FleetCare refused the " + item.serial + " reading: " + item.detail + " Open “refused: needs you” to correct it.", "danger");
+            say("FleetCare refused the " + item.serial + " " + whatOf(item) + ": " + item.detail + " Open “refused: needs you” to correct it.", "danger");
           });
         }
         item.detail = "The server could not take it just now (" + response.status + "); it will try again.";
@@ -210,9 +232,10 @@
     if (badge && Number(badge.dataset.waiting || 0) > 0) sendWaiting();
   }, RETRY_MS);
 
-  // ---- The reading form. -------------------------------------------------------------------------
-  function collect(form) {
-    var data = new FormData(form);
+  // ---- The entry forms: readings, water, equalizing. -----------------------------------------------
+  var WHAT = {inspection: "reading", top_up: "water top-up", form: "equalizing record"};
+
+  function collectInspection(form, data) {
     var body = {
       client_uuid: data.get("client_uuid"), situation: data.get("situation"), scope: data.get("scope") || "all",
       taken_at: data.get("taken_at") || "", temp: blank(data.get("temp")),
@@ -226,41 +249,65 @@
         body.cells.push({position: position, volts: blank(input.value)});
       } else {
         var low = form.elements["low_" + position];
-        body.cells.push({position: position, sg: blank(input.value), low: !!(low && low.checked)});
+        var confirm = form.elements["confirm_" + position];
+        body.cells.push({position: position, sg: blank(input.value), low: !!(low && low.checked),
+                         confirmed: !!(confirm && confirm.checked)});
       }
     });
+    return body;
+  }
+
+  function collectTopUp(data) {
+    return {
+      client_uuid: data.get("client_uuid"), done_at: data.get("done_at") || "", volume: blank(data.get("volume")) || "",
+      per_cell: data.get("per_cell") !== null, before_charge: data.get("before_charge") !== null,
+      water_type: data.get("water_type") || "distilled", notes: data.get("notes") || ""
+    };
+  }
+
+  function collect(form) {
+    var data = new FormData(form);
+    var kind = form.dataset.offlineKind || "inspection";
     var fields = [];
     data.forEach(function (value, name) { if (name !== "csrfmiddlewaretoken") fields.push([name, value]); });
+    var body = kind === "inspection" ? collectInspection(form, data) : kind === "top_up" ? collectTopUp(data) : null;
+    var when = data.get("taken_at") || data.get("done_at") || data.get("started_at") || data.get("ended_at") || "";
     return {
-      client_uuid: body.client_uuid, kind: "inspection", api: form.dataset.offlineApi, serial: form.dataset.serial,
+      client_uuid: data.get("client_uuid") || newUuid(), kind: kind, api: form.dataset.offlineApi,
+      serial: form.dataset.serial, what: form.dataset.offlineWhat || WHAT[kind], when: String(when),
       page: location.pathname + location.search, body: body, fields: fields, state: "waiting", detail: "",
       errors: {}, csrf: data.get("csrfmiddlewaretoken") || "", saved_at: new Date().toISOString(), user: config.user || ""
     };
   }
 
+  function whenOf(item) { return String(item.when || (item.body && item.body.taken_at) || "").replace("T", " "); }
+  function whatOf(item) { return item.what || "reading"; }
+
   function clearForNext(form) {
     form.querySelectorAll("input[data-position]").forEach(function (input) {
       input.value = "";
       var cell = input.closest(".tray-cell");
-      if (cell) cell.classList.remove("is-filled", "has-error");
+      if (cell) cell.classList.remove("is-filled", "has-error", "is-suspect");
     });
-    form.querySelectorAll("input[name^=low_]").forEach(function (box) { box.checked = false; });
-    if (form.elements.notes) form.elements.notes.value = "";
-    if (form.elements.taken_at) form.elements.taken_at.value = localNow();
-    form.elements.client_uuid.value = newUuid();
+    form.querySelectorAll(".confirm-toggle").forEach(function (toggle) { toggle.hidden = true; });
+    form.querySelectorAll(".fc-cell-messages").forEach(function (node) { node.textContent = ""; });
+    form.querySelectorAll("input[name^=low_], input[name^=confirm_]").forEach(function (box) { box.checked = false; });
+    ["notes", "volume", "sg", "volts"].forEach(function (name) { if (form.elements[name]) form.elements[name].value = ""; });
+    form.querySelectorAll("input[type=datetime-local]").forEach(function (input) { input.value = localNow(); });
+    if (form.elements.client_uuid) form.elements.client_uuid.value = newUuid();
     clearErrors(form);
     if (location.hash) history.replaceState(null, "", location.pathname + location.search);
   }
 
   function keepForLater(form, item) {
     return putItem(item).then(function () {
-      say("No connection: the " + item.serial + " reading is kept on this tablet and waiting to send. " +
+      say("No connection: the " + item.serial + " " + whatOf(item) + " is kept on this tablet and waiting to send. " +
           "It will be sent by itself when the connection returns.", "warning");
       clearForNext(form);
       window.scrollTo(0, 0);
       return refreshIndicator();
     }).catch(function () {
-      say("No connection, and this browser cannot keep the reading. Do not close this page: save again when the connection returns.", "danger");
+      say("No connection, and this browser cannot keep it. Do not close this page: save again when the connection returns.", "danger");
     });
   }
 
@@ -288,12 +335,12 @@
       }
     });
     var box = el("div", {"class": "alert alert-danger fc-kept-error", role: "alert", id: "fc-refused"});
-    box.appendChild(el("strong", {}, "FleetCare refused this reading when it was sent: " + (item.detail || "") + " "));
+    box.appendChild(el("strong", {}, "FleetCare refused this when it was sent: " + (item.detail || "") + " "));
     general.forEach(function (m) { box.appendChild(el("div", {}, m)); });
     box.appendChild(el("div", {}, "Correct it and save again, or discard it."));
     var discard = el("button", {type: "button", "class": "btn btn-outline-danger mt-2"}, "Discard this reading");
     discard.addEventListener("click", function () {
-      if (!confirm("Discard the " + item.serial + " reading? It was never stored and cannot be brought back.")) return;
+      if (!confirm("Discard the " + item.serial + " " + whatOf(item) + "? It was never stored and cannot be brought back.")) return;
       deleteItem(item.client_uuid).then(function () { clearForNext(form); refreshIndicator(); });
     });
     box.appendChild(discard);
@@ -322,7 +369,7 @@
     var hasErrors = form.querySelector(".is-invalid, .has-error, .alert-danger");
     var match = /^#resume=([0-9a-f-]{36})$/.exec(location.hash);
     if (match) resume(form, match[1]);
-    else if (!hasErrors) form.elements.client_uuid.value = newUuid();  // a kept copy of the page must not reuse one
+    else if (!hasErrors && form.elements.client_uuid) form.elements.client_uuid.value = newUuid();  // a kept copy must not reuse one
 
     form.addEventListener("submit", function (event) {
       event.preventDefault();
@@ -351,7 +398,7 @@
     document.getElementById("outbox-empty").hidden = items.length > 0;
     items.forEach(function (item) {
       var row = el("div", {"class": "list-group-item py-3", "data-uuid": item.client_uuid, "data-state": item.state});
-      row.appendChild(el("div", {"class": "fw-semibold"}, item.serial + " · reading taken " + item.body.taken_at.replace("T", " ")));
+      row.appendChild(el("div", {"class": "fw-semibold"}, item.serial + " · " + whatOf(item) + " of " + whenOf(item)));
       var refused = item.state === "rejected";
       var state = refused ? "Refused: " + item.detail : "Waiting to send." + (item.detail ? " " + item.detail : "");
       if (!mine(item)) state = "Taken by " + item.user + ": it is sent when " + item.user + " signs in on this tablet.";
@@ -373,7 +420,7 @@
         actions.appendChild(retry);
         var discard = el("button", {type: "button", "class": "btn btn-outline-danger"}, "Discard");
         discard.addEventListener("click", function () {
-          if (!confirm("Discard the " + item.serial + " reading? It was never stored and cannot be brought back.")) return;
+          if (!confirm("Discard the " + item.serial + " " + whatOf(item) + "? It was never stored and cannot be brought back.")) return;
           deleteItem(item.client_uuid).then(refreshIndicator);
         });
         actions.appendChild(discard);
@@ -410,8 +457,7 @@
   }
 
   document.addEventListener("DOMContentLoaded", function () {
-    var form = document.querySelector("form[data-offline-api]");
-    if (form) hookForm(form);
+    document.querySelectorAll("form[data-offline-api]").forEach(hookForm);
     var sendNow = document.getElementById("outbox-send-now");
     if (sendNow) sendNow.addEventListener("click", sendWaiting);
     offlineBatteries();
