@@ -17,6 +17,8 @@ from fleetcare.care import policy as care_policy
 from fleetcare.care.models import Policy as CarePolicy
 from fleetcare.planner import policy as planner_policy
 from fleetcare.planner.models import Policy as PlannerPolicy
+from fleetcare.readings import validation as entry_validation
+from fleetcare.readings.models import EntryPolicy
 
 
 @dataclass(frozen=True)
@@ -31,6 +33,7 @@ GROUPS = (
     Group("findings", "Findings", care_policy.THRESHOLDS, CarePolicy),
     Group("planning", "Planning", planner_policy.SETTINGS, PlannerPolicy),
     Group("budget", "Replacement budget", budget_policy.SETTINGS, BudgetPolicy),
+    Group("entry", "Reading entry", entry_validation.SETTINGS, EntryPolicy),
 )
 BY_KEY = {g.key: g for g in GROUPS}
 SCOPES = (("profile", "this battery profile, every site"), ("site", "this site, every profile"),
@@ -38,7 +41,7 @@ SCOPES = (("profile", "this battery profile, every site"), ("site", "this site, 
 
 
 def settings_in_force(site, profile):
-    """[{"group": Group, "rows": [...]}] for a battery of `profile` at `site`: three queries, one per table."""
+    """[{"group": Group, "rows": [...]}] for a battery of `profile` at `site`: one query per table."""
     out = []
     for group in GROUPS:
         policies = list(group.model.objects.filter(Q(site=site) | Q(site__isnull=True),

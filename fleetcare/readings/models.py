@@ -7,8 +7,11 @@ import uuid
 
 from django.conf import settings
 from django.db import models
+from django.db.models import Q
 
-from fleetcare.fleet.models import Battery
+from fleetcare import policy_layers
+from fleetcare.fleet.models import Battery, BatteryProfile, Site
+from fleetcare.readings.validation import SETTINGS as ENTRY_SETTINGS
 
 
 class InspectionQuerySet(models.QuerySet):
@@ -276,3 +279,33 @@ class CsvImport(models.Model):
     @property
     def finished(self):
         return self.state in (self.State.DONE, self.State.FAILED)
+
+
+class EntryPolicy(models.Model):
+    """Overrides of the reading-entry limits (fleetcare.readings.validation.SETTINGS): built-in default, then the
+    profile's row, then the site's, then site and profile. Blank means 'inherit'."""
+
+    profile = models.ForeignKey(BatteryProfile, on_delete=models.CASCADE, null=True, blank=True,
+                                related_name="entry_policies")
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, null=True, blank=True, related_name="entry_policies")
+    note = models.CharField(max_length=200, blank=True, help_text="Why these values (maker's manual, site rule, ...).")
+
+    class Meta:
+        verbose_name = "reading entry policy"
+        verbose_name_plural = "reading entry policies"
+        constraints = [
+            models.CheckConstraint(condition=Q(profile__isnull=False) | Q(site__isnull=False),
+                                   name="entry_policy_has_scope"),
+            models.UniqueConstraint(fields=["profile"], condition=Q(site__isnull=True),
+                                    name="one_entry_policy_per_profile"),
+            models.UniqueConstraint(fields=["site"], condition=Q(profile__isnull=True),
+                                    name="one_entry_policy_per_site"),
+            models.UniqueConstraint(fields=["site", "profile"], name="one_entry_policy_per_site_profile"),
+        ]
+
+    def __str__(self):
+        return policy_layers.scope_label(self)
+
+
+for _setting in ENTRY_SETTINGS:
+    EntryPolicy.add_to_class(_setting.name, policy_layers.model_field(_setting, max_digits=6, decimal_places=3))

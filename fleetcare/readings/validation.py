@@ -13,7 +13,9 @@ from dataclasses import dataclass
 from decimal import Decimal, InvalidOperation
 from statistics import median
 
-from fleetcare import chemistry
+from django.db.models import Q as models_q
+
+from fleetcare import chemistry, policy_layers
 from fleetcare.policy_layers import Setting
 
 SG_LOW, SG_HIGH = Decimal("1.000"), Decimal("1.350")
@@ -201,9 +203,24 @@ class Limits:
         }
 
 
+def settings_for(battery, policies=None):
+    """{name: Decimal} in force for `battery`: defaults, then EntryPolicy rows (profile < site < site and profile).
+
+    Pass `policies` (a list of EntryPolicy rows loaded once) when judging many batteries, as the CSV import does.
+    """
+    from fleetcare.readings.models import EntryPolicy  # the models module imports this one for SETTINGS
+
+    if policies is None:
+        policies = list(EntryPolicy.objects.filter(
+            models_q(site_id=battery.site_id) | models_q(site__isnull=True),
+            models_q(profile_id=battery.profile_id) | models_q(profile__isnull=True)))
+    values = policy_layers.resolve_values(SETTINGS, battery.site_id, battery.profile_id, policies)
+    return {name: value.value for name, value in values.items()}
+
+
 def limits_for(battery, now, values=None):
-    """The limits for one battery; `values` overrides the declared defaults by setting name."""
-    settings = {**setting_defaults(), **(values or {})}
+    """The limits for one battery: `values` ({name: Decimal}) or else the settings in force for it."""
+    settings = {**setting_defaults(), **(settings_for(battery) if values is None else values)}
     profile = battery.profile
     margin = settings["plausible_band_margin_sg"]
     band_low = profile.discharged_sg - margin if profile.discharged_sg is not None else None

@@ -11,6 +11,7 @@ from fleetcare.care import policy as care_policy
 from fleetcare.care.models import Policy as CarePolicy
 from fleetcare.planner import policy as planner_policy
 from fleetcare.planner.models import Policy as PlannerPolicy
+from fleetcare.readings import validation as entry_validation
 from tests.conftest import make_user
 
 
@@ -32,7 +33,8 @@ def test_it_shows_every_declared_setting_with_its_default_and_source(client, sup
     response = page(client, site, battery.profile)
     assert response.status_code == 200
     keys = {r["key"] for g in response.context["groups"] for r in g["rows"]}
-    assert len(keys) == len(care_policy.THRESHOLDS) + len(planner_policy.SETTINGS) + len(budget_policy.SETTINGS)
+    assert len(keys) == (len(care_policy.THRESHOLDS) + len(planner_policy.SETTINGS) + len(budget_policy.SETTINGS)
+                         + len(entry_validation.SETTINGS))
     watering = row(response, "findings:watering_interval_days")
     assert watering["value"].value == Decimal("14") and watering["value"].is_default
     body = response.content.decode()
