@@ -156,7 +156,7 @@ def test_nothing_scrolls_sideways_on_the_crew_screens(device, battery, sealed_ba
     for path in [f"/planner/{site.code}/today/", "/readings/find/", f"/readings/battery/{battery.pk}/inspect/",
                  f"/readings/battery/{battery.pk}/inspect/?scope=pilot", f"/readings/battery/{battery.pk}/water/",
                  f"/planner/battery/{battery.pk}/equalizing/", f"/readings/battery/{sealed_battery.pk}/inspect/",
-                 "/api/outbox/"]:
+                 "/readings/find/?q=FL-01", "/readings/find/?q=TR-P01", "/api/outbox/"]:
         page.goto(path)
         wide = page.evaluate("() => document.documentElement.scrollWidth - document.documentElement.clientWidth")
         screenshot(page, f"entry-layout-{path.strip('/').replace('/', '-').replace('?', '-')}-{page.viewport_name}")
