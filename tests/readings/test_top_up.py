@@ -34,8 +34,9 @@ def test_us_fluid_ounces_are_converted(crew_client, battery):
 
 
 def test_a_sealed_battery_cannot_be_watered(crew_client, sealed_battery):
-    response = crew_client.post(reverse("readings:top_up", args=[sealed_battery.pk]), data())
-    assert "sealed" in response.content.decode()
+    response = crew_client.post(reverse("readings:top_up", args=[sealed_battery.pk]), data(), follow=True)
+    assert "TR-P01 has sealed blocks: they are never watered." in response.content.decode()
+    assert response.redirect_chain == [(reverse("readings:inspect", args=[sealed_battery.pk]), 302)]
     assert WaterTopUp.objects.count() == 0
 
 
