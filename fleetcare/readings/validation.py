@@ -55,6 +55,8 @@ def setting_defaults():
 
 def parse_sg(text):
     """(SG as Decimal to 0.001, None) or (None, message) for what the crew typed in one SG box."""
+    if not str(text).isascii():  # "١٢٦٥" or "２６５": digits a tablet keyboard does not type; the API refuses them too
+        return None, f"{text!s} is not a number typed with 0-9. Enter a specific gravity such as 1.265 or 265."
     try:
         sg = Decimal(str(chemistry.parse_sg(text))).quantize(SG_PLACES)
     except ValueError as exc:
