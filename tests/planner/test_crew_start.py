@@ -32,7 +32,7 @@ def test_reading_all_cells_after_equalizing_opens_with_just_equalized(crew_clien
     EqualizingCharge.objects.create(battery=battery, started_at=ended - dt.timedelta(hours=3), ended_at=ended,
                                     by=crew)
     html = crew_client.get(reverse("planner:today", args=[site.code])).content.decode()
-    assert f"/readings/battery/{battery.pk}/inspect/?scope=all&amp;situation=equalized" in html
+    assert f"/readings/battery/{battery.pk}/inspect/?scope=all&amp;via=today&amp;situation=equalized" in html
 
 
 def test_sealed_batteries_have_no_water_screen_and_no_water_search(crew_client, sealed_battery):
