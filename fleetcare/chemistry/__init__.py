@@ -10,10 +10,11 @@ from .open_circuit import (
 )
 from .specific_gravity import SgStats, corrected_sg, parse_sg, sg_stats, soc_from_sg
 from .units import c_to_f, f_to_c, litres_to_us_fl_oz, us_fl_oz_to_litres
-from .ventilation import natural_ventilation_opening_cm2, ventilation_airflow_m3h
+from .ventilation import VENTILATION_SOURCE, natural_ventilation_opening_cm2, ventilation_airflow_m3h
 
 __all__ = [
     "TECHNOLOGIES",
+    "VENTILATION_SOURCE",
     "SgStats",
     "c_to_f",
     "corrected_sg",

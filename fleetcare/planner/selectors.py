@@ -8,6 +8,7 @@ from django.db.models import Q
 from django.urls import reverse
 from django.utils import timezone
 
+from fleetcare import chemistry
 from fleetcare.fleet import site_units
 from fleetcare.fleet.access import visible_sites
 from fleetcare.fleet.models import Battery, Site
@@ -334,6 +335,20 @@ def site_plan(site, now=None):
     return entry, plans_for([entry], now=now)[site.pk]
 
 
+def room_peak(room_id, room, entry, plan):
+    """The room's worst planned moment over the whole plan: airflow needed then, and the natural-ventilation
+    opening that airflow calls for (inlet and outlet each)."""
+    equalizing = defaultdict(float)
+    for t in plan.tasks:
+        if t.kind == planning.EQUALIZE and t.room_id == room_id and t.battery_id in entry.facts:
+            equalizing[t.start] += entry.facts[t.battery_id].equalize_airflow_m3h
+    start = max(equalizing, key=equalizing.get, default=None)
+    airflow = room.baseline_airflow_m3h + (equalizing[start] if start is not None else 0.0)
+    return {"start": start, "airflow_m3h": airflow,
+            "opening_cm2": chemistry.natural_ventilation_opening_cm2(max(0.0, airflow)),
+            "source": chemistry.VENTILATION_SOURCE}
+
+
 def week_view(site, week=0, now=None):
     """A site's plan for one week per charging room: days x shift windows, with chargers and airflow used."""
     entry, plan = site_plan(site, now)
@@ -365,7 +380,7 @@ def week_view(site, week=0, now=None):
             warning = (f"Only {free:.0f} m³/h is left beyond normal charging; one equalizing charge needs "
                        f"{smallest:.0f} m³/h more: none can be planned here.")
         rooms.append({"facts": room, "rows": rows, "warning": warning, "free_airflow": free,
-                      "battery_count": len(members)})
+                      "battery_count": len(members), "peak": room_peak(room_id, room, entry, plan)})
     waterings = defaultdict(int)
     for t in plan.tasks:
         if t.kind == solver.WATER:

@@ -1,31 +1,42 @@
 import pytest
 
 from fleetcare.chemistry import natural_ventilation_opening_cm2, ventilation_airflow_m3h
+from fleetcare.chemistry.ventilation import SUPERSEDED_AIRFLOW_M3_PER_AH_PER_CELL
 
 
-def test_it_sizes_airflow_for_a_48v_620ah_battery_on_iu_charge():
-    # Hand computed: v*q*s = 24 * 0.42e-3 * 5 = 0.0504; Q = 0.0504 * 24 cells * 2 A/100Ah * 620 Ah / 100
-    # = 14.99904 m3/h (IEC/EN 62485-3 as reproduced in the field notes; I_gas 2 for vented cells, IU).
-    assert ventilation_airflow_m3h(24, 2, 620) == pytest.approx(14.99904)
+def test_it_sizes_airflow_for_a_48v_620ah_battery_on_iu_charge_at_the_current_factor():
+    # IEC/EN 62485-3, gas at 25 °C (ZVEI information leaflet No. 14, May 2020): Q = 0.055 m³/Ah × n × I_gas.
+    # I_gas 2 A per 100 Ah for vented cells on IU charging (2.4 V/cell limit) on 620 Ah = 12.4 A;
+    # Q = 0.055 × 24 cells × 12.4 A = 16.368 m³/h.
+    assert ventilation_airflow_m3h(24, 2, 620) == pytest.approx(16.368)
 
 
-def test_it_matches_the_rounded_0_05_form_of_the_standard():
-    # Q = 0.05 * n * I_gas * C / 100 (field notes); 0.0504 rounds to 0.05.
-    assert ventilation_airflow_m3h(24, 2, 620) == pytest.approx(0.05 * 24 * 2 * 620 / 100, rel=0.01)
+def test_an_80v_battery_of_40_cells_needs_its_worked_airflow():
+    # The leaflet's n: 40 cells for an 80 V battery. 775 Ah on IU charging: I_gas = 2 × 775 / 100 = 15.5 A;
+    # Q = 0.055 × 40 × 15.5 = 34.1 m³/h; natural ventilation needs 28 × 34.1 = 954.8 cm² inlet and outlet.
+    airflow = ventilation_airflow_m3h(40, 2, 775)
+    assert airflow == pytest.approx(34.1)
+    assert natural_ventilation_opening_cm2(airflow) == pytest.approx(954.8)
 
 
-def test_the_zvei_25_c_form_differs_only_by_the_gas_temperature():
-    # ZVEI leaflet No. 14 on DIN EN 62485-3: Q = 0.055 m3/Ah * n * I_gas (A), gas at 25 °C (field notes).
-    # 2 A/100Ah on 620 Ah = 12.4 A; 0.055 * 24 * 12.4 = 16.368 m3/h.
-    zvei_m3h = 0.055 * 24 * (2 * 620 / 100)
-    assert zvei_m3h == pytest.approx(16.368)
-    # Ratio 1.09127 vs 298.15/273.15 = 1.09152; 0.055 is itself rounded from 0.05496.
-    assert zvei_m3h / ventilation_airflow_m3h(24, 2, 620) == pytest.approx(298.15 / 273.15, rel=0.001)
+def test_a_24v_battery_of_12_cells_on_a_taper_charger():
+    # n = 12 for 24 V (leaflet), taper (W) charging up to I_gas 7 per 100 Ah (field notes' table), 375 Ah:
+    # I_gas = 26.25 A; Q = 0.055 × 12 × 26.25 = 17.325 m³/h.
+    assert ventilation_airflow_m3h(12, 7, 375) == pytest.approx(17.325)
+
+
+def test_it_gives_about_10_percent_more_air_than_the_superseded_factor():
+    # EN 50272-3:2002 gave 0.05 (hydrogen at 0 °C); the ratio 1.1 is close to 298.15 / 273.15 = 1.0915.
+    superseded = SUPERSEDED_AIRFLOW_M3_PER_AH_PER_CELL * 24 * 2 * 620 / 100
+    assert superseded == pytest.approx(14.88)
+    assert ventilation_airflow_m3h(24, 2, 620) / superseded == pytest.approx(1.1)
+    assert ventilation_airflow_m3h(24, 2, 620) / superseded == pytest.approx(298.15 / 273.15, rel=0.01)
 
 
 def test_natural_ventilation_needs_28_cm2_per_m3h():
-    # A = 28 * Q cm2 for each of inlet and outlet (field notes): 28 * 14.99904 = 419.97 cm2.
-    assert natural_ventilation_opening_cm2(14.99904) == pytest.approx(419.97312)
+    # A = 28 × Q cm² for each of inlet and outlet (IEC/EN 62485-3 as reproduced in the field notes):
+    # 28 × 16.368 = 458.304 cm².
+    assert natural_ventilation_opening_cm2(16.368) == pytest.approx(458.304)
 
 
 def test_equalizing_gas_raises_the_airflow_in_proportion():

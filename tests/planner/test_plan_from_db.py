@@ -121,22 +121,23 @@ def test_charges_come_from_logged_post_charge_readings_else_the_site_setting(war
 
 
 def test_room_airflow_follows_iec_62485_3(warehouse):
-    # 24 cells, 775 Ah; Q = 0.05 n I_gas C/100 (24 x 0.42e-3 x 5 = 0.0504): normal charge at I_gas 2 = 18.75 m³/h;
-    # equalizing at I_gas 7 adds 5 A/100 Ah = 46.87 m³/h (IEC/EN 62485-3 as reproduced; field notes)
+    # 24 cells, 775 Ah; Q = 0.055 n I_gas C/100 (IEC/EN 62485-3, gas at 25 °C; ZVEI leaflet No. 14, 2020):
+    # normal charge at I_gas 2 = 0.055 x 24 x 15.5 A = 20.46 m³/h; equalizing at I_gas 7 adds 5 A/100 Ah
+    # = 0.055 x 24 x 38.75 A = 51.15 m³/h
     entry = planner_inputs.build([warehouse["site"]], dt.datetime.now(dt.UTC), 7)[warehouse["site"].pk]
     room = entry.inputs.rooms[0]
-    assert room.baseline_airflow_m3h == pytest.approx(4 * 18.7488, abs=0.01)  # four chargers, the largest trays
-    assert entry.inputs.batteries[0].airflow_m3h == pytest.approx(46.872, abs=0.01)
+    assert room.baseline_airflow_m3h == pytest.approx(4 * 20.46, abs=0.01)  # four chargers, the largest trays
+    assert entry.inputs.batteries[0].airflow_m3h == pytest.approx(51.15, abs=0.01)
     RoomSettings.objects.create(room=warehouse["room"], charging_at_once=2)
     entry = planner_inputs.build([warehouse["site"]], dt.datetime.now(dt.UTC), 7)[warehouse["site"].pk]
-    assert entry.inputs.rooms[0].baseline_airflow_m3h == pytest.approx(2 * 18.7488, abs=0.01)
+    assert entry.inputs.rooms[0].baseline_airflow_m3h == pytest.approx(2 * 20.46, abs=0.01)
     RoomSettings.objects.filter(room=warehouse["room"]).update(baseline_airflow_m3h=Decimal(100))
     entry = planner_inputs.build([warehouse["site"]], dt.datetime.now(dt.UTC), 7)[warehouse["site"].pk]
     assert entry.inputs.rooms[0].baseline_airflow_m3h == 100
 
 
 def test_a_room_whose_normal_charging_fills_its_ventilation_plans_no_equalizing(warehouse, now):
-    warehouse["room"].airflow_m3h = Decimal(70)  # four trays on normal charge need 75 m³/h
+    warehouse["room"].airflow_m3h = Decimal(70)  # four trays on normal charge need 82 m³/h
     warehouse["room"].save()
     _entry, plan = build(warehouse["site"], now, days=7)
     assert equalizing(plan) == []
