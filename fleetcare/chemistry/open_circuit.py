@@ -1,5 +1,7 @@
 """Rested open-circuit voltage: SG <-> OCV, state of charge from voltage, plausible readings."""
 
+from .specific_gravity import soc_from_sg
+
 CELLS_PER_12V_BLOCK = 6
 OCV_MINUS_SG_V = 0.84
 
@@ -44,12 +46,17 @@ def _check(cells, technology):
         raise ValueError("A battery has at least one cell.")
 
 
-def soc_from_ocv(volts, cells, technology):
-    """State of charge in percent from the rested voltage across `cells` cells, interpolated and clamped 0-100.
+def soc_from_ocv(volts, cells, technology, full_charge_sg=None, discharged_sg=None):
+    """State of charge in percent from the rested voltage across `cells` cells, clamped 0-100.
 
-    Source: flooded: battery-council 12 V table 12.65/12.45/12.24/12.06/11.9 V (from memory); AGM, gel: from memory, maker data rules.
+    A flooded battery whose full-charge and discharged SG are known reads through its own acid: the SG
+    implied by the volts per cell (OCV - 0.84), placed between those two SGs. Otherwise the fixed 12 V
+    table, which belongs to a 1.265 full-charge battery, interpolated.
+    Source: OCV = SG + 0.84 V per cell (common practice, checked against Bode 1977) and SG linear in state of charge (common practice); table: flooded battery-council 12 V 12.65/12.45/12.24/12.06/11.9 V (from memory); AGM, gel: from memory, maker data rules.
     """
     _check(cells, technology)
+    if technology == "flooded" and full_charge_sg is not None and discharged_sg is not None:
+        return soc_from_sg(sg_from_ocv_per_cell(volts / cells), full_charge_sg, discharged_sg)
     table = REST_VOLTS_12V[technology]
     volts_12v = volts / cells * CELLS_PER_12V_BLOCK
     if volts_12v <= table[0][0]:

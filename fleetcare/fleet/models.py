@@ -141,7 +141,11 @@ class BatteryProfile(models.Model):
     capacity_hour_rate = models.PositiveSmallIntegerField("capacity hour rate", default=5, help_text="Hours, e.g. 5 for C5.")
     full_charge_sg = models.DecimalField("full-charge SG", max_digits=5, decimal_places=3, null=True, blank=True)
     discharged_sg = models.DecimalField("discharged SG", max_digits=5, decimal_places=3, null=True, blank=True)
-    sg_reference_temp_c = models.DecimalField("SG reference temperature (°C)", max_digits=4, decimal_places=1, default=Decimal("25.0"))
+    sg_reference_temp_c = models.DecimalField(
+        "SG reference temperature (°C)", max_digits=4, decimal_places=1, default=Decimal("25.0"),
+        help_text="The temperature the nameplate's SG figures are stated at: often 30 °C on European traction "
+                  "trays, 25 °C or 26.7 °C (80 °F) in US practice. Readings are corrected to it.",
+    )
     sg_coefficient_per_c = models.DecimalField("SG correction per °C", max_digits=6, decimal_places=5, default=Decimal("0.00070"))
     ocv_rest_hours = models.DecimalField(
         "rest before an OCV reading counts (h)", max_digits=4, decimal_places=1, default=Decimal("4.0"),

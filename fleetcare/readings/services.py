@@ -27,6 +27,10 @@ def _q(value, places):
     return None if value is None else Decimal(str(value)).quantize(places, rounding=ROUND_HALF_UP)
 
 
+def _float(value):
+    return None if value is None else float(value)
+
+
 def corrected_cell_sg(profile, sg, temp_c, compensated):
     """The SG a cell would read at the profile's reference temperature."""
     if sg is None:
@@ -74,9 +78,10 @@ def summarise(inspection, cells):
         inspection.volts_total = _q(sum(volts), Decimal("0.01"))
         if inspection.soc_percent is None and is_rested(inspection, profile):
             cells_read = profile.cells_per_block * len(volts) if profile.reads_by_block else len(volts)
-            inspection.soc_percent = _q(
-                chemistry.soc_from_ocv(float(inspection.volts_total), cells_read, profile.technology), SOC_PLACES
-            )
+            inspection.soc_percent = _q(chemistry.soc_from_ocv(
+                float(inspection.volts_total), cells_read, profile.technology,
+                full_charge_sg=_float(profile.full_charge_sg), discharged_sg=_float(profile.discharged_sg),
+            ), SOC_PLACES)
             inspection.soc_basis = "ocv"
     return inspection
 

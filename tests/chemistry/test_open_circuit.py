@@ -140,6 +140,32 @@ def test_it_clamps_beyond_the_table():
     assert soc_from_ocv(10.5, 6, "flooded") == 0.0
 
 
+def test_a_1_290_tray_at_half_charge_reads_half_through_its_own_acid():
+    # Full 1.290, discharged 1.140 (a common motive nameplate): half charge is SG 1.215, which rests at
+    # 1.215 + 0.84 = 2.055 V per cell (rule of thumb, common practice) = 12.33 V per six cells.
+    volts_12v = 6 * ocv_per_cell_from_sg(1.215)
+    assert volts_12v == pytest.approx(12.33)
+    assert soc_from_ocv(volts_12v, 6, "flooded", full_charge_sg=1.290, discharged_sg=1.140) == pytest.approx(50.0)
+    # The fixed table (a 1.265 battery) puts 12.33 V between 12.24 V (50 %) and 12.45 V (75 %):
+    # 50 + 25 x 0.09 / 0.21 = 60.7 %, the error the profile's SG removes.
+    assert soc_from_ocv(volts_12v, 6, "flooded") == pytest.approx(60.71, abs=0.01)
+
+
+def test_full_charge_voltage_follows_the_full_charge_sg():
+    # 1.265 full: 2.105 V per cell, 12.63 V per block, reads full; a 1.290 battery at the same 12.63 V is
+    # at SG 1.265, (1.265 - 1.140) / (1.290 - 1.140) = 83.3 %. Full, the 1.290 battery rests
+    # 6 x 0.025 = 0.15 V higher per 12 V block (field notes, "Measuring well").
+    assert soc_from_ocv(12.63, 6, "flooded", full_charge_sg=1.265, discharged_sg=1.115) == pytest.approx(100.0)
+    assert soc_from_ocv(12.63, 6, "flooded", full_charge_sg=1.290, discharged_sg=1.140) == pytest.approx(83.33, abs=0.01)
+    assert 6 * ocv_per_cell_from_sg(1.290) - 6 * ocv_per_cell_from_sg(1.265) == pytest.approx(0.15)
+    # 48 V tray of 24 cells at 50.4 V = 2.100 V per cell: SG 1.260 = 80 % of the way from 1.140 to 1.290
+    assert soc_from_ocv(50.4, 24, "flooded", full_charge_sg=1.290, discharged_sg=1.140) == pytest.approx(80.0)
+
+
+def test_sealed_blocks_ignore_sg_and_keep_their_table():
+    assert soc_from_ocv(12.30, 6, "agm", full_charge_sg=1.290, discharged_sg=1.140) == pytest.approx(50.0)
+
+
 def test_sealed_blocks_rest_higher_when_full():
     # AGM and gel rest at about 12.8-12.9 V when full (field notes; from memory).
     for technology in ("agm", "gel"):
