@@ -32,6 +32,7 @@ class Finding(models.Model):
         HIGH_SPREAD = "high_spread", "High spread: equalizing charge needed"
         SULFATION = "sulfation", "Suspected sulfation"
         DEEP_DISCHARGE = "deep_discharge", "Deep discharge"
+        LEFT_DISCHARGED = "left_discharged", "Left discharged: charge now"
         LOW_LEVEL = "low_level", "Low electrolyte level"
         WATERING_OVERDUE = "watering_overdue", "Watering overdue"
         HIGH_WATER_USE = "high_water_use", "High water use (overcharge)"

@@ -19,6 +19,18 @@ THRESHOLDS = (
     Threshold("unserviceable_cell_gap_sg", "unserviceable: any two cells apart on a fully charged battery",
               Decimal("0.025"), "SG", "US Army TM 9-6140-200-14 (from memory of its text)"),
     Threshold("equalize_spread_sg", "equalizing needed: post-charge spread over", Decimal("0.020"), "SG", COMMON),
+    Threshold("sg_resolution", "hydrometer: resolution and reading error", Decimal("0.005"), "SG",
+              "common practice (field notes, \"Measuring well\"): float hydrometers are graduated every 0.005 and a "
+              "careful reading is good to about ±0.005; digital hydrometers and refractometers 0.001"),
+    Threshold("spread_readings_in_a_row", "spread: post-charge readings in a row over the limit plus one resolution",
+              Decimal("2"), "readings",
+              "FleetCare default: one reading is not evidence; a spread over the limit plus twice the resolution "
+              "counts at once", integer=True),
+    Threshold("cell_gap_rule_max_cells", "any-two-cells rule: batteries of at most this many cells (0 = off)",
+              Decimal("6"), "cells",
+              "FleetCare default: the 0.025 rule comes from a manual on charged vehicle batteries of a few cells "
+              "(US Army TM 9-6140-200-14, from memory); on larger trays the below-the-mean rule applies",
+              integer=True),
     Threshold("sulfation_below_full_sg", "sulfation: mean below the full-charge SG by more than", Decimal("0.030"),
               "SG", "FleetCare default from the field notes' failing-cell band (common practice)"),
     Threshold("sulfation_inspections", "sulfation: consecutive post-charge inspections short", Decimal("2"),
@@ -31,6 +43,9 @@ THRESHOLDS = (
               "US Army TM 5-1185 series: stored wet batteries need a charge every 30 days (from memory)", integer=True),
     Threshold("deep_discharge_soc_percent", "deep discharge: state of charge under", Decimal("20"), "%",
               "common practice: no more than 80 % depth of discharge (field notes)"),
+    Threshold("left_discharged_soc_percent", "left discharged: found at rest under this state of charge",
+              Decimal("50"), "%", "common practice (field notes, \"Measuring well\"): a battery or chair pair at rest under "
+              "about 50 % (about 12.2 V per 12 V block) must be charged at once"),
     Threshold("event_window_days", "deep discharge and early watering: events count for", Decimal("30"), "days",
               "FleetCare default: a month of events, so one slip does not stay on the list", integer=True),
     Threshold("watering_interval_days", "watering: longest interval between top-ups", Decimal("14"), "days",

@@ -53,11 +53,12 @@ class Reading:
     sg_spread: object
     lowest_position: object
     soc_percent: object
+    volts_total: object
     has_low_level: bool = False
     cells: tuple = ()
 
     FIELDS = ("pk", "battery_id", "taken_at", "situation", "scope", "hours_since_charge", "sg_mean", "sg_min",
-              "sg_max", "sg_spread", "lowest_position", "soc_percent")
+              "sg_max", "sg_spread", "lowest_position", "soc_percent", "volts_total")
 
 
 @dataclass
@@ -141,25 +142,38 @@ def _cell_values(inspection):
     return [(c.position, c.sg_corrected) for c in inspection.cells if c.sg_corrected is not None]
 
 
-def weak_cells(inspection, policy):
-    """Cells judged weak on one post-charge inspection: {position: reasons}, plus the figures used."""
+def gap_rule_applies(policy, cell_count):
+    """The any-two-cells rule comes from a manual about vehicle batteries of a few cells: it applies only to
+    batteries of at most the set number of cells (0 turns it off)."""
+    limit = int(policy.cell_gap_rule_max_cells)
+    return 0 < cell_count <= limit
+
+
+def weak_cells(inspection, policy, cell_count=None):
+    """Cells judged weak on one post-charge inspection: {position: reasons}, plus the figures used.
+
+    Each comparison allows for the hydrometer: a cell against the others' mean must be below by more than
+    the threshold plus one resolution; two cells apart by more than the gap plus two (each reading may be
+    off by one resolution)."""
     values = _cell_values(inspection)
     if len(values) < 2:
         return {}, []
     total = sum(sg for _, sg in values)
     highest = max(sg for _, sg in values)
     equalized = inspection.situation == "equalized"
+    resolution = policy.sg_resolution
+    gap_rule = gap_rule_applies(policy, cell_count if cell_count is not None else len(values))
     flagged, rows = {}, []
     for position, sg in values:
         others_mean = (total - sg) / (len(values) - 1)
         below = others_mean - sg
         below_highest = highest - sg
         reasons = []
-        if below > policy.weak_cell_below_mean_sg:
+        if chemistry.beyond_resolution(below, policy.weak_cell_below_mean_sg, resolution):
             reasons.append("weak")
-        if equalized and below > policy.failing_cell_after_equalize_sg:
+        if equalized and chemistry.beyond_resolution(below, policy.failing_cell_after_equalize_sg, resolution):
             reasons.append("failing")
-        if below_highest > policy.unserviceable_cell_gap_sg:
+        if gap_rule and chemistry.beyond_resolution(below_highest, policy.unserviceable_cell_gap_sg, resolution, 2):
             reasons.append("apart")
         if reasons:
             flagged[position] = reasons
@@ -175,10 +189,11 @@ def weak_cell(data):
     if not data.profile.is_flooded or not data.post_charge:
         return None
     latest = data.post_charge[0]
-    flagged, rows = weak_cells(latest, data.policy)
+    cell_count = data.profile.cell_count
+    flagged, rows = weak_cells(latest, data.policy, cell_count)
     if not flagged:
         return None
-    previous = weak_cells(data.post_charge[1], data.policy)[0] if len(data.post_charge) > 1 else {}
+    previous = weak_cells(data.post_charge[1], data.policy, cell_count)[0] if len(data.post_charge) > 1 else {}
     persistent = bool(set(flagged) & set(previous))
     failing = any("failing" in r for r in flagged.values())
     positions = sorted(flagged)
@@ -191,8 +206,10 @@ def weak_cell(data):
         summary += f" ({wording.FAILING_AFTER_EQUALIZING})"
     if persistent:
         summary += f"; {wording.LOW_ON_CONSECUTIVE}"
-    thresholds = [data.policy.evidence("weak_cell_below_mean_sg"), data.policy.evidence("failing_cell_after_equalize_sg"),
-                  data.policy.evidence("unserviceable_cell_gap_sg")]
+    thresholds = [data.policy.evidence("weak_cell_below_mean_sg"), data.policy.evidence("failing_cell_after_equalize_sg")]
+    if gap_rule_applies(data.policy, cell_count):
+        thresholds.append(data.policy.evidence("unserviceable_cell_gap_sg"))
+    thresholds += [data.policy.evidence("sg_resolution"), data.policy.evidence("cell_gap_rule_max_cells")]
     if failing:
         next_step = ("The cell is failing: arrange for it to be replaced (a motive tray can take a single new cell) "
                      "and read all cells again after the next charge.")
@@ -208,12 +225,28 @@ def weak_cell(data):
     return Detected(
         kind="weak_cell", severity=3 if failing else 2, summary=summary,
         rule=("On a just-charged or just-equalized battery, a cell whose corrected SG is below the mean of the "
-              "other cells by more than the weak-cell threshold (more than the failing threshold after equalizing), "
-              "or more than the unserviceable gap below the highest cell."),
+              "other cells by more than the weak-cell threshold plus the hydrometer's resolution (the failing threshold "
+              "after equalizing), or, on batteries of a few cells, more than the unserviceable gap plus twice the "
+              "resolution below the highest cell."),
         readings=[dict(_inspection_ref(latest), cells=rows, sg_mean=_f(latest.sg_mean), sg_max=_f(latest.sg_max))],
         thresholds=thresholds, next_step=next_step, caution=caution, positions=positions,
         persistent=persistent, inspection=latest,
     )
+
+
+def spread_is_high(post_charge, policy):
+    """(high, persistent): the latest spread is over the limit plus twice the resolution (each end of a spread
+    may be off by one), or the last `spread_readings_in_a_row` post-charge spreads are all over the limit plus
+    one resolution. One reading within what the hydrometer can show is not evidence."""
+    if not post_charge or post_charge[0].sg_spread is None:
+        return False, False
+    limit, resolution = policy.equalize_spread_sg, policy.sg_resolution
+    needed = max(1, int(policy.spread_readings_in_a_row))
+    run = post_charge[:needed]
+    in_a_row = len(run) == needed and all(
+        i.sg_spread is not None and chemistry.beyond_resolution(i.sg_spread, limit, resolution) for i in run)
+    at_once = chemistry.beyond_resolution(post_charge[0].sg_spread, limit, resolution, 2)
+    return at_once or in_a_row, in_a_row and needed > 1
 
 
 def high_spread(data):
@@ -221,12 +254,12 @@ def high_spread(data):
         return None
     latest = data.post_charge[0]
     limit = data.policy.equalize_spread_sg
-    if latest.sg_spread is None or latest.sg_spread <= limit:
+    high, persistent = spread_is_high(data.post_charge, data.policy)
+    if not high:
         return None
-    previous = data.post_charge[1] if len(data.post_charge) > 1 else None
-    persistent = previous is not None and previous.sg_spread is not None and previous.sg_spread > limit
+    shown = max(2, int(data.policy.spread_readings_in_a_row))
     readings = [dict(_inspection_ref(i), sg_spread=_f(i.sg_spread), sg_min=_f(i.sg_min), sg_max=_f(i.sg_max),
-                     lowest_cell=i.lowest_position) for i in data.post_charge[:2]]
+                     lowest_cell=i.lowest_position) for i in data.post_charge[:shown]]
     if data.profile.equalizing_allowed:
         next_step = "Give an equalizing charge (the care planner schedules it), then read all cells again."
         caution = EQUALIZE_CAUTION
@@ -235,10 +268,13 @@ def high_spread(data):
         caution = ""
     return Detected(
         kind="high_spread", severity=2,
-        summary=(f"Spread {_points(latest.sg_spread)} points after charging (limit {_points(limit)}): "
-                 "an equalizing charge is due"),
-        rule="After a charge, the spread between the highest and lowest corrected cell SG is over the equalizing threshold.",
-        readings=readings, thresholds=[data.policy.evidence("equalize_spread_sg")], next_step=next_step,
+        summary=(f"Spread {_points(latest.sg_spread)} points after charging (limit {_points(limit)}"
+                 f"{', on consecutive readings' if persistent else ''}): an equalizing charge is due"),
+        rule=("After a charge, the spread between the highest and lowest corrected cell SG is over the equalizing "
+              "threshold by more than the hydrometer can show: over the threshold plus one resolution on the set "
+              "number of post-charge readings in a row, or plus twice the resolution on one."),
+        readings=readings, thresholds=[data.policy.evidence("equalize_spread_sg"), data.policy.evidence("sg_resolution"),
+                                       data.policy.evidence("spread_readings_in_a_row")], next_step=next_step,
         caution=caution, positions=[latest.lowest_position] if latest.lowest_position else [],
         persistent=persistent, inspection=latest,
     )
@@ -342,8 +378,7 @@ def deep_discharge_events(data, since=None):
     for inspection in data.recent:
         if inspection.taken_at < since:
             break
-        if (inspection.situation in ("in_use", "before_charge") and inspection.soc_percent is not None
-                and inspection.soc_percent < data.policy.deep_discharge_soc_percent):
+        if inspection.soc_percent is not None and inspection.soc_percent < data.policy.deep_discharge_soc_percent:
             fitting = vehicle_at(data.fittings, inspection.taken_at)
             events.append({
                 "inspection": inspection, "fitting": fitting,
@@ -368,16 +403,51 @@ def deep_discharge(data):
         kind="deep_discharge", severity=2,
         summary=(f"{len(events)} deep discharge{'s' if len(events) != 1 else ''} in {window} days, lowest "
                  f"{lowest.soc_percent:.0f} % state of charge ({trucks})"),
-        rule="An in-use or before-charge reading under the deep-discharge state of charge (80 % depth of discharge).",
+        rule=("Any reading (in use, before charge or at rest) under the deep-discharge state of charge "
+              "(80 % depth of discharge)."),
         readings=[dict(_inspection_ref(e["inspection"]), soc_percent=_f(e["inspection"].soc_percent, 1),
                        vehicle=e["vehicle"].asset_number if e["vehicle"] else None, shift=e["shift"]) for e in events],
         thresholds=[data.policy.evidence("deep_discharge_soc_percent"), data.policy.evidence("event_window_days")],
-        next_step=("Ask the truck's operators to change batteries before the state of charge drops under "
-                   f"{data.policy.deep_discharge_soc_percent:.0f} %; check the battery rotation for that truck and shift. "
-                   "Repeated deep discharge shortens battery life."),
+        next_step=(("Charge the chair or scooter every night, and ask its user or carers to put it on charge as soon "
+                    "as it shows low. " if data.profile.application == "mobility" else
+                    "Ask the truck's operators to change batteries before the state of charge drops under "
+                    f"{data.policy.deep_discharge_soc_percent:.0f} %; check the battery rotation for that truck and shift. ")
+                   + "Repeated deep discharge shortens battery life."),
         inspection=events[0]["inspection"],
         facts={"event_count": len(events),
                "by_truck": [{"vehicle": a, "shift": s, "events": n} for (a, s), n in sorted(by_truck.items())]},
+    )
+
+
+def left_discharged(data):
+    """The latest reading with a state of charge was taken at rest and shows the battery under the limit,
+    and no charge is logged since: a battery (or chair pair) left standing discharged sulfates within days."""
+    latest = next((i for i in data.recent if i.soc_percent is not None), None)
+    if latest is None or not is_rested(latest, data.profile):
+        return None
+    limit = data.policy.left_discharged_soc_percent
+    if latest.soc_percent >= limit:
+        return None
+    if data.last_charge_at is not None and data.last_charge_at > latest.taken_at:
+        return None
+    chair = data.profile.application == "mobility"
+    what = "chair or scooter pair" if chair else "battery"
+    return Detected(
+        kind="left_discharged", severity=3 if chair else 2,
+        summary=(f"Left discharged: found at rest at {latest.soc_percent:.0f} % state of charge "
+                 f"(limit {limit:.0f} %): charge now"),
+        rule=("A reading taken at rest (off charge and load) under the left-discharged state of charge, with no charge "
+              "logged since. Lead-acid batteries left partly discharged sulfate within days."),
+        readings=[dict(_inspection_ref(latest), soc_percent=_f(latest.soc_percent, 1),
+                       volts_total=_f(latest.volts_total, 2),
+                       last_charge_at=_when(data.last_charge_at))],
+        thresholds=[data.policy.evidence("left_discharged_soc_percent")],
+        next_step=(f"Put the {what} on charge now and let it charge fully (do not stop the charge early), then read it "
+                   "again after the rest time. If it will not come back above half charge, book a capacity test."
+                   + (" Ask the user or carers to charge it every night." if chair else "")),
+        caution=("Charge in a ventilated place away from flames and sparks; switch the charger off before "
+                 "disconnecting. Follow the battery maker's instructions."),
+        inspection=latest,
     )
 
 
@@ -614,7 +684,7 @@ def ageing(data):
     )
 
 
-RULES = (weak_cell, high_spread, sulfation, deep_discharge, low_level, watering_overdue, high_water_use,
+RULES = (weak_cell, high_spread, sulfation, deep_discharge, left_discharged, low_level, watering_overdue, high_water_use,
          water_before_charge, weak_block, ageing)
 
 

@@ -1,6 +1,7 @@
 """Lead-acid battery science for FleetCare: plain functions, units in the names, no Django."""
 
 from .electrolysis import electrolysis_hydrogen_l, electrolysis_water_g
+from .measurement import beyond_resolution
 from .open_circuit import (
     TECHNOLOGIES,
     ocv_per_cell_from_sg,
@@ -16,6 +17,7 @@ __all__ = [
     "TECHNOLOGIES",
     "VENTILATION_SOURCE",
     "SgStats",
+    "beyond_resolution",
     "c_to_f",
     "corrected_sg",
     "electrolysis_hydrogen_l",

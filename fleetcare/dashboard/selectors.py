@@ -374,7 +374,7 @@ def deep_discharge_limits():
 
 
 def deep_discharge_by_truck_and_shift(batteries, since):
-    """{(asset number, shift): events}: readings in use or before charge under the deep-discharge limit,
+    """{(asset number, shift): events}: readings (any situation) under the deep-discharge limit,
     each counted against the truck and shift the battery was fitted to when it was read (the latest
     fitting that covers it).
 
@@ -389,7 +389,6 @@ def deep_discharge_by_truck_and_shift(batteries, since):
             under,
             battery__in=batteries,
             taken_at__gte=since,
-            situation__in=(Inspection.Situation.IN_USE, Inspection.Situation.BEFORE_CHARGE),
         )
         .order_by()
     )

@@ -105,14 +105,13 @@ class Inspection(models.Model):
                 condition=models.Q(is_current=True, deleted_at__isnull=True, situation__in=["charged", "equalized"]),
                 name="inspection_post_charge_time",
             ),
-            # Readings low enough to count as deep discharge (the default limit is 20 %; a site may raise it
-            # up to 30 % and still be served from here), read from the index alone on PostgreSQL.
+            # Readings low enough to count as deep discharge, in any situation (the default limit is 20 %; a
+            # site may raise it up to 30 % and still be served from here), read from the index alone on PostgreSQL.
             models.Index(
                 fields=["battery", "taken_at"],
                 include=["soc_percent"],
                 condition=models.Q(
-                    is_current=True, deleted_at__isnull=True, situation__in=["in_use", "before_charge"],
-                    soc_percent__lt=30,
+                    is_current=True, deleted_at__isnull=True, soc_percent__lt=30,
                 ),
                 name="inspection_low_charge_time",
             ),

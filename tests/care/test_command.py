@@ -21,7 +21,7 @@ def run(*args):
 @pytest.fixture
 def troubled(battery, sealed_battery, crew, watered):
     recently = timezone.now() - dt.timedelta(hours=6)
-    inspect(battery, crew, recently, cells=sgs(low={9: "1.250"}))
+    inspect(battery, crew, recently, cells=sgs(low={9: "1.245"}))
     inspect(sealed_battery, crew, recently, situation="rested", volts={1: "12.80", 2: "12.55"},
             hours_since_charge=Decimal("12"))
 
@@ -38,7 +38,7 @@ def test_it_prints_every_open_finding_as_json(troubled):
         "value": "0.030", "unit": "SG", "source": "common practice (field notes)", "default": "0.030",
         "default_source": "common practice (field notes)",
     }
-    assert weak["evidence"]["readings"][0]["cells"][0]["sg_corrected"] == 1.25
+    assert weak["evidence"]["readings"][0]["cells"][0]["sg_corrected"] == 1.245
     block = by_kind[("TR-P01", "weak_block")]
     assert block["positions"] == [2] and block["position_kind"] == "block"
 

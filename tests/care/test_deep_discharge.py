@@ -1,4 +1,4 @@
-"""Deep discharge: in-use or before-charge readings under 20 % state of charge, counted per battery and truck."""
+"""Deep discharge: readings in any situation under 20 % state of charge, counted per battery and truck."""
 import datetime as dt
 from decimal import Decimal
 
@@ -30,9 +30,10 @@ def test_exactly_twenty_percent_is_a_near_miss(battery, crew, watered, now):
     assert detect(battery, now) == []
 
 
-def test_a_rested_reading_is_not_a_discharge_event(battery, crew, watered, now):
+def test_a_rested_reading_under_twenty_percent_is_a_discharge_event_too(battery, crew, watered, now):
+    # Field notes, "Measuring well": any reading under 20 %, at rest, before charge or in use, is a deep discharge.
     pilot(battery, crew, now - DAY, "1.160", situation="rested")
-    assert "deep_discharge" not in kinds(detect(battery, now))
+    assert one(detect(battery, now), "deep_discharge").evidence["event_count"] == 1
 
 
 def test_events_older_than_the_window_clear_it(battery, crew, watered, now):

@@ -12,7 +12,7 @@ DAY = dt.timedelta(days=1)
 
 
 def test_running_detection_again_never_duplicates_an_open_finding(battery, crew, watered, now):
-    inspect(battery, crew, now - DAY, cells=sgs(low={9: "1.250"}))
+    inspect(battery, crew, now - DAY, cells=sgs(low={9: "1.245"}))
     first = one(detect(battery, now), "weak_cell")
     second = one(detect(battery, now + dt.timedelta(hours=1)), "weak_cell")
     assert second.pk == first.pk
@@ -22,7 +22,7 @@ def test_running_detection_again_never_duplicates_an_open_finding(battery, crew,
 
 
 def test_it_clears_itself_when_a_later_inspection_no_longer_shows_it(battery, crew, watered, now):
-    inspect(battery, crew, now - 2 * DAY, cells=sgs(low={9: "1.250"}))
+    inspect(battery, crew, now - 2 * DAY, cells=sgs(low={9: "1.245"}))
     finding = one(detect(battery, now - DAY), "weak_cell")
     inspect(battery, crew, now - dt.timedelta(hours=3), situation="equalized", cells=sgs())
     assert detect(battery, now) == []
@@ -31,11 +31,11 @@ def test_it_clears_itself_when_a_later_inspection_no_longer_shows_it(battery, cr
 
 
 def test_a_fault_that_returns_opens_a_new_finding_and_keeps_the_old_one(battery, crew, watered, now):
-    inspect(battery, crew, now - 3 * DAY, cells=sgs(low={9: "1.250"}))
+    inspect(battery, crew, now - 3 * DAY, cells=sgs(low={9: "1.245"}))
     old = one(detect(battery, now - 3 * DAY), "weak_cell")
     inspect(battery, crew, now - 2 * DAY, cells=sgs())
     detect(battery, now - 2 * DAY)
-    inspect(battery, crew, now - DAY, cells=sgs(low={9: "1.249"}))
+    inspect(battery, crew, now - DAY, cells=sgs(low={9: "1.244"}))
     new = one(detect(battery, now), "weak_cell")
     assert new.pk != old.pk
     states = dict(Finding.objects.filter(battery=battery, kind="weak_cell").values_list("pk", "state"))
@@ -43,7 +43,7 @@ def test_a_fault_that_returns_opens_a_new_finding_and_keeps_the_old_one(battery,
 
 
 def test_an_acknowledged_finding_stays_acknowledged_then_clears(battery, crew, supervisor, watered, now):
-    inspect(battery, crew, now - 2 * DAY, cells=sgs(low={9: "1.250"}))
+    inspect(battery, crew, now - 2 * DAY, cells=sgs(low={9: "1.245"}))
     finding = one(detect(battery, now - DAY), "weak_cell")
     acknowledge(finding, supervisor, "Equalizing on Saturday night shift.")
     again = one(detect(battery, now - dt.timedelta(hours=12)), "weak_cell")
@@ -56,12 +56,12 @@ def test_an_acknowledged_finding_stays_acknowledged_then_clears(battery, crew, s
 
 
 def test_the_evidence_follows_the_latest_reading(battery, crew, watered, now):
-    inspect(battery, crew, now - 2 * DAY, cells=sgs(low={9: "1.250"}))
+    inspect(battery, crew, now - 2 * DAY, cells=sgs(low={9: "1.245"}))
     detect(battery, now - DAY)
-    latest = inspect(battery, crew, now - dt.timedelta(hours=2), cells=sgs(low={9: "1.240"}))
+    latest = inspect(battery, crew, now - dt.timedelta(hours=2), cells=sgs(low={9: "1.235"}))
     finding = one(detect(battery, now), "weak_cell")
     assert finding.inspection == latest
-    assert finding.evidence["readings"][0]["cells"][0]["below_others_points"] == 45
+    assert finding.evidence["readings"][0]["cells"][0]["below_others_points"] == 50
 
 
 def test_the_database_refuses_a_second_active_finding_of_a_kind(battery, now):
@@ -72,7 +72,7 @@ def test_the_database_refuses_a_second_active_finding_of_a_kind(battery, now):
 
 
 def test_a_retired_batterys_findings_clear(battery, crew, watered, now):
-    inspect(battery, crew, now - DAY, cells=sgs(low={9: "1.250"}))
+    inspect(battery, crew, now - DAY, cells=sgs(low={9: "1.245"}))
     finding = one(detect(battery, now), "weak_cell")
     battery.status = "retired"
     battery.save()

@@ -9,7 +9,7 @@ from tests.care.helpers import inspect, sgs, water
 
 def test_saving_an_inspection_opens_its_findings(battery, crew, watered, django_capture_on_commit_callbacks):
     with django_capture_on_commit_callbacks(execute=True):
-        inspect(battery, crew, timezone.now() - dt.timedelta(hours=1), cells=sgs(low={9: "1.250"}))
+        inspect(battery, crew, timezone.now() - dt.timedelta(hours=1), cells=sgs(low={9: "1.245"}))
     assert set(Finding.objects.filter(battery=battery).values_list("kind", flat=True)) == {"weak_cell", "high_spread"}
 
 
@@ -28,7 +28,7 @@ def test_removing_the_reading_that_showed_a_fault_clears_it(battery, crew, super
     from fleetcare.readings.services import remove_inspection
 
     with django_capture_on_commit_callbacks(execute=True):
-        wrong = inspect(battery, crew, timezone.now() - dt.timedelta(hours=1), cells=sgs(low={9: "1.250"}))
+        wrong = inspect(battery, crew, timezone.now() - dt.timedelta(hours=1), cells=sgs(low={9: "1.245"}))
     assert Finding.objects.active().filter(battery=battery).count() == 2
     with django_capture_on_commit_callbacks(execute=True):
         remove_inspection(wrong, user=supervisor, reason="Typed into the wrong battery")

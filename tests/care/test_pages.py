@@ -12,7 +12,7 @@ from tests.care.helpers import detect, inspect, sgs
 
 @pytest.fixture
 def weak(battery, crew, watered):
-    inspection = inspect(battery, crew, timezone.now() - dt.timedelta(hours=6), cells=sgs(low={9: "1.250"}))
+    inspection = inspect(battery, crew, timezone.now() - dt.timedelta(hours=6), cells=sgs(low={9: "1.245"}))
     detect(battery, timezone.now())
     return Finding.objects.get(battery=battery, kind="weak_cell"), inspection
 
@@ -45,12 +45,12 @@ def test_the_list_filters_by_site_kind_battery_and_state(crew_client, weak, seal
 
     def shown(**params):
         body = crew_client.get(url, params).content.decode()
-        return {s for s in ("Cell 9 read low", "Old pair", "Gone block", "Spread 35 points") if s in body}
+        return {s for s in ("Cell 9 read low", "Old pair", "Gone block", "Spread 40 points") if s in body}
 
-    assert shown() == {"Cell 9 read low", "Old pair", "Spread 35 points"}
+    assert shown() == {"Cell 9 read low", "Old pair", "Spread 40 points"}
     assert shown(site="tr") == {"Old pair"}
     assert shown(kind="weak_cell") == {"Cell 9 read low"}
-    assert shown(battery="tw-00") == {"Cell 9 read low", "Spread 35 points"}
+    assert shown(battery="tw-00") == {"Cell 9 read low", "Spread 40 points"}
     assert shown(state="cleared") == {"Gone block"}
     assert shown(state="all", site="tr") == {"Old pair", "Gone block"}
 
@@ -59,7 +59,7 @@ def test_a_finding_explains_itself(crew_client, weak):
     finding, _ = weak
     body = crew_client.get(reverse("care:finding", args=[finding.pk])).content.decode()
     assert "On a just-charged or just-equalized battery" in body  # the rule
-    assert "cell 9: <strong>1.250, 35 points below" in body  # the reading used
+    assert "cell 9: <strong>1.245, 40 points below" in body  # the reading used
     assert "0.030 SG" in body and "common practice (field notes)" in body  # threshold and source
     assert "Give an equalizing charge" in body  # what to do next
     assert "Equalize only in a ventilated charging area" in body and "Sulfuric acid burns" in body  # cautions
@@ -99,7 +99,7 @@ def test_a_supervisor_cannot_acknowledge_another_sites_finding(client, superviso
 
 
 def test_a_supervisor_can_check_the_fleet_now(client, supervisor, battery, crew, watered):
-    inspect(battery, crew, timezone.now() - dt.timedelta(hours=2), cells=sgs(low={9: "1.250"}))
+    inspect(battery, crew, timezone.now() - dt.timedelta(hours=2), cells=sgs(low={9: "1.245"}))
     client.force_login(supervisor)
     response = client.post(reverse("care:check_now"), follow=True)  # tests run tasks at once (tests/conftest.py)
     assert "Checking 1 battery in the background" in response.content.decode()

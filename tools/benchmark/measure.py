@@ -115,7 +115,7 @@ DASHBOARD_SQL = {
                               ORDER BY f.fitted_at DESC LIMIT 1) AS f ON true
           LEFT JOIN fleet_vehicle v ON v.id = f.vehicle_id
          WHERE {CURRENT} AND i.taken_at >= %(deep_since)s AND i.soc_percent < 20
-           AND i.situation IN ('in_use', 'before_charge') AND i.battery_id IN ({VISIBLE})
+           AND i.battery_id IN ({VISIBLE})
          GROUP BY 1, 2
     """,
     "spread_series": f"""
