@@ -161,7 +161,45 @@ def load(batteries, now):
 
     for fitting in Fitting.objects.filter(battery_id__in=ids).select_related("vehicle").order_by("-fitted_at"):
         data[fitting.battery_id].fittings.append(fitting)
+
+    above_c = min(d.policy.hot_battery_temp_c for d in data.values())
+    for row in hot_temperatures(ids, since, now, above_c):
+        data[row.battery_id].hot_readings.append(row)
+    for d in data.values():
+        d.hot_readings.sort(key=lambda r: r.taken_at, reverse=True)
     return [data[b.pk] for b in battery_list]
+
+
+# Other apps that record electrolyte temperatures (the equalizing record) register a loader here, so a
+# hot reading anywhere opens the hot-battery finding without this app importing theirs.
+# A loader is called as loader(battery_ids, since, now, above_c) and returns rules.HotReading rows.
+TEMPERATURE_SOURCES = []
+
+
+def register_temperature_source(loader):
+    if loader not in TEMPERATURE_SOURCES:
+        TEMPERATURE_SOURCES.append(loader)
+
+
+def hot_temperatures(battery_ids, since, now, above_c):
+    """Readings of electrolyte temperature over `above_c` between `since` and `now`: inspections, their cells,
+    and every registered source. One query each."""
+    current = Inspection.objects.current().filter(battery_id__in=battery_ids, taken_at__gte=since, taken_at__lte=now)
+    rows = [rules.HotReading(b, t, temp, "reading", pk)
+            for b, t, temp, pk in current.filter(temp_c__gt=above_c).values_list("battery_id", "taken_at", "temp_c", "pk")]
+    cells = CellReading.objects.filter(
+        inspection__is_current=True, inspection__deleted_at__isnull=True, inspection__battery_id__in=battery_ids,
+        inspection__taken_at__gte=since, inspection__taken_at__lte=now, temp_c__gt=above_c,
+    ).values_list("inspection__battery_id", "inspection__taken_at", "temp_c", "position", "inspection_id")
+    rows += [rules.HotReading(b, t, temp, f"cell {position}", pk) for b, t, temp, position, pk in cells]
+    for loader in TEMPERATURE_SOURCES:
+        rows += loader(battery_ids, since, now, above_c)
+    return rows
+
+
+def redetect(battery_id):
+    """Run detection for one battery once the current transaction commits (a reading elsewhere changed it)."""
+    transaction.on_commit(lambda: _detect_one(battery_id))
 
 
 def _evidence(detected):

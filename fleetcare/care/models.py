@@ -33,6 +33,7 @@ class Finding(models.Model):
         SULFATION = "sulfation", "Suspected sulfation"
         DEEP_DISCHARGE = "deep_discharge", "Deep discharge"
         LEFT_DISCHARGED = "left_discharged", "Left discharged: charge now"
+        HOT_BATTERY = "hot_battery", "Hot battery"
         LOW_LEVEL = "low_level", "Low electrolyte level"
         WATERING_OVERDUE = "watering_overdue", "Watering overdue"
         HIGH_WATER_USE = "high_water_use", "High water use (overcharge)"

@@ -57,6 +57,9 @@ THRESHOLDS = (
               "80 % discharge is 12 % of rating. Water per Ah by Faraday's law (scipy.constants)"),
     Threshold("capacity_floor_percent", "replacement due: corrected capacity test under", Decimal("80"), "% of rated",
               "IEEE Std 450 practice for vented cells: replace under 80 % of rated capacity (from memory)"),
+    Threshold("hot_battery_temp_c", "hot battery: electrolyte over", Decimal("55"), "°C",
+              "about 55 °C is the absolute maximum for traction cells (from memory, field notes \"Measuring well\"); "
+              "the battery maker's data rules"),
     Threshold("block_ocv_gap_v", "weak block: rested block voltages apart by more than", Decimal("0.10"), "V",
               COMMON),
 )

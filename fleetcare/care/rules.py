@@ -61,6 +61,18 @@ class Reading:
               "sg_max", "sg_spread", "lowest_position", "soc_percent", "volts_total")
 
 
+@dataclass(frozen=True, slots=True)
+class HotReading:
+    """An electrolyte temperature over the hot-battery limit: where it was read (an inspection, one of its
+    cells, or a reading during an equalizing charge)."""
+
+    battery_id: int
+    taken_at: datetime
+    temp_c: object
+    what: str
+    inspection_id: int | None = None
+
+
 @dataclass
 class Detected:
     kind: str
@@ -105,6 +117,7 @@ class ReadingHistory:
     last_top_up_at: datetime | None = None
     latest_levels: dict = field(default_factory=dict)  # position -> (level, taken_at)
     fittings: list = field(default_factory=list)
+    hot_readings: list = field(default_factory=list)  # HotReadings over the lowest hot limit, newest first
 
     @property
     def profile(self):
@@ -451,6 +464,41 @@ def left_discharged(data):
     )
 
 
+def _site_temp(temp_c, site):
+    if site.temp_unit == "F":
+        return f"{chemistry.c_to_f(float(temp_c)):.0f} °F"
+    return f"{float(temp_c):.0f} °C"
+
+
+def hot_battery(data):
+    """An electrolyte temperature over the absolute limit on any reading in the event window."""
+    limit = data.policy.hot_battery_temp_c
+    since = data.now - timedelta(days=int(data.policy.event_window_days))
+    hot = [r for r in data.hot_readings if r.temp_c > limit and since <= r.taken_at <= data.now]
+    if not hot:
+        return None
+    hottest = max(hot, key=lambda r: r.temp_c)
+    site = data.site
+    return Detected(
+        kind="hot_battery", severity=3,
+        summary=(f"Hot battery: electrolyte at {_site_temp(hottest.temp_c, site)} ({hottest.what}, limit "
+                 f"{_site_temp(limit, site)}){f'; {len(hot)} hot readings' if len(hot) > 1 else ''}"),
+        rule=("Any reading of electrolyte temperature over the absolute limit for the cells (inspections, single cells "
+              "and readings during an equalizing charge), within the event window."),
+        readings=[{"taken_at": _when(r.taken_at), "temp_c": _f(r.temp_c, 1), "where": r.what,
+                   "inspection_id": r.inspection_id} for r in hot[:10]],
+        thresholds=[data.policy.evidence("hot_battery_temp_c"), data.policy.evidence("event_window_days")],
+        next_step=("Stop charging and let the battery cool with the vent caps on; do not start another charge until it "
+                   "is under the equalizing limit. Then check: the charger (its profile for this battery, its current "
+                   "and timer: an equalizing or normal charge that ran too long), the charging room (ventilation "
+                   "running, room temperature, batteries charged too close together), and the cells (one much hotter "
+                   "than the rest, or with a low voltage or SG, may be shorted: ask the battery maker)."),
+        caution=("Hot electrolyte gasses hard: ventilate, keep flames and sparks away, wear face shield and gloves. "
+                 "Follow the battery maker's instructions and the site safety officer."),
+        facts={"hottest_temp_c": _f(hottest.temp_c, 1), "hot_readings": len(hot)},
+    )
+
+
 # --- Watering ----------------------------------------------------------------------------------
 
 
@@ -684,8 +732,8 @@ def ageing(data):
     )
 
 
-RULES = (weak_cell, high_spread, sulfation, deep_discharge, left_discharged, low_level, watering_overdue, high_water_use,
-         water_before_charge, weak_block, ageing)
+RULES = (weak_cell, high_spread, sulfation, deep_discharge, left_discharged, hot_battery, low_level, watering_overdue,
+         high_water_use, water_before_charge, weak_block, ageing)
 
 
 def detect(data):

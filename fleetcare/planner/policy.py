@@ -26,6 +26,20 @@ SETTINGS = (
     Setting("charge_gas_current", "gassing current on a normal charge (I_gas)", Decimal(2), "A per 100 Ah",
             "IEC/EN 62485-3 as tabulated in makers' literature: vented cells on IU charging with a 2.4 V/cell "
             "limit (field notes)"),
+    Setting("equalize_level_readings", "equalizing done: readings in a row without a rise", Decimal(3), "readings",
+            "common practice (field notes, \"Measuring well\"): three consecutive readings; Kimberly, section "
+            "\"Equalizing Charge\" (from memory)", integer=True),
+    Setting("equalize_reading_gap_minutes", "equalizing: a reading counts this long after the last one counted",
+            Decimal(45), "minutes",
+            "common practice (field notes): readings about an hour apart; 45 minutes so a reading taken a little "
+            "early still counts", integer=True),
+    Setting("equalize_volts_rise_per_cell", "equalizing done: charging volts rise no more than, per cell",
+            Decimal("0.01"), "V per cell",
+            "FleetCare default: what a battery voltmeter read to 0.01 V per cell can show; used only where the "
+            "charging voltage is read on every counted reading"),
+    Setting("equalize_stop_temp_c", "equalizing: stop (or do not start) at electrolyte temperature", Decimal(45),
+            "°C", "commonly 45 °C for equalizing (from memory, field notes \"Measuring well\"); the battery maker's "
+            "data rules"),
     Setting("water_every_days", "water every", Decimal(7), "days",
             "FleetCare default, not a published figure: water after charging (common practice, field notes); "
             "set the maker's interval"),

@@ -9,12 +9,17 @@ from django.urls import reverse
 from django.utils import timezone
 
 from fleetcare import chemistry
+from fleetcare.care import policy as care_policy
+from fleetcare.care import rules as care_rules
+from fleetcare.care.models import Policy as CarePolicy
+from fleetcare.chemistry import equalizing
 from fleetcare.fleet import site_units
 from fleetcare.fleet.access import visible_sites
 from fleetcare.fleet.models import Battery, Site
 from fleetcare.planner import solver
 from fleetcare.planner import inputs as planner_inputs
-from fleetcare.planner.models import EqualizingCharge, TaskSkip
+from fleetcare.planner import policy as planner_policy
+from fleetcare.planner.models import EqualizingCharge, EqualizingReading, Policy, TaskSkip
 from fleetcare.planner.plans import PLAN_DAYS, plans_for
 from fleetcare.readings.models import Inspection, WaterTopUp
 
@@ -340,7 +345,7 @@ def room_peak(room_id, room, entry, plan):
     opening that airflow calls for (inlet and outlet each)."""
     equalizing = defaultdict(float)
     for t in plan.tasks:
-        if t.kind == planning.EQUALIZE and t.room_id == room_id and t.battery_id in entry.facts:
+        if t.kind == solver.EQUALIZE and t.room_id == room_id and t.battery_id in entry.facts:
             equalizing[t.start] += entry.facts[t.battery_id].equalize_airflow_m3h
     start = max(equalizing, key=equalizing.get, default=None)
     airflow = room.baseline_airflow_m3h + (equalizing[start] if start is not None else 0.0)
@@ -391,6 +396,80 @@ def week_view(site, week=0, now=None):
         "unplaced": [u for u in plan.unplaced], "weeks": range(PLAN_DAYS // 7),
         "spares": entry.inputs.spares_available if entry.inputs else 0,
         "serials": {f.battery.pk: f.battery.serial for f in entry.facts.values()},
+    }
+
+
+def equalizing_temperatures(battery_ids, since, now, above_c):
+    """Readings taken during equalizing charges with electrolyte over `above_c` (a loader for the hot-battery
+    finding, registered with fleetcare.care.detection)."""
+    rows = (EqualizingReading.objects.filter(charge__battery_id__in=battery_ids, taken_at__gte=since, taken_at__lte=now,
+                                             temp_c__gt=above_c)
+            .values_list("charge__battery_id", "taken_at", "temp_c"))
+    return [care_rules.HotReading(b, t, temp, "during an equalizing charge") for b, t, temp in rows]
+
+
+@dataclass
+class ControlRow:
+    reading: object
+    counts: bool
+    rise_sg: float | None
+    rise_volts: float | None
+    temperature: str
+    within_resolution: bool = False
+
+    @property
+    def rise_points(self):
+        return None if self.rise_sg is None else int(round(self.rise_sg * 1000))
+
+
+def equalizing_control(battery, charge):
+    """What the equalizing screen shows: every reading with its rise since the last counted one, whether SG (and
+    the charging voltage, where read on every counted reading) has stopped rising beyond the instrument's
+    resolution, and the electrolyte temperature against the stop and hot limits. Settings come from the
+    planning policy (readings, gap, stop temperature, volts) and the findings policy (resolution, hot limit)."""
+    profile = battery.profile
+    plan = planner_policy.resolve(battery.site_id, profile.pk, list(Policy.objects.all()))
+    care = care_policy.resolve(battery, list(CarePolicy.objects.select_related("site", "profile")))
+    resolution = float(care.sg_resolution)
+    count = max(2, int(plan.equalize_level_readings))
+    gap = int(plan.equalize_reading_gap_minutes)
+    stop_c, hot_c = float(plan.equalize_stop_temp_c), float(care.hot_battery_temp_c)
+    volts_per_cell = float(plan.equalize_volts_rise_per_cell)
+    limits = {"resolution_sg": resolution, "count": count, "gap_minutes": gap, "stop_temp_c": stop_c,
+              "hot_temp_c": hot_c, "volts_rise_per_cell": volts_per_cell,
+              "volts_rise": volts_per_cell * profile.cell_count}
+    if charge is None:
+        return {"limits": limits, "rows": [], "levelled": False, "counted_number": 0, "temperature": "unknown"}
+    readings = list(charge.readings.all())
+    minutes = [(r.taken_at - charge.started_at).total_seconds() / 60 for r in readings]
+    kept = set(equalizing.spaced_readings(minutes, gap))
+    rows, last = [], None
+    for index, r in enumerate(readings):
+        counts = index in kept
+        rise_sg = rise_volts = None
+        if counts and last is not None:
+            rise_sg = float(r.sg_corrected) - float(last.sg_corrected)
+            if r.volts is not None and last.volts is not None:
+                rise_volts = float(r.volts) - float(last.volts)
+        rows.append(ControlRow(r, counts, rise_sg, rise_volts,
+                               equalizing.equalizing_temperature(r.temp_c, stop_c, hot_c),
+                               rise_sg is not None and equalizing.has_levelled([0.0, rise_sg], resolution, 2)))
+        if counts:
+            last = r
+    counted = [readings[i] for i in sorted(kept)]
+    sg_level = equalizing.sg_has_levelled([r.sg_corrected for r in counted], resolution, count)
+    last_volts = [r.volts for r in counted[-count:]]
+    volts_read = len(last_volts) == count and all(v is not None for v in last_volts)
+    volts_level = (equalizing.volts_have_levelled(last_volts, profile.cell_count, volts_per_cell, count)
+                   if volts_read else None)
+    temperatures = [row.temperature for row in rows if row.temperature != "unknown"]
+    latest_temp = rows[-1].temperature if rows else "unknown"
+    return {
+        "limits": limits, "rows": rows, "counted_number": len(counted),
+        "sg_levelled": sg_level, "volts_read": volts_read, "volts_levelled": volts_level,
+        "levelled": sg_level and volts_level is not False,
+        "temperature": latest_temp, "ever_hot": "hot" in temperatures,
+        "latest": rows[-1].reading if rows else None,
     }
 
 

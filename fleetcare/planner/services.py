@@ -4,6 +4,7 @@ from decimal import Decimal
 from django.db import IntegrityError, transaction
 from django.utils import timezone
 
+from fleetcare.care import detection
 from fleetcare.planner.models import EqualizingCharge, EqualizingReading, SiteSettings, TaskSkip, new_feed_token
 from fleetcare.readings.services import corrected_cell_sg
 
@@ -47,6 +48,8 @@ def add_reading(*, charge, taken_at, sg, temp_c=None, volts=None, basis=Equalizi
             charge=charge, taken_at=taken_at, sg=sg, temp_c=temp_c, volts=volts, basis=basis,
             sg_corrected=Decimal(str(corrected)).quantize(SG_PLACES), **kwargs,
         )
+        if temp_c is not None:
+            detection.redetect(charge.battery_id)  # a hot reading opens the hot-battery finding
     return reading, True
 
 

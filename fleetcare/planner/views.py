@@ -5,9 +5,9 @@ from django.urls import reverse
 from django.utils import timezone
 from django.views.decorators.http import require_http_methods, require_POST
 
+from fleetcare import chemistry
 from fleetcare.accounts.access import public_view, role_required
 from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
-from fleetcare.chemistry.equalizing import sg_has_levelled, spaced_readings
 from fleetcare.fleet import site_time
 from fleetcare.fleet.access import battery_or_404, site_or_404, visible_batteries, visible_sites
 from fleetcare.fleet.site_time import site_clock
@@ -16,11 +16,20 @@ from fleetcare.planner.forms import EndChargeForm, ReadingForm, SkipForm, StartC
 from fleetcare.planner.models import SiteSettings
 from fleetcare.planner.plans import PLAN_DAYS
 from fleetcare.readings import validation
+from fleetcare.readings.forms import temp_label
 
 EQUALIZING_CAUTION = (
     "Equalizing gives off more hydrogen than any normal charge: check the room's ventilation is running before "
     "you start, keep sparks, flames and phones away, and leave the vent caps on while it gasses."
 )
+
+
+def site_temperature(temp_c, site, unit=True):
+    """A temperature stored in °C, as the site reads it."""
+    value = float(temp_c)
+    if site.temp_unit == "F":
+        value = chemistry.c_to_f(value)
+    return f"{value:.0f} {temp_label(site)}" if unit else f"{value:.1f}".rstrip("0").rstrip(".")
 
 
 LAST_SITE_COOKIE = "fc_site"  # the site whose work this tablet last opened: the crew land there next time
@@ -115,18 +124,16 @@ def feed(request, token):
     return _ics_response(settings.site)
 
 
-def _levelling(charge):
-    if charge is None:
-        return None
-    readings = list(charge.readings.all())
-    minutes = [(r.taken_at - charge.started_at).total_seconds() / 60 for r in readings]
-    kept = [readings[i] for i in spaced_readings(minutes)]
-    return {
-        "readings": readings,
-        "counted": {r.pk for r in kept},
-        "levelled": sg_has_levelled([r.sg_corrected for r in kept]),
-        "counted_number": len(kept),
-    }
+def _levelling(battery, charge):
+    control = selectors.equalizing_control(battery, charge)
+    site = battery.site
+    limits = control["limits"]
+    control["stop_temp"] = site_temperature(limits["stop_temp_c"], site)
+    control["hot_temp"] = site_temperature(limits["hot_temp_c"], site)
+    control["unit"] = temp_label(site)
+    for row in control["rows"]:
+        row.temp_shown = site_temperature(row.reading.temp_c, site, unit=False) if row.reading.temp_c is not None else "–"
+    return control
 
 
 @role_required(CREW)
@@ -150,7 +157,7 @@ def equalizing(request, pk):
         return render(request, "planner/equalizing.html", {
             "battery": battery, "profile": battery.profile, "site": battery.site, "record": record,
             "running": running, "start_form": form, "reading_form": ReadingForm(site=battery.site),
-            "end_form": EndChargeForm(), "levelling": _levelling(running), "caution": EQUALIZING_CAUTION,
+            "end_form": EndChargeForm(), "levelling": _levelling(battery, running), "caution": EQUALIZING_CAUTION,
             "closing_url": reverse("readings:inspect", args=[battery.pk]) + "?scope=all&situation=equalized",
             "limits": validation.limits_for(battery, timezone.now()).as_json(),
             "last_ended": next((c for c in record["past"] if c.ended_at), None),
@@ -176,7 +183,7 @@ def equalizing_reading(request, pk):
         return render(request, "planner/equalizing.html", {
             "battery": battery, "profile": battery.profile, "site": battery.site, "record": record,
             "running": running, "start_form": None, "reading_form": form, "end_form": EndChargeForm(),
-            "levelling": _levelling(running), "caution": EQUALIZING_CAUTION,
+            "levelling": _levelling(battery, running), "caution": EQUALIZING_CAUTION,
             "closing_url": reverse("readings:inspect", args=[battery.pk]) + "?scope=all&situation=equalized",
             "limits": validation.limits_for(battery, timezone.now()).as_json(),
         }, status=400)
