@@ -9,6 +9,7 @@ from decimal import Decimal
 from django.db import transaction
 from django.utils import timezone
 
+from fleetcare.budget import services
 from fleetcare.budget.models import BudgetAssumptions, CapacityTest, ProfileBudget
 from fleetcare.fleet.models import Battery, BatteryProfile
 
@@ -39,9 +40,9 @@ def load(today=None):
             ProfileBudget.objects.get_or_create(profile=profile, defaults={
                 "typical_depth_percent": Decimal("40"), "installation_cost": Decimal("35"),
             })
-        CapacityTest.objects.bulk_create([
-            CapacityTest(battery=batteries[serial], tested_on=today - timedelta(days=days),
-                         percent_of_rated=Decimal(str(pct)), notes="Demo: 5-hour discharge test")
-            for serial, tests in DEMO_TESTS.items() if serial in batteries for days, pct in tests
-        ])
+        for serial, tests in DEMO_TESTS.items():
+            for days, pct in tests if serial in batteries else ():
+                services.record_rated_capacity_test(battery=batteries[serial], user=None,
+                                                    tested_on=today - timedelta(days=days), percent_of_rated=pct,
+                                                    notes="Demo: discharge test at the rated rate")
     return True

@@ -124,7 +124,7 @@ class ServiceHistory:
     site_name: str = ""
     logged_charges: int = 0
     first_logged_charge: date | None = None
-    capacity_tests: tuple = ()  # ((date, percent), ...)
+    capacity_tests: tuple = ()  # ((date, percent), ...): corrected capacity tests only
     post_charge: tuple = ()  # (PostCharge, ...) oldest first
     weak_cells: tuple = ()  # cells the weak-cell finding calls failing
     failing_because: str = ""  # the finding's words for why (still low after equalizing, ...)
@@ -370,17 +370,17 @@ def capacity_evidence(facts, today, rules):
     last_day, last_value = tests[-1]
     last_value = float(last_value)
     if last_value < floor:
-        detail = f"{last_value:g} % of rating on {last_day:%Y-%m-%d}, under the {floor:g} % floor"
+        detail = f"{last_value:g} % of rating (corrected) on {last_day:%Y-%m-%d}, under the {floor:g} % floor"
         return Evidence(CAPACITY, detail, last_day, last_day, last_day + timedelta(days=rules.act_within_days))
     trend = fit_trend(tests)
     if trend is None or trend.slope >= 0:
-        detail = f"{last_value:g} % of rating on {last_day:%Y-%m-%d}; " + (
+        detail = f"{last_value:g} % of rating (corrected) on {last_day:%Y-%m-%d}; " + (
             "one test, no trend yet" if len(tests) == 1 else "not falling"
         )
         return Evidence(CAPACITY, detail)
     dates = _trend_range(trend, last_day, floor, today, rules, significant_only=False)
     per_year = -trend.slope * DAYS_PER_YEAR
-    detail = (f"{len(tests)} tests, latest {last_value:g} % on {last_day:%Y-%m-%d}, "
+    detail = (f"{len(tests)} corrected tests, latest {last_value:g} % on {last_day:%Y-%m-%d}, "
               f"falling {per_year:.1f} points a year toward {floor:g} %")
     if dates is None:
         return Evidence(CAPACITY, detail)

@@ -14,8 +14,22 @@ from fleetcare.fleet.models import Battery, BatteryProfile, Site
 ZERO = Decimal("0")
 
 
+class CapacityTestQuerySet(models.QuerySet):
+    def corrected(self):
+        """Tests worked out from their discharge record and corrected for temperature (the budget uses only these)."""
+        return self.filter(corrected=True)
+
+
 class CapacityTest(models.Model):
-    """A discharge test: the capacity the battery delivered, as a percentage of its rating."""
+    """A discharge test: what was measured, and the capacity it shows as a percentage of the rating,
+    corrected to the profile's reference temperature (and through Peukert's law for a test at another rate).
+
+    Records from before tests were recorded in full carry only the percentage typed: `corrected` is False,
+    they are shown as uncorrected and the budget does not use them."""
+
+    class Rate(models.TextChoices):
+        RATED = "rated", "At the rated rate"
+        CURRENT = "current", "At another current"
 
     battery = models.ForeignKey(Battery, on_delete=models.CASCADE, related_name="capacity_tests")
     tested_on = models.DateField()
@@ -23,16 +37,37 @@ class CapacityTest(models.Model):
         "capacity (% of rated)", max_digits=5, decimal_places=1,
         validators=[MinValueValidator(Decimal("1")), MaxValueValidator(Decimal("150"))],
     )
+    corrected = models.BooleanField(default=False, help_text="Worked out from the test record and corrected for temperature.")
+    rate = models.CharField(max_length=8, choices=Rate.choices, blank=True)
+    current_a = models.DecimalField("discharge current (A)", max_digits=7, decimal_places=1, null=True, blank=True)
+    hours_to_end = models.DecimalField("time to the end voltage (h)", max_digits=6, decimal_places=2, null=True, blank=True)
+    delivered_ah = models.DecimalField("Ah delivered", max_digits=8, decimal_places=1, null=True, blank=True)
+    end_volts_per_cell = models.DecimalField("end voltage (V per cell)", max_digits=4, decimal_places=2, null=True, blank=True)
+    start_temp_c = models.DecimalField("electrolyte temperature at the start (°C)", max_digits=4, decimal_places=1,
+                                       null=True, blank=True)
+    cell_volts = models.JSONField(default=dict, blank=True, help_text="Each cell's voltage near the end: {position: volts}.")
+    corrected_ah = models.DecimalField("capacity at the reference temperature (Ah)", max_digits=8, decimal_places=1,
+                                       null=True, blank=True)
+    reference_temp_c = models.DecimalField(max_digits=4, decimal_places=1, null=True, blank=True)
+    method = models.CharField(max_length=12, blank=True)
+    peukert_exponent = models.DecimalField(max_digits=4, decimal_places=2, null=True, blank=True)
+    first_cells = models.JSONField(default=list, blank=True, help_text="Cells that reached the end voltage first.")
     notes = models.TextField(blank=True)
     tested_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, null=True, blank=True,
                                   related_name="+")
     recorded_at = models.DateTimeField(auto_now_add=True)
 
+    objects = CapacityTestQuerySet.as_manager()
+
     class Meta:
         ordering = ["-tested_on", "-pk"]
 
     def __str__(self):
-        return f"{self.battery} {self.tested_on:%Y-%m-%d} {self.percent_of_rated} %"
+        return f"{self.battery} {self.tested_on:%Y-%m-%d} {self.percent_of_rated} %{'' if self.corrected else ' (uncorrected)'}"
+
+    @property
+    def method_label(self):
+        return {"iec_60254_1": "IEC 60254-1", "ieee_450": "IEEE Std 450 table"}.get(self.method, "")
 
 
 def _money(label, help_text, default=ZERO):

@@ -64,7 +64,7 @@ def battery_facts(batteries, today, rules=DEFAULT_RULES):
     ids = batteries.values("pk")
 
     tests = defaultdict(list)
-    for battery_id, tested_on, percent in CapacityTest.objects.filter(battery__in=ids).order_by("tested_on", "pk") \
+    for battery_id, tested_on, percent in CapacityTest.objects.corrected().filter(battery__in=ids).order_by("tested_on", "pk") \
             .values_list("battery_id", "tested_on", "percent_of_rated"):
         tests[battery_id].append((tested_on, float(percent)))
 

@@ -114,9 +114,12 @@ def capacity_tests(request):
             data = form.cleaned_data
             test = services.record_capacity_test(
                 battery=data["battery"], user=request.user, tested_on=data["tested_on"],
-                percent_of_rated=data["percent_of_rated"], notes=data["notes"],
+                start_temp_c=data["start_temp_c"], end_volts_per_cell=data["end_volts_per_cell"],
+                current_a=data["current_a"], hours_to_end=data["hours_to_end"], delivered_ah=data["delivered_ah"],
+                cell_volts=data.get("cell_volts_by_position"), notes=data["notes"],
             )
-            messages.success(request, f"Capacity test saved: {test}.")
+            messages.success(request, f"Capacity test saved: {test.battery.serial} gave {test.percent_of_rated} % of "
+                                      f"rated capacity, corrected to {test.reference_temp_c:.0f} °C ({test.method_label}).")
             return redirect("budget:capacity_tests")
     else:
         form = CapacityTestForm(batteries=batteries, initial={"battery": request.GET.get("battery") or None})

@@ -151,6 +151,24 @@ class BatteryProfile(models.Model):
         "rest before an OCV reading counts (h)", max_digits=4, decimal_places=1, default=Decimal("4.0"),
         help_text="Hours off charge and load before open-circuit voltage gives state of charge (common practice: several hours, ideally 24).",
     )
+    peukert_exponent = models.DecimalField(
+        "Peukert exponent", max_digits=4, decimal_places=2, default=Decimal("1.25"),
+        validators=[MinValueValidator(Decimal("1.00")), MaxValueValidator(Decimal("2.00"))],
+        help_text="How capacity falls at higher currents; about 1.1–1.3 for lead-acid (common practice). The maker's figure rules.",
+    )
+    capacity_end_volts_per_cell = models.DecimalField(
+        "capacity test end voltage (V per cell)", max_digits=4, decimal_places=2, default=Decimal("1.70"),
+        help_text="Commonly 1.70 V per cell at the 5-hour rate (field notes); the maker's figure rules.",
+    )
+    capacity_correction = models.CharField(
+        "capacity temperature correction", max_length=12, default="iec_60254_1",
+        choices=[("iec_60254_1", "IEC 60254-1 (traction): to the reference temperature, 0.006 per °C"),
+                 ("ieee_450", "IEEE Std 450 table (stationary-style cells): to 25 °C")],
+    )
+    capacity_reference_temp_c = models.DecimalField(
+        "capacity reference temperature (°C)", max_digits=4, decimal_places=1, default=Decimal("30.0"),
+        help_text="IEC 60254-1 states traction capacity at 30 °C (from memory). The IEEE table always uses 25 °C.",
+    )
     watering_allowed = models.BooleanField(default=True)
     equalizing_allowed = models.BooleanField(default=True)
     design_life_years = models.DecimalField(max_digits=4, decimal_places=1, default=Decimal("5.0"))

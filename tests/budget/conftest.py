@@ -7,7 +7,7 @@ import pytest
 from django.utils import timezone
 
 from fleetcare.accounts.roles import MANAGER
-from fleetcare.budget.models import CapacityTest
+from fleetcare.budget.services import record_rated_capacity_test
 from fleetcare.care.detection import detect_for_batteries
 from fleetcare.fleet.models import Battery
 from fleetcare.readings.models import Inspection
@@ -44,8 +44,8 @@ def world(site, other_site, traction_profile, manager, supervisor):
     weak_capacity = Battery.objects.create(serial="TW-CAP", profile=traction_profile, site=site,
                                            in_service_date=today - dt.timedelta(days=800))
     for days, pct in ((500, "96.0"), (250, "88.5"), (10, "79.0")):
-        CapacityTest.objects.create(battery=weak_capacity, tested_on=today - dt.timedelta(days=days),
-                                    percent_of_rated=Decimal(pct), tested_by=supervisor)
+        record_rated_capacity_test(battery=weak_capacity, user=supervisor, tested_on=today - dt.timedelta(days=days),
+                                   percent_of_rated=Decimal(pct))
     failing_cell = Battery.objects.create(serial="TW-CELL", profile=traction_profile, site=site,
                                           in_service_date=today - dt.timedelta(days=365))
     post_charge_readings(failing_cell, supervisor, (21, 14, 7), weak_cell=9)

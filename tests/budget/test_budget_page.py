@@ -9,9 +9,10 @@ from django.template import Context, Template
 from django.urls import reverse
 from openpyxl import load_workbook
 
-from fleetcare.budget import forecast
+from fleetcare.budget import forecast, selectors
 from fleetcare.budget.models import BudgetAssumptions, CapacityTest
 from fleetcare.budget.templatetags.budget import can_see_budget
+from fleetcare.fleet.models import Battery
 from tests.budget.conftest import DESIGN_LIFE_DAYS, quarter_label
 
 PAGES = ["budget:home", "budget:export_csv", "budget:export_xlsx", "budget:assumptions"]
@@ -179,22 +180,71 @@ def test_bad_assumptions_store_nothing(manager_client, world):
     assert BudgetAssumptions.objects.get().fiscal_year_start_month == 1
 
 
-def test_a_supervisor_records_a_capacity_test(client, supervisor, battery):
+def capacity_form(battery, **changes):
+    data = {"battery": battery.pk, "tested_on": "2026-01-20", "rate": "rated", "current_a": "", "hours_to_end": "",
+            "delivered_ah": "", "end_volts_per_cell": "1.70", "start_temp": "20", "cell_volts": "", "notes": "C5 discharge"}
+    data.update(changes)
+    return data
+
+
+def test_a_supervisor_records_a_c5_test_at_20_degrees_corrected_to_30(client, supervisor, battery):
     client.force_login(supervisor)
     assert client.get(reverse("budget:capacity_tests")).status_code == 200
-    response = client.post(reverse("budget:capacity_tests"), {
-        "battery": battery.pk, "tested_on": "2026-01-20", "percent_of_rated": "84.5", "notes": "C5 discharge",
-    })
+    # 775 Ah at C5 = 155 A; 3.80 h to 1.70 V per cell = 589.0 Ah at 20 °C; IEC 60254-1 (from memory):
+    # C30 = 589.0 / (1 + 0.006 x (20 - 30)) = 589.0 / 0.94 = 626.6 Ah = 80.85 % of 775 Ah -> 80.9 %
+    # (uncorrected, 589 / 775 = 76.0 %: "under 80 %" would have been wrong)
+    response = client.post(reverse("budget:capacity_tests"), capacity_form(battery, hours_to_end="3.80"))
     assert response.status_code == 302
     test = CapacityTest.objects.get()
-    assert (test.battery, test.percent_of_rated, test.tested_by) == (battery, Decimal("84.5"), supervisor)
+    assert (test.battery, test.tested_by, test.corrected, test.rate) == (battery, supervisor, True, "rated")
+    assert (test.current_a, test.delivered_ah, test.corrected_ah) == (Decimal("155.0"), Decimal("589.0"), Decimal("626.6"))
+    assert test.percent_of_rated == Decimal("80.9") and test.reference_temp_c == Decimal("30.0")
+    text = client.get(reverse("budget:capacity_tests")).content.decode()
+    assert "626.6 Ah corrected to 30 °C (IEC 60254-1)" in text
+
+
+def test_a_test_at_another_current_is_compared_through_peukert_and_names_the_weak_cell(client, supervisor, battery):
+    client.force_login(supervisor)
+    volts = " ".join(["1.78"] * 8 + ["1.69"] + ["1.77"] * 15)
+    # 200 A for 2.60 h at 30 °C = 520 Ah; a full 775 Ah C5 battery runs 5 x (775 / (200 x 5))^1.25 h at 200 A
+    # = 5 x 0.775^1.25 = 5 x 0.72716 = 3.6358 h (profile Peukert exponent 1.25); 2.60 / 3.6358 = 71.5 %
+    response = client.post(reverse("budget:capacity_tests"), capacity_form(
+        battery, rate="current", current_a="200", hours_to_end="2.60", start_temp="30", cell_volts=volts))
+    assert response.status_code == 302
+    test = CapacityTest.objects.get()
+    assert test.rate == "current" and test.percent_of_rated == Decimal("71.5")
+    assert test.first_cells == [9]
+    text = client.get(reverse("budget:capacity_tests")).content.decode()
+    assert "Peukert" in text and "cell 9" in text
+
+
+def test_bad_capacity_test_input_stores_nothing_and_says_why(client, supervisor, battery):
+    client.force_login(supervisor)
+    url = reverse("budget:capacity_tests")
+    for changes, message in (
+        ({}, "Give the time to the end voltage, or the Ah delivered."),
+        ({"hours_to_end": "4", "delivered_ah": "600"}, "not both"),
+        ({"rate": "current", "hours_to_end": "4"}, "Give the current the test ran at."),
+        ({"hours_to_end": "4", "start_temp": "95"}, "between −30 and 70 °C"),
+        ({"hours_to_end": "4", "cell_volts": "1.7 x"}, "as numbers"),
+        ({"hours_to_end": "4", "cell_volts": "30=1.70"}, "has 24 cells"),
+        ({"hours_to_end": "40"}, "cannot be right"),
+    ):
+        response = client.post(url, capacity_form(battery, **changes))
+        assert response.status_code == 200 and message in response.content.decode(), changes
+    assert not CapacityTest.objects.exists()
+
+
+def test_an_old_bare_percentage_shows_as_uncorrected_and_the_budget_ignores_it(client, supervisor, battery):
+    CapacityTest.objects.create(battery=battery, tested_on=dt.date(2026, 1, 5), percent_of_rated=Decimal("70.0"))
+    client.force_login(supervisor)
+    assert "<strong>uncorrected</strong>" in client.get(reverse("budget:capacity_tests")).content.decode()
+    assert selectors.battery_facts(Battery.objects.filter(pk=battery.pk), dt.date(2026, 2, 1))[0].capacity_tests == ()
 
 
 def test_a_capacity_test_for_another_sites_battery_is_refused(client, supervisor, other_battery):
     client.force_login(supervisor)
-    response = client.post(reverse("budget:capacity_tests"), {
-        "battery": other_battery.pk, "tested_on": "2026-01-20", "percent_of_rated": "84.5",
-    })
+    response = client.post(reverse("budget:capacity_tests"), capacity_form(other_battery, hours_to_end="4"))
     assert response.status_code == 200 and not CapacityTest.objects.exists()
 
 

@@ -5,6 +5,7 @@ from django.utils import timezone
 
 from fleetcare.budget import selectors
 from fleetcare.budget.models import CapacityTest, ProfileBudget
+from fleetcare.budget.services import record_rated_capacity_test
 from fleetcare.care.models import Finding
 from fleetcare.fleet.models import Battery
 from tests.budget.conftest import post_charge_readings
@@ -17,8 +18,10 @@ def add_batteries(site, profile, user, count, start):
     for n in range(start, start + count):
         b = Battery.objects.create(serial=f"Q-{n:03d}", profile=profile, site=site,
                                    in_service_date=today - dt.timedelta(days=300 + n))
-        CapacityTest.objects.create(battery=b, tested_on=today - dt.timedelta(days=100), percent_of_rated=Decimal("95"))
-        CapacityTest.objects.create(battery=b, tested_on=today - dt.timedelta(days=10), percent_of_rated=Decimal("93"))
+        record_rated_capacity_test(battery=b, user=user, tested_on=today - dt.timedelta(days=100), percent_of_rated=95)
+        record_rated_capacity_test(battery=b, user=user, tested_on=today - dt.timedelta(days=10), percent_of_rated=93)
+        # an old bare percentage: shown as uncorrected, never used by the budget
+        CapacityTest.objects.create(battery=b, tested_on=today - dt.timedelta(days=5), percent_of_rated=Decimal("40"))
         post_charge_readings(b, user, (9, 2))
 
 

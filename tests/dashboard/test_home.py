@@ -178,9 +178,10 @@ def test_deep_discharge_counts_against_the_truck_and_shift_the_battery_was_fitte
         battery, supervisor, now - dt.timedelta(days=4), "before_charge", sg="1.160", scope="pilot"
     )  # 13 %: FL-02 Night
     read(battery, supervisor, now - dt.timedelta(days=3), "before_charge", sg="1.200", scope="pilot")  # 40 %: not deep
-    read(battery, supervisor, now - dt.timedelta(days=2), "rested", sg="1.155", scope="pilot")  # rested: not counted
+    # rested counts too: any reading under 20 % is a deep discharge (field notes, "Measuring well")
+    read(battery, supervisor, now - dt.timedelta(days=2), "rested", sg="1.155", scope="pilot")
     counts = selectors.deep_discharge_by_truck_and_shift(Battery.objects.all(), now - dt.timedelta(days=90))
-    assert counts == {("FL-01", "Day"): 1, ("FL-02", "Night"): 2}
+    assert counts == {("FL-01", "Day"): 1, ("FL-02", "Night"): 3}
 
 
 def test_deep_discharge_counts_whole_batteries_and_moved_ones_alike(battery, supervisor, now, site, traction_profile):
