@@ -8,7 +8,7 @@ class Migration(migrations.Migration):
 
     dependencies = [
         ('fleet', '0001_initial'),
-        ('readings', '0004_reading_change_from_accounts'),
+        ('readings', '0006_inspection_chosen_via'),
         migrations.swappable_dependency(settings.AUTH_USER_MODEL),
     ]
 
