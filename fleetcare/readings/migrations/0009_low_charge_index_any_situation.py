@@ -8,7 +8,7 @@ class Migration(migrations.Migration):
 
     dependencies = [
         ('fleet', '0001_initial'),
-        ('readings', '0006_inspection_chosen_via'),
+        ('readings', '0008_entry_policy'),
         migrations.swappable_dependency(settings.AUTH_USER_MODEL),
     ]
 
