@@ -30,8 +30,9 @@ def _read(page, battery, when, sg, temp):
     page.fill("input[name=taken_at]", _local(battery, when))
     page.fill("input[name=sg]", sg)
     page.fill("input[name=temp]", temp)
-    page.get_by_role("button", name="Save reading").click()
-    page.wait_for_url(re.compile(r"/equalizing/#readings$"))
+    with page.expect_navigation():
+        page.get_by_role("button", name="Save reading").click()
+    page.locator("#equalizing-state").wait_for()
 
 
 def test_an_equalizing_charge_that_levels_within_the_hydrometers_resolution(tablet, crew, battery):
