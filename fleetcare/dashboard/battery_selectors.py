@@ -22,7 +22,8 @@ from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 HEATMAP_INSPECTIONS = 40
 LIST_PAGE_SIZE = 50
 
-# State-of-charge bands at the latest reading. 20 % is the deepest a motive battery should be run
+# State-of-charge bands at the latest reading that shows state of charge (after charge, or rested; a
+# before-charge reading counts only as a deep discharge, a finding). 20 % is the deepest a motive battery should be run
 # (80 % depth of discharge) and below 50 % a standing battery sulfates (field notes, common practice).
 SOC_BANDS = (
     ("below20", "Below 20 %", None, 20),
@@ -31,7 +32,7 @@ SOC_BANDS = (
     ("80up", "80 % and over", 80, None),
 )
 NO_READING = "none"
-SOC_BAND_LABELS = {key: label for key, label, _, _ in SOC_BANDS} | {NO_READING: "No reading yet"}
+SOC_BAND_LABELS = {key: label for key, label, _, _ in SOC_BANDS} | {NO_READING: "No reading after charge or rest"}
 SOC_BAND_SHORT = {
     "below20": "< 20 %",
     "20to50": "20–50 %",
@@ -44,13 +45,20 @@ SOC_BAND_SHORT = {
 OVERDUE_KINDS = {"equalizing": "Equalizing overdue", "watering": "Watering overdue"}
 
 
+def latest_soc():
+    """Subquery: a battery's state of charge at its latest reading that shows one (after charge, or rested).
+    The overview's bands, the battery list's column and its filter all use this one expression."""
+    shows = Inspection.objects.current().shows_state_of_charge().filter(battery=OuterRef("pk")).order_by("-taken_at")
+    return Subquery(shows.values("soc_percent")[:1])
+
+
 def with_latest_reading(batteries):
-    """Annotate each battery with its latest current inspection's SOC, time and situation, and the
-    spread of its latest all-cell inspection (a pilot reading has no spread worth showing)."""
+    """Annotate each battery with its state of charge (latest_soc()), its latest current inspection's time and
+    situation, and the spread of its latest all-cell inspection (a pilot reading has no spread worth showing)."""
     latest = Inspection.objects.current().filter(battery=OuterRef("pk")).order_by("-taken_at")
     all_cells = latest.filter(scope=Inspection.Scope.ALL_CELLS, sg_spread__isnull=False)
     return batteries.annotate(
-        latest_soc=Subquery(latest.values("soc_percent")[:1]),
+        latest_soc=latest_soc(),
         latest_spread=Subquery(all_cells.values("sg_spread")[:1]),
         latest_taken_at=Subquery(latest.values("taken_at")[:1]),
         latest_situation=Subquery(latest.values("situation")[:1]),

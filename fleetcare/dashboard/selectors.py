@@ -86,7 +86,7 @@ def _battery_rows(batteries, now, today):
     post_charge_all = current.post_charge().filter(scope=Inspection.Scope.ALL_CELLS, sg_spread__isnull=False)
     rows = list(
         batteries.annotate(
-            latest_soc=Subquery(current.values("soc_percent")[:1]),
+            latest_soc=fleet.latest_soc(),
             latest_post_charge_spread=Subquery(post_charge_all.values("sg_spread")[:1]),
             overdue_equalizing=ExpressionWrapper(fleet.overdue_q("equalizing", now), output_field=BooleanField()),
             overdue_watering=ExpressionWrapper(fleet.overdue_q("watering", now), output_field=BooleanField()),
@@ -167,9 +167,10 @@ def _sections(rows, sites, finding_counts):
     for title, group, note in (
         ("Batteries by status", "status", ""),
         (
-            "State of charge at the latest reading",
+            "State of charge after the latest charge or rest",
             "soc",
-            "Below 20 %: over-discharged. Below 50 %: sulfates if left standing.",
+            "Below 20 %: over-discharged. Below 50 %: sulfates if left standing. Readings before charge count "
+            "only as deep discharges (see Open findings).",
         ),
     ):
         sections.append(
@@ -229,7 +230,7 @@ def _soc_chart(rows, sites):
     return charts.stacked_bars(
         [fleet.SOC_BAND_SHORT[b] for b in bands],
         stacks,
-        "State of charge now<br><sup>each battery at its latest reading, stacked by site</sup>",
+        "State of charge now<br><sup>each battery at its latest reading after charge or at rest, stacked by site</sup>",
         "Batteries",
     )
 

@@ -24,6 +24,11 @@ class InspectionQuerySet(models.QuerySet):
     def post_charge(self):
         return self.filter(situation__in=Inspection.POST_CHARGE)
 
+    def shows_state_of_charge(self):
+        """Readings whose state of charge describes the battery: after a charge, or rested. A reading before
+        charge or in use shows how far it was run down (a deep discharge), not the state it is kept in."""
+        return self.filter(situation__in=Inspection.SHOWS_STATE_OF_CHARGE, soc_percent__isnull=False)
+
 
 class Inspection(models.Model):
     class Situation(models.TextChoices):
@@ -52,6 +57,7 @@ class Inspection(models.Model):
     CHOSEN_ON_TABLET = (ChosenVia.SCAN, ChosenVia.SEARCH, ChosenVia.TODAY, ChosenVia.PAGE)
 
     POST_CHARGE = (Situation.JUST_CHARGED, Situation.JUST_EQUALIZED)
+    SHOWS_STATE_OF_CHARGE = (Situation.JUST_CHARGED, Situation.JUST_EQUALIZED, Situation.RESTED)
 
     battery = models.ForeignKey(Battery, on_delete=models.PROTECT, related_name="inspections")
     taken_at = models.DateTimeField(db_index=True)

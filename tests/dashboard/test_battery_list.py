@@ -23,10 +23,10 @@ def super_client(client, supervisor):
 
 @pytest.fixture
 def three(battery, sealed_battery, traction_profile, site, supervisor, now):
-    """TW-001 at 10 % and equalized yesterday; TW-002 at 100 %, watered yesterday, past design life;
+    """TW-001 at 10 % at rest and equalized yesterday; TW-002 at 100 %, watered yesterday, past design life;
     the sealed pair unread."""
     read(battery, supervisor, now - dt.timedelta(days=1), "equalized")
-    read(battery, supervisor, now - dt.timedelta(hours=2), "before_charge", sg="1.155", scope="pilot")
+    read(battery, supervisor, now - dt.timedelta(hours=2), "rested", sg="1.155", scope="pilot")
     old = Battery.objects.create(
         serial="TW-002", profile=traction_profile, site=site, in_service_date=dt.date(2019, 1, 1)
     )

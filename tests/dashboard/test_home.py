@@ -70,7 +70,7 @@ def test_it_counts_batteries_by_status_per_site_and_for_all_sites(
     )
 
 
-def test_it_bands_state_of_charge_at_each_batterys_latest_reading(
+def test_it_bands_state_of_charge_at_each_batterys_latest_reading_after_charge_or_rest(
     super_client, battery, sealed_battery, supervisor, now, traction_profile, site
 ):
     # Profile: full 1.290, discharged 1.140, SOC linear between (field notes: common practice).
@@ -79,13 +79,21 @@ def test_it_bands_state_of_charge_at_each_batterys_latest_reading(
     second = Battery.objects.create(
         serial="TW-002", profile=traction_profile, site=site, in_service_date=dt.date(2025, 1, 1)
     )
-    read(second, supervisor, now - dt.timedelta(hours=1), "before_charge", sg="1.215", scope="pilot")  # 50 %
+    read(second, supervisor, now - dt.timedelta(hours=1), "rested", sg="1.215", scope="pilot")  # 50 %
+    third = Battery.objects.create(
+        serial="TW-003", profile=traction_profile, site=site, in_service_date=dt.date(2025, 1, 1)
+    )
+    read(third, supervisor, now - dt.timedelta(hours=1), "rested", sg="1.155", scope="pilot")  # 10 %
     assert Inspection.objects.current().get(battery=second).soc_percent == 50
     context = super_client.get(HOME).context
+    # a before-charge reading shows how far a battery was run down (a deep discharge), not its band
+    assert counts(context, "State of charge", "80 % and over") == [0, 1, 1]
     assert counts(context, "State of charge", "Below 20 %") == [0, 1, 1]
     assert counts(context, "State of charge", "50–80 %") == [0, 1, 1]
-    assert counts(context, "State of charge", "No reading yet") == [1, 0, 1]  # the sealed pair, never read
+    assert counts(context, "State of charge", "No reading after charge or rest") == [1, 0, 1]  # the sealed pair
     assert row(context, "State of charge", "Below 20 %")["attention"]
+    listed = super_client.get(reverse("fleet:batteries"), {"soc": "below20"}).context["page"].object_list
+    assert [b.serial for b in listed] == ["TW-003"]  # the battery list's filter agrees with the count
 
 
 def test_it_counts_open_findings_by_kind_and_leaves_cleared_ones_out(super_client, battery, sealed_battery, now):
