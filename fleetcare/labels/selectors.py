@@ -78,7 +78,7 @@ def profile_line(profile):
 
 def batteries_to_label(site, serials=None):
     """The site's batteries to label: those named (in the order given), or every one not retired."""
-    batteries = Battery.objects.at_site(site).select_related("profile", "site").order_by("serial")
+    batteries = Battery.objects.filter(site=site).select_related("profile", "site").order_by("serial")
     if not serials:
         return list(batteries.active())
     wanted = list(dict.fromkeys(serials))

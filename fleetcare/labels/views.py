@@ -17,7 +17,7 @@ def print_labels(request):
     """Choose a site, the batteries and the sheet; the PDF comes from sheet()."""
     sites = list(visible_sites(request.user))
     site = site_or_404(request.user, request.GET["site"]) if request.GET.get("site") else (sites[0] if sites else None)
-    batteries = list(Battery.objects.at_site(site).active().select_related("profile").order_by("serial")) if site else []
+    batteries = list(Battery.objects.filter(site=site).active().select_related("profile").order_by("serial")) if site else []
     return render(request, "labels/print.html", {
         "sites": sites, "site": site, "layouts": LAYOUTS.values(),
         "rows": [(b, selectors.profile_line(b.profile)) for b in batteries],
