@@ -796,10 +796,10 @@ def _solve_wave(grid: _Grid, wave: list[_Need], load: _Load, budget: _Budget) ->
     best, by = (
         (greedy, "earliest due first")
         if greedy_score <= _wave_score(grid, wave, exact)
-        else (exact, "best order found")
+        else (exact, "integer program (HiGHS)")
     )  # on a tie EDD wins: it orders ties by serial
     if proven:
-        return best, f"{by}, checked as the best possible", _wave_score(grid, wave, best)[0]
+        return best, f"{by}, proven by the integer program", _wave_score(grid, wave, best)[0]
     return best, f"{by} (solver stopped at its time limit)", max(alone, bound)
 
 
