@@ -71,11 +71,12 @@ def test_a_reading_saved_offline_is_stored_exactly_once_when_the_connection_retu
     badge = page.locator("#fc-outbox")
     badge.get_by_text("1 waiting to send").wait_for()
     assert "kept on this tablet and waiting to send" in page.locator("#fc-offline-status").inner_text()
-    kept_uuid = page.evaluate("""() => new Promise(resolve => {
+    kept = page.evaluate("""() => new Promise(resolve => {
         const open = indexedDB.open("fleetcare-offline", 1);
-        open.onsuccess = () => open.result.transaction("outbox").objectStore("outbox").getAllKeys().onsuccess =
-            event => resolve(event.target.result);
+        open.onsuccess = () => open.result.transaction("outbox").objectStore("outbox").getAll().onsuccess =
+            event => resolve(event.target.result.map(item => ({uuid: item.client_uuid, api: item.api, body: item.body})));
     })""")
+    kept_uuid = [item["uuid"] for item in kept]
     assert len(kept_uuid) == 1
     assert Inspection.objects.count() == 0
     # The form is ready for the next battery with a new client UUID.
@@ -88,16 +89,16 @@ def test_a_reading_saved_offline_is_stored_exactly_once_when_the_connection_retu
     assert str(stored.client_uuid) == kept_uuid[0]
     assert stored.lowest_position == 9 and stored.battery_id == battery.pk
 
-    # The same submission sent again (a tablet that never heard the answer) stores nothing new.
-    statuses = page.evaluate("""async ([url, uuid]) => {
+    # The same submission sent again, byte for byte (a tablet that never heard the answer), stores nothing new;
+    # other values under the same client UUID are refused rather than silently taken as a repeat.
+    statuses = page.evaluate("""async ([url, body]) => {
         const token = document.cookie.match(/csrftoken=([^;]+)/)[1];
-        const body = {client_uuid: uuid, situation: "charged", taken_at: "2026-11-30T07:00", temp: "26",
-                      cells: Array.from({length: 24}, (_, i) => ({position: i + 1, sg: "282"}))};
-        const send = () => fetch(url, {method: "POST", credentials: "same-origin",
-            headers: {"Content-Type": "application/json", "X-CSRFToken": token}, body: JSON.stringify(body)});
-        return [(await send()).status, (await send()).status];
-    }""", [f"/api/batteries/{battery.pk}/inspections", kept_uuid[0]])
-    assert statuses == [201, 201]
+        const send = payload => fetch(url, {method: "POST", credentials: "same-origin",
+            headers: {"Content-Type": "application/json", "X-CSRFToken": token}, body: JSON.stringify(payload)});
+        const changed = Object.assign({}, body, {temp: "31"});
+        return [(await send(body)).status, (await send(body)).status, (await send(changed)).status];
+    }""", [kept[0]["api"], kept[0]["body"]])
+    assert statuses == [201, 201, 409]
     assert Inspection.objects.count() == 1
 
 
