@@ -42,7 +42,7 @@ from dataclasses import dataclass, field
 from datetime import date, timedelta
 from decimal import ROUND_HALF_UP, Decimal
 
-from fleetcare.care import wording
+from fleetcare.care import cycles, wording
 
 CENT = Decimal("0.01")
 MIN_RENEWAL = timedelta(days=30)
@@ -314,19 +314,10 @@ def age_evidence(facts, today, rules):
     return Evidence(AGE, detail, likely, earliest, latest)
 
 
-def charge_rate(facts, today):
-    """Charges per day, and where the figure came from.
-
-    Crews seldom read after every charge, so logged post-charge readings are used only when they
-    come more often than the site's charges per day; otherwise the site's figure counts.
-    """
-    site_rate = float(facts.charges_per_day)
-    if facts.logged_charges and facts.first_logged_charge:
-        span = max((today - facts.first_logged_charge).days, 7)
-        logged_rate = facts.logged_charges / span
-        if logged_rate > site_rate:
-            return logged_rate, "logged charges"
-    return site_rate, "the site's charges per day"
+def charge_count(facts, today):
+    """Charges so far: the same estimate the ageing finding states (fleetcare.care.cycles)."""
+    return cycles.charges_so_far(facts.in_service_date, today, facts.charges_per_day, facts.logged_charges,
+                                 facts.first_logged_charge)
 
 
 def cycle_weight(facts, rules):
@@ -340,21 +331,12 @@ def cycle_weight(facts, rules):
     return max(depth, 1.0) / rules.design_depth_percent, f"{depth:.0f} % depth ({basis})"
 
 
-def cycles_so_far(facts, today):
-    rate, basis = charge_rate(facts, today)
-    days = max((today - facts.in_service_date).days, 0)
-    if basis == "logged charges":
-        before_logs = max((facts.first_logged_charge - facts.in_service_date).days, 0)
-        return facts.logged_charges + rate * before_logs, rate, basis
-    return rate * days, rate, basis
-
-
 def cycles_evidence(facts, today, rules):
-    charges, rate, basis = cycles_so_far(facts, today)
+    count = charge_count(facts, today)
     weight, depth = cycle_weight(facts, rules)
-    done, per_day = charges * weight, rate * weight
-    detail = (f"about {done:,.0f} of {facts.design_cycles:,} design cycles: {rate:.2f} charges a day (from {basis}) "
-              f"at {depth}")
+    done, per_day = count.charges * weight, count.per_day * weight
+    detail = (f"about {count.whole:,} charges so far ({count.per_day:.2f} a day, from {count.basis}); at {depth} "
+              f"that is about {done:,.0f} of {facts.design_cycles:,} design cycles")
     if per_day <= 0 or facts.design_cycles <= 0:
         return Evidence(CYCLES, detail)
     likely = today + timedelta(days=math.ceil((facts.design_cycles - done) / per_day))
@@ -538,7 +520,7 @@ def _line(facts, kind, decided_by, likely, earliest, latest, today, money, cells
 def renewal_after(facts, replaced_on, rules):
     """The replacement's own end of life: its design life, or its design cycles if sooner."""
     life = add_years(replaced_on, facts.design_life_years)
-    rate = charge_rate(facts, replaced_on)[0] * cycle_weight(facts, rules)[0]
+    rate = charge_count(facts, replaced_on).per_day * cycle_weight(facts, rules)[0]
     by_cycles = None
     if rate > 0 and facts.design_cycles > 0:
         by_cycles = replaced_on + timedelta(days=math.ceil(facts.design_cycles / rate))

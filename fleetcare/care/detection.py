@@ -10,7 +10,7 @@ from collections import defaultdict
 from datetime import timedelta
 
 from django.db import connection, transaction
-from django.db.models import Count, Exists, F, Max, OuterRef
+from django.db.models import Count, Exists, F, Max, Min, OuterRef
 from django.db.models.expressions import Window
 from django.db.models.functions import RowNumber
 from django.utils import timezone
@@ -125,9 +125,10 @@ def load(batteries, now):
         data[reading.battery_id].recent.append(reading)
 
     stats = (Inspection.objects.current().post_charge().filter(battery_id__in=ids, taken_at__lte=now)
-             .order_by().values("battery_id").annotate(last=Max("taken_at"), n=Count("*")))
+             .order_by().values("battery_id").annotate(last=Max("taken_at"), first=Min("taken_at"), n=Count("*")))
     for row in stats:
         data[row["battery_id"]].last_charge_at = row["last"]
+        data[row["battery_id"]].first_charge_at = row["first"]
         data[row["battery_id"]].charges_logged = row["n"]
 
     # Only "low" reports matter, and only while no later reading of that cell says OK: start from the

@@ -7,7 +7,7 @@ from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 
 from fleetcare import chemistry
-from fleetcare.care import wording
+from fleetcare.care import cycles, wording
 from fleetcare.fleet import site_units
 from fleetcare.readings.services import is_rested
 
@@ -112,6 +112,7 @@ class ReadingHistory:
     block_readings: list = field(default_factory=list)  # Readings: all-cell of block batteries, newest first, with cells
     recent: list = field(default_factory=list)  # Readings: current inspections in the look-back, newest first
     last_charge_at: datetime | None = None
+    first_charge_at: datetime | None = None
     charges_logged: int = 0
     top_ups: list = field(default_factory=list)  # recent top-ups, newest first
     last_top_up_at: datetime | None = None
@@ -693,38 +694,39 @@ def weak_block(data):
 # --- Ageing ------------------------------------------------------------------------------------
 
 
-def cycles(data):
-    """(cycles used for the rule, logged post-charge readings, estimate from the site's charges per day)."""
-    days = max(0, (data.now.date() - data.battery.in_service_date).days)
-    estimated = int(days * float(data.site.charges_per_day))
-    return max(data.charges_logged, estimated), data.charges_logged, estimated
+def charge_count(data):
+    """Charges so far: the one estimate the replacement forecast states too (fleetcare.care.cycles)."""
+    first = data.first_charge_at.date() if data.first_charge_at else None
+    return cycles.charges_so_far(data.battery.in_service_date, data.now.date(), data.site.charges_per_day,
+                                 data.charges_logged, first)
 
 
 def ageing(data):
     profile = data.profile
     days = (data.now.date() - data.battery.in_service_date).days
     years = days / 365.25
-    used, logged, estimated = cycles(data)
+    count = charge_count(data)
     past_life = years > float(profile.design_life_years)
-    past_cycles = used > profile.design_cycles
+    past_cycles = count.whole > profile.design_cycles
     if not (past_life or past_cycles):
         return None
     parts = []
     if past_life:
         parts.append(f"in service {years:.1f} years (design life {profile.design_life_years} years)")
     if past_cycles:
-        parts.append(f"about {used} cycles (design {profile.design_cycles})")
+        parts.append(f"about {count.whole} cycles (design {profile.design_cycles})")
     design = {"name": "design_life", "label": "design life and cycles of the battery profile",
               "value": f"{profile.design_life_years} years / {profile.design_cycles} cycles", "unit": "",
               "source": f"battery profile {profile.name} (maker's figures)"}
     return Detected(
         kind="ageing", severity=1, summary="Past design life: " + "; ".join(parts),
         rule=("A battery in service longer than its profile's design life, or with more estimated charge cycles than "
-              "its design cycles. Cycles are the larger of the logged post-charge readings and the days in service "
-              "times the site's charges per day."),
+              "its design cycles, counting every charge as a cycle. Charges are the site's charges per day times the days "
+              "in service, or, where post-charge readings are logged more often than that, the logged charges plus "
+              "the logged rate before the first of them."),
         readings=[{"in_service_date": str(data.battery.in_service_date), "years_in_service": round(years, 2),
-                   "cycles_logged": logged, "cycles_estimated": estimated,
-                   "charges_per_day": _f(data.site.charges_per_day, 2)}],
+                   "cycles_logged": count.logged, "cycles_estimated": count.whole,
+                   "charges_per_day": _f(count.per_day, 2), "charges_per_day_from": count.basis}],
         thresholds=[design],
         next_step=("Book a capacity test: replacement is usually due when it gives under 80 % of rated capacity "
                    "(IEEE Std 450 uses 80 %, from memory). Put the replacement in the budget."),

@@ -59,9 +59,9 @@ def test_a_charge_at_half_the_design_depth_counts_as_half_a_cycle():
 def test_logged_charges_count_when_they_come_more_often_than_the_site_says():
     facts = tray(in_service_date=date(2026, 6, 5), charges_per_day=0.2, logged_charges=360,
                  first_logged_charge=TODAY - timedelta(days=180))
-    charges, rate, basis = fc.cycles_so_far(facts, TODAY)
-    assert basis == "logged charges" and rate == 2.0
-    assert charges == 360  # logging started on the in-service date
+    count = fc.charge_count(facts, TODAY)
+    assert count.basis == "logged charges" and count.per_day == 2.0
+    assert count.charges == 360  # logging started on the in-service date
 
 
 def test_a_capacity_test_under_80_percent_makes_the_battery_due_now():

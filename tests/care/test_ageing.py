@@ -40,6 +40,7 @@ def test_cycles_are_estimated_from_the_sites_charges_per_day(battery, watered, n
 def test_logged_charges_count_when_they_are_more(battery, crew, site, watered, now, traction_profile):
     site.charges_per_day = Decimal("0")
     site.save()
+    in_service_days_ago(battery, 3, now)  # logged from the first day in service
     traction_profile.design_cycles = 2
     traction_profile.save()
     for days in (3, 2):

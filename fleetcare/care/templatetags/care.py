@@ -19,7 +19,7 @@ LABELS = {
     "days_since": "days since", "done_at": "done", "before_charge": "before charge",
     "hours_since_charge": "hours after charge", "gap_v": "gap (V)", "not_rested": "not used",
     "years_in_service": "years in service", "cycles_logged": "charges logged", "cycles_estimated": "cycles estimated",
-    "charges_per_day": "site charges per day",
+    "charges_per_day": "charges per day", "charges_per_day_from": "charges per day from",
 }
 SKIP = {"inspection_id"}
 
