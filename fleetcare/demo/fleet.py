@@ -17,6 +17,7 @@ from fleetcare import chemistry
 from fleetcare.accounts.roles import ADMINISTRATOR, CREW, MANAGER, SUPERVISOR, ensure_groups
 from fleetcare.fleet import site_units
 from fleetcare.fleet.models import Battery, BatteryProfile, ChargingRoom, Fitting, ShiftWindow, Site, Vehicle
+from fleetcare.readings import state
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 from fleetcare.readings.services import CellEntry, build_cells, summarise
 
@@ -157,6 +158,7 @@ def _history(rng, today, crew):
         rows.extend(cells)
     CellReading.objects.bulk_create(rows, batch_size=2000)
     WaterTopUp.objects.bulk_create(top_ups, batch_size=500)
+    state.rebuild([b.pk for b in batteries])
 
 
 def _at(b, day, hour, minute=0):

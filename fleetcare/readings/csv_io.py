@@ -28,7 +28,7 @@ from django.utils.dateparse import parse_datetime
 from fleetcare import chemistry
 from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Site
-from fleetcare.readings import signals
+from fleetcare.readings import signals, state
 from fleetcare.readings.forms import SG_HIGH, SG_LOW, TEMP_HIGH_C, TEMP_LOW_C
 from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import SG_PLACES, _q, corrected_cell_sg, summarise
@@ -715,6 +715,7 @@ def import_readings(source, *, user, batteries, good_rows_only=False, dry_run=Fa
             return report
         report.imported = True
         ids = sorted(battery_ids)
+        state.refresh(ids)
         if ids:
             transaction.on_commit(lambda: signals.inspections_imported.send(Inspection, battery_ids=ids))
     return report

@@ -208,6 +208,47 @@ class WaterTopUp(models.Model):
         return self.volume_ml / self.battery.profile.cell_count
 
 
+class BatteryState(models.Model):
+    """What the pages need of a battery's history, kept current in the same transaction as every write that
+    changes it (fleetcare.readings.state) and rebuilt from history by `manage.py rebuild_battery_state`.
+
+    For each kind of reading it keeps the latest current one (ties go to the later stored) and its time."""
+
+    battery = models.OneToOneField(Battery, on_delete=models.CASCADE, primary_key=True, related_name="state")
+    latest_inspection = models.ForeignKey(Inspection, on_delete=models.SET_NULL, null=True, related_name="+",
+                                          help_text="The latest current inspection of any kind.")
+    latest_at = models.DateTimeField(null=True)
+    latest_situation = models.CharField(max_length=16, blank=True)
+    all_cells_inspection = models.ForeignKey(Inspection, on_delete=models.SET_NULL, null=True, related_name="+",
+                                             help_text="The latest current all-cell inspection.")
+    all_cells_at = models.DateTimeField(null=True)
+    soc_inspection = models.ForeignKey(Inspection, on_delete=models.SET_NULL, null=True, related_name="+",
+                                       help_text="The latest current reading that shows state of charge "
+                                                 "(after charge, or rested).")
+    soc_at = models.DateTimeField(null=True)
+    soc_percent = models.DecimalField(max_digits=5, decimal_places=1, null=True)
+    spread_inspection = models.ForeignKey(Inspection, on_delete=models.SET_NULL, null=True, related_name="+",
+                                          help_text="The latest current all-cell inspection with a spread.")
+    spread_at = models.DateTimeField(null=True)
+    sg_spread = models.DecimalField(max_digits=5, decimal_places=3, null=True)
+    post_charge_spread_inspection = models.ForeignKey(
+        Inspection, on_delete=models.SET_NULL, null=True, related_name="+",
+        help_text="The latest current all-cell inspection after charge with a spread.")
+    post_charge_spread_at = models.DateTimeField(null=True)
+    post_charge_sg_spread = models.DecimalField(max_digits=5, decimal_places=3, null=True)
+    equalized_inspection = models.ForeignKey(Inspection, on_delete=models.SET_NULL, null=True, related_name="+",
+                                             help_text="The latest current reading taken just after equalizing.")
+    equalized_at = models.DateTimeField(null=True)
+    post_charge_inspection = models.ForeignKey(Inspection, on_delete=models.SET_NULL, null=True, related_name="+",
+                                               help_text="The latest current reading after a charge.")
+    post_charge_at = models.DateTimeField(null=True)
+    charge_count = models.PositiveIntegerField(default=0, help_text="Current readings after a charge, ever.")
+    watered_at = models.DateTimeField(null=True, help_text="The latest current water top-up.")
+
+    def __str__(self):
+        return f"state of battery {self.battery_id}"
+
+
 class ReadingChange(models.Model):
     """Who corrected or removed a reading, when and why. Rows are only ever added."""
 

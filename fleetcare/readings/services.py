@@ -7,7 +7,7 @@ from django.utils import timezone
 
 from fleetcare import chemistry
 from fleetcare.readings.models import ReadingChange
-from fleetcare.readings import signals
+from fleetcare.readings import signals, state
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 
 SG_PLACES = Decimal("0.001")
@@ -134,6 +134,10 @@ def record_inspection(*, battery, user, taken_at, situation, cells, scope=Inspec
         for row in rows:
             row.inspection = inspection
         CellReading.objects.bulk_create(rows)
+        if supersedes is not None:
+            state.refresh([inspection.battery_id])
+        else:
+            state.absorb_inspection(inspection)
         transaction.on_commit(lambda: signals.inspection_recorded.send(Inspection, inspection=inspection))
 
     return _store_once(inspection, write)
@@ -224,6 +228,7 @@ def remove_inspection(inspection, *, user, reason):
             battery_id=inspection.battery_id, action=ReadingChange.Action.REMOVED, inspection=inspection,
             changed_by=user, reason=reason.strip(),
         )
+        state.refresh([inspection.battery_id])
     inspection.deleted_at, inspection.deleted_by = now, user
     return inspection
 
@@ -240,6 +245,7 @@ def remove_top_up(top_up, *, user, reason):
             battery_id=top_up.battery_id, action=ReadingChange.Action.REMOVED, top_up=top_up,
             changed_by=user, reason=reason.strip(),
         )
+        state.refresh([top_up.battery_id])
     top_up.deleted_at = now
     return top_up
 
@@ -259,6 +265,7 @@ def record_top_up(*, battery, user, done_at, volume_ml, volume_entered="", befor
 
     def write():
         top_up.save()
+        state.absorb_top_up(top_up)
         transaction.on_commit(lambda: signals.top_up_recorded.send(WaterTopUp, top_up=top_up))
 
     return _store_once(top_up, write)

@@ -23,6 +23,7 @@ from django.utils import timezone
 
 from fleetcare.accounts.roles import CREW, MANAGER, SUPERVISOR, ensure_groups
 from fleetcare.fleet.models import Battery, BatteryProfile, ChargingRoom, Fitting, ShiftWindow, Site, Vehicle
+from fleetcare.readings import state
 from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import CellEntry, build_cells, summarise
 
@@ -95,11 +96,12 @@ def build(size, user_model):
     Fitting.objects.bulk_create([Fitting(battery=b, vehicle=v, fitted_at=start) for b, v in zip(in_service, vehicles)])
     inspections, cells = _readings(start, profile, users[CREW])
     _top_ups(start, users[CREW])
+    state.rebuild()
     # A steady-state database, not a freshly loaded one: set hint bits and the visibility map, refresh
     # statistics (VACUUM cannot run inside a transaction, as in a test: there only ANALYZE).
     command = "ANALYZE" if connection.in_atomic_block else "VACUUM ANALYZE"
     with connection.cursor() as cursor:
-        for table in ("readings_inspection", "readings_cellreading", "readings_watertopup", "fleet_battery", "fleet_fitting"):
+        for table in ("readings_inspection", "readings_cellreading", "readings_watertopup", "readings_batterystate", "fleet_battery", "fleet_fitting"):
             cursor.execute(f"{command} {table}")
     return Fleet(size, sites, profile, users[SUPERVISOR], users[CREW], users[MANAGER], batteries, inspections, cells)
 

@@ -1,0 +1,182 @@
+"""Each battery's current state (BatteryState), kept in step with its history by the writes in services.py and
+csv_io.py, in their own transaction, so pages read one row per battery instead of the battery's whole history.
+
+A new reading or top-up is folded into the row (`absorb_inspection`, `absorb_top_up`): constant work whatever the
+history. A correction, a removal or a bulk import recomputes the rows it touched from history (`refresh`), and
+`manage.py rebuild_battery_state` recomputes every row. The battery rows are locked first (FOR NO KEY UPDATE,
+which does not block readings being stored for them), so two writers of one battery's state take turns and
+the second computes from what the first committed.
+"""
+from dataclasses import dataclass
+
+from django.db.models import Count, IntegerField, Max, OuterRef, Q, Subquery
+from django.db.models.functions import Coalesce
+
+from fleetcare.fleet.models import Battery
+from fleetcare.readings.models import BatteryState, Inspection, WaterTopUp
+
+CHUNK = 400  # batteries per rebuild query (SQLite allows 999 parameters in one statement)
+
+
+@dataclass(frozen=True)
+class Latest:
+    """One 'latest reading of a kind' the row keeps: its inspection (`<name>_inspection`), time (`<name>_at`)
+    and some of its values copied (inspection field -> state field). `where` and `matches` say the same rule,
+    once for SQL and once for a reading in hand; tests/readings/test_battery_state.py holds them together."""
+
+    name: str
+    where: Q
+    matches: object
+    copies: tuple = ()
+
+
+SHOWS_SOC = set(Inspection.SHOWS_STATE_OF_CHARGE)
+POST_CHARGE = set(Inspection.POST_CHARGE)
+ALL_CELLS = Inspection.Scope.ALL_CELLS
+
+KINDS = (
+    Latest("latest", Q(), lambda i: True, (("situation", "latest_situation"),)),
+    Latest("all_cells", Q(scope=ALL_CELLS), lambda i: i.scope == ALL_CELLS),
+    Latest("soc", Q(situation__in=SHOWS_SOC, soc_percent__isnull=False),
+           lambda i: i.situation in SHOWS_SOC and i.soc_percent is not None, (("soc_percent", "soc_percent"),)),
+    Latest("spread", Q(scope=ALL_CELLS, sg_spread__isnull=False),
+           lambda i: i.scope == ALL_CELLS and i.sg_spread is not None, (("sg_spread", "sg_spread"),)),
+    Latest("post_charge_spread", Q(situation__in=POST_CHARGE, scope=ALL_CELLS, sg_spread__isnull=False),
+           lambda i: i.situation in POST_CHARGE and i.scope == ALL_CELLS and i.sg_spread is not None,
+           (("sg_spread", "post_charge_sg_spread"),)),
+    Latest("equalized", Q(situation=Inspection.Situation.JUST_EQUALIZED),
+           lambda i: i.situation == Inspection.Situation.JUST_EQUALIZED),
+    Latest("post_charge", Q(situation__in=POST_CHARGE), lambda i: i.situation in POST_CHARGE),
+)
+COUNTS = {"charge_count": Q(situation__in=POST_CHARGE)}
+
+STATE_FIELDS = [f.attname for f in BatteryState._meta.concrete_fields if not f.primary_key]
+EMPTY = {f.attname: f.get_default() for f in BatteryState._meta.concrete_fields if not f.primary_key}
+
+
+def lock(battery_ids):
+    """Take the battery rows' lock that every writer of their state takes first (no-op on SQLite, whose
+    writers already take turns)."""
+    ids = sorted(set(battery_ids))
+    list(Battery.objects.select_for_update(no_key=True).filter(pk__in=ids).order_by("pk").values_list("pk", flat=True))
+
+
+def computed(battery_ids):
+    """{battery id: {state field: value}} recomputed from history (every battery named gets a row)."""
+    out = {}
+    ids = sorted(set(battery_ids))
+    for start in range(0, len(ids), CHUNK):
+        out.update(_computed(ids[start:start + CHUNK]))
+    return out
+
+
+def _computed(ids):
+    current = Inspection.objects.current().filter(battery=OuterRef("pk")).order_by("-taken_at", "-pk")
+    annotations = {f"{k.name}_inspection_id": Subquery(current.filter(k.where).values("pk")[:1]) for k in KINDS}
+    for name, where in COUNTS.items():
+        counted = (Inspection.objects.current().filter(where, battery=OuterRef("pk")).order_by()
+                   .values("battery").annotate(n=Count("pk")).values("n"))
+        annotations[name] = Coalesce(Subquery(counted, output_field=IntegerField()), 0)
+    annotations["watered_at"] = Subquery(
+        WaterTopUp.objects.current().filter(battery=OuterRef("pk")).order_by().values("battery")
+        .annotate(last=Max("done_at")).values("last")
+    )
+    rows = list(Battery.objects.filter(pk__in=ids).annotate(**annotations).values("pk", *annotations))
+    wanted = {row[f"{k.name}_inspection_id"] for row in rows for k in KINDS} - {None}
+    copied = {"taken_at"} | {source for k in KINDS for source, _ in k.copies}
+    inspections = {r["pk"]: r for r in Inspection.objects.filter(pk__in=wanted).values("pk", *copied)}
+    out = {}
+    for row in rows:
+        values = {name: row[name] for name in COUNTS} | {"watered_at": row["watered_at"]}
+        for kind in KINDS:
+            found = inspections.get(row[f"{kind.name}_inspection_id"])
+            values[f"{kind.name}_inspection_id"] = found["pk"] if found else None
+            values[f"{kind.name}_at"] = found["taken_at"] if found else None
+            for source, target in kind.copies:
+                values[target] = found[source] if found else EMPTY[target]
+        out[row["pk"]] = values
+    return out
+
+
+def refresh(battery_ids):
+    """Recompute these batteries' rows from history and store them (inside the caller's transaction)."""
+    ids = sorted(set(battery_ids))
+    if not ids:
+        return
+    lock(ids)
+    rows = computed(ids)
+    BatteryState.objects.bulk_create(
+        [BatteryState(battery_id=pk, **values) for pk, values in rows.items()],
+        batch_size=CHUNK, update_conflicts=True, unique_fields=["battery"], update_fields=STATE_FIELDS,
+    )
+
+
+def rebuild(battery_ids=None):
+    """Recompute every battery's row (or these batteries'); returns how many rows were written."""
+    ids = list(Battery.objects.values_list("pk", flat=True)) if battery_ids is None else list(battery_ids)
+    for start in range(0, len(ids), CHUNK):
+        refresh(ids[start:start + CHUNK])
+    return len(ids)
+
+
+def _later(inspection, state, kind):
+    at, pk = getattr(state, f"{kind.name}_at"), getattr(state, f"{kind.name}_inspection_id")
+    return at is None or (inspection.taken_at, inspection.pk) > (at, pk or 0)
+
+
+def absorb_inspection(inspection):
+    """Fold a newly stored, current inspection into its battery's row."""
+    lock([inspection.battery_id])
+    state = BatteryState.objects.filter(battery_id=inspection.battery_id).first()
+    if state is None:
+        refresh([inspection.battery_id])
+        return
+    changed = set()
+    for kind in KINDS:
+        if kind.matches(inspection) and _later(inspection, state, kind):
+            setattr(state, f"{kind.name}_inspection_id", inspection.pk)
+            setattr(state, f"{kind.name}_at", inspection.taken_at)
+            changed |= {f"{kind.name}_inspection", f"{kind.name}_at"}
+            for source, target in kind.copies:
+                setattr(state, target, getattr(inspection, source))
+                changed.add(target)
+    if inspection.situation in POST_CHARGE:
+        state.charge_count += 1
+        changed.add("charge_count")
+    if changed:
+        state.save(update_fields=sorted(changed))
+
+
+def absorb_top_up(top_up):
+    """Fold a newly stored top-up into its battery's row."""
+    lock([top_up.battery_id])
+    state = BatteryState.objects.filter(battery_id=top_up.battery_id).first()
+    if state is None:
+        refresh([top_up.battery_id])
+    elif state.watered_at is None or top_up.done_at > state.watered_at:
+        state.watered_at = top_up.done_at
+        state.save(update_fields=["watered_at"])
+
+
+def stored(battery_ids):
+    """{battery id: {state field: value}} as stored (batteries without a row are left out)."""
+    return {
+        row.pop("battery_id"): row
+        for row in BatteryState.objects.filter(battery_id__in=list(battery_ids)).values("battery_id", *STATE_FIELDS)
+    }
+
+
+def differences(battery_ids=None):
+    """{battery id: {field names}} where the stored state is not what the history gives (a battery without a row
+    reads as one with nothing recorded)."""
+    ids = list(Battery.objects.values_list("pk", flat=True)) if battery_ids is None else list(battery_ids)
+    out = {}
+    for start in range(0, len(ids), CHUNK):
+        part = ids[start:start + CHUNK]
+        have, want = stored(part), computed(part)
+        for pk, values in want.items():
+            row = have.get(pk, EMPTY)
+            fields = {name for name, value in values.items() if row[name] != value}
+            if fields:
+                out[pk] = fields
+    return out
