@@ -9,6 +9,7 @@ from django.views.decorators.http import require_POST
 from fleetcare.accounts.access import role_required
 from fleetcare.accounts.roles import ADMINISTRATOR, CREW, SUPERVISOR, has_role
 from fleetcare.dashboard import selectors, settings_page
+from fleetcare.dashboard.landing import landing, sees_overview
 from fleetcare.dashboard.forms import ChangeSettingForm
 from fleetcare.fleet.access import site_or_404, visible_batteries, visible_sites
 from fleetcare.fleet.models import BatteryProfile
@@ -18,13 +19,13 @@ from fleetcare.fleet.site_time import site_clock
 @role_required(CREW)
 def start(request):
     """Where signing in lands: the crew on today's work (the site they last used), everyone else on the overview."""
-    if has_role(request.user, SUPERVISOR):
-        return redirect("dashboard:home")
-    return redirect("planner:home")
+    return redirect(landing(request.user))
 
 
 @role_required(CREW)
 def home(request):
+    if not sees_overview(request.user):  # the crew's front page is today's work, as after signing in
+        return redirect(landing(request.user))
     scope = site_or_404(request.user, request.GET["site"]) if request.GET.get("site") else None
     sites = list(visible_sites(request.user))
     with site_clock(scope) if scope else nullcontext():

@@ -33,7 +33,7 @@ def test_it_sends_anonymous_users_to_sign_in(client, db, name):
 
 def test_the_menu_shows_budget_to_managers_only(client, crew, manager, world):
     client.force_login(crew)
-    assert b">Budget</a>" not in client.get(reverse("dashboard:home")).content
+    assert b">Budget</a>" not in client.get(reverse("dashboard:home"), follow=True).content
     client.force_login(manager)
     assert b">Budget</a>" in client.get(reverse("dashboard:home")).content
 

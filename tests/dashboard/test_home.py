@@ -44,8 +44,12 @@ def test_it_sends_anonymous_users_to_sign_in(client, db):
     assert client.get(HOME)["Location"].startswith("/accounts/login/")
 
 
-def test_crew_see_the_overview_with_the_big_log_a_reading_button(crew_client, battery):
-    html = crew_client.get(HOME).content.decode()
+def test_crew_land_on_todays_work_with_the_big_log_a_reading_button(crew_client, battery, site):
+    crew_client.cookies["fc_site"] = site.code  # the site this tablet last opened
+    response = crew_client.get(HOME, follow=True)
+    assert response.redirect_chain[-1][0] == f"/planner/{site.code}/today/"
+    html = response.content.decode()
+    assert "plotly" not in html.lower()
     assert re.search(r'class="btn btn-primary btn-lg[^"]*" href="/readings/[^"]*">Log a reading<', html)
 
 

@@ -43,8 +43,10 @@ def test_the_demo_loads_once_and_every_page_renders(client, demo_world, django_a
     assert Site.objects.count() == 3
     assert Inspection.objects.filter(taken_at__lt=Inspection.objects.latest("taken_at").taken_at.replace(year=2025)).exists() or \
         Inspection.objects.count() > 1000
-    client.login(username="demo-crew", password="try-fleetcare-2026")
+    client.login(username="demo-supervisor", password="try-fleetcare-2026")
     assert client.get(reverse("dashboard:home")).status_code == 200
+    client.login(username="demo-crew", password="try-fleetcare-2026")
+    assert client.get(reverse("dashboard:home"), follow=True).status_code == 200  # the crew's today's work
     weak = Battery.objects.get(serial="HRW-B07")
     page = client.get(reverse("fleet:battery", args=[weak.pk]))
     assert page.status_code == 200

@@ -14,6 +14,21 @@ def test_crew_land_on_todays_work_and_supervisors_on_the_overview(crew_client, c
     assert client.get("/start/")["Location"] == reverse("dashboard:home")
 
 
+def test_the_front_page_takes_the_crew_where_signing_in_does_and_supervisors_to_the_overview(
+        crew_client, client, supervisor, manager, site):
+    crew_client.cookies[LAST_SITE_COOKIE] = site.code
+    assert crew_client.get("/")["Location"] == crew_client.get("/start/")["Location"] == reverse("planner:home")
+    landed = crew_client.get("/", follow=True)
+    assert [url for url, _ in landed.redirect_chain] == [reverse("planner:home"), reverse("planner:today", args=[site.code])]
+    html = landed.content.decode()
+    assert "plotly" not in html.lower() and ">Overview</a>" not in html  # no chart library; the menu offers no overview
+    for boss in (supervisor, manager):
+        client.force_login(boss)
+        overview = client.get("/")
+        assert overview.status_code == 200 and "Fleet overview" in overview.content.decode()
+        assert ">Overview</a>" in overview.content.decode()
+
+
 def test_the_site_last_opened_is_remembered(crew_client, site, care_site):
     assert crew_client.get(reverse("planner:home")).status_code == 200  # two sites, none opened yet: choose
     response = crew_client.get(reverse("planner:today", args=[care_site.code]))

@@ -4,6 +4,7 @@ from django.utils.safestring import mark_safe
 
 from fleetcare.accounts.roles import SUPERVISOR, has_role
 from fleetcare.charts import to_json
+from fleetcare.dashboard import landing
 
 register = template.Library()
 
@@ -42,3 +43,9 @@ def pct(value):
 def can_see_settings(user):
     """Supervisors and up see the settings in force."""
     return bool(getattr(user, "is_authenticated", False)) and has_role(user, SUPERVISOR)
+
+
+@register.filter
+def sees_overview(user):
+    """Whether the menu offers the overview (the crew's front page is today's work: dashboard.landing)."""
+    return bool(getattr(user, "is_authenticated", False)) and landing.sees_overview(user)
