@@ -112,6 +112,8 @@ EQUALIZE = "equalize"
 WATER = "water"
 EQUALIZE_FINDINGS = {"high_spread": "high-spread", "sulfation": "sulfation"}
 WATER_FINDINGS = {"low_level": "low electrolyte level"}
+# A finding's level as its page names it (care.models.Finding.Severity); a warning goes unsaid.
+_FINDING_LEVELS = {1: "note: ", 3: "urgent "}
 MAX_HORIZON_DAYS = 28
 SOLVER_SECONDS = 10.0
 _RELATIVE_TOLERANCE = 1e-9
@@ -356,7 +358,7 @@ class Violation:
 
 
 def plan_care(inputs: PlanInputs, solver_seconds: float = SOLVER_SECONDS) -> Plan:
-    """Plan equalizing and watering; `solver_seconds` caps the integer program's time for the whole plan."""
+    """Plan equalizing and watering; `solver_seconds` caps the search for a better order over the whole plan."""
     grid = _Grid(inputs)
     equalizing = _plan_equalizing(grid, solver_seconds)
     watering = _plan_watering(grid, equalizing.placed)
@@ -544,7 +546,8 @@ def _need_from(grid, index, kind, triggers, finding_labels) -> _Need | None:
     findings = [f for f in grid.batteries[index].findings if f.kind in finding_labels]
     for finding in findings:
         note = f": {finding.note}" if finding.note else ""
-        triggers.append((0, f"{finding_labels[finding.kind]} finding (severity {finding.severity}){note}"))
+        level = _FINDING_LEVELS.get(finding.severity, "")
+        triggers.append((0, f"{level}{finding_labels[finding.kind]} finding{note}"))
     if not triggers:
         return None
     due = min(d for d, _ in triggers)
@@ -674,6 +677,12 @@ class _Load:
 # --- Equalizing -------------------------------------------------------------------------------
 
 
+# How the order was chosen, in words a supervisor reads in `manage.py plan`.
+QUICK_ORDER = "quick order (earliest due first)"
+BEST_ORDER = "best order found"
+FEWEST_LATE = "the fewest days late possible"
+
+
 @dataclass
 class _Outcome:
     placed: list  # (need, slot) for equalizing, (need, day) for watering
@@ -747,7 +756,7 @@ def _summarise_waves(methods: list[str]) -> str:
     if not methods:
         return "nothing due"
     counts = ", ".join(f"{methods.count(m)} by {m}" for m in sorted(set(methods)))
-    return f"wave by wave, each wave on the capacity the earlier ones left ({len(methods)} waves: {counts})"
+    return f"first charges, then repeats, each round on the chargers the earlier ones left ({len(methods)} rounds: {counts})"
 
 
 def _equalize_chronologically(grid: _Grid, first: list[_Need]) -> _Outcome:
@@ -776,7 +785,7 @@ def _equalize_chronologically(grid: _Grid, first: list[_Need]) -> _Outcome:
         placed,
         unplaced,
         grid.slots_per_day,
-        "earliest due first slot by slot, repeats added as placed (beat the wave-by-wave plan)",
+        f"{QUICK_ORDER}, shift by shift, repeats added as placed",
         load,
     )
 
@@ -787,20 +796,20 @@ def _solve_wave(grid: _Grid, wave: list[_Need], load: _Load, budget: _Budget) ->
     greedy_score = _wave_score(grid, wave, greedy)
     alone = sum(_alone_cost(grid, n, load) for n in wave)
     if greedy_score[0] == alone:
-        return greedy, "earliest due first, proven by its bound", alone
+        return greedy, f"{QUICK_ORDER}, {FEWEST_LATE}", alone
     if budget.left() < 0.05:
-        return greedy, "earliest due first (solver time used up)", alone
+        return greedy, f"{QUICK_ORDER}; no time left to look for a better one", alone
     exact, proven, bound = _milp_wave(grid, wave, load, greedy_score, budget.left())
     if exact is None or not _wave_is_feasible(grid, exact, load):
-        return greedy, "earliest due first (solver gave no plan)", max(alone, bound)
+        return greedy, f"{QUICK_ORDER}; the search for a better one found none", max(alone, bound)
     best, by = (
-        (greedy, "earliest due first")
+        (greedy, QUICK_ORDER)
         if greedy_score <= _wave_score(grid, wave, exact)
-        else (exact, "integer program (HiGHS)")
+        else (exact, BEST_ORDER)
     )  # on a tie EDD wins: it orders ties by serial
     if proven:
-        return best, f"{by}, proven by the integer program", _wave_score(grid, wave, best)[0]
-    return best, f"{by} (solver stopped at its time limit)", max(alone, bound)
+        return best, f"{by}, {FEWEST_LATE}", _wave_score(grid, wave, best)[0]
+    return best, f"{by}; the search stopped at its time limit", max(alone, bound)
 
 
 class _Budget:
@@ -1026,7 +1035,7 @@ def _water_by_day(grid: _Grid, first: list[_Need], capacity: int | None, repeats
     else:
         why = f"no free slot before the horizon ends: the crew's {capacity} waterings a day are all planned"
     unplaced = [(n, why) for n in waiting]
-    return _Outcome(placed, unplaced, 1, "earliest due first by day" + (", repeats added as placed" if repeats else ""))
+    return _Outcome(placed, unplaced, 1, f"{QUICK_ORDER}, day by day" + (", repeats added as placed" if repeats else ""))
 
 
 def _water_task(grid: _Grid, need: _Need, day: int, equalizing_placed: list) -> PlannedTask:

@@ -90,7 +90,7 @@ def test_a_plan_with_a_long_reason_gives_a_valid_calendar(site):
     task = solver.PlannedTask(
         battery_id=7, serial="TW-007", kind="equalize", room_id=1, day=start.date(), start=start,
         end=start + dt.timedelta(hours=3), due_day=start.date(), days_overdue=2, severity=3,
-        reason="high-spread finding (severity 3): spread 0,031 after charge; equalizing every 7 days, last on 2026-03-21",
+        reason="urgent high-spread finding: spread 0,031 after charge; equalizing every 7 days, last on 2026-03-21",
     )
     plan = solver.Plan(site_id=site.pk, start_date=start.date(), days=7, tasks=(task,), unplaced=(),
                          lower_bound_overdue_days=2, proven_optimal=True, method="test")

@@ -30,6 +30,13 @@ def test_it_prints_a_readable_plan_without_json(warehouse):
     assert "equalize  TW-F001" in text
 
 
+def test_its_readable_plan_says_how_the_order_was_chosen_without_solver_terms(warehouse):
+    text = run("--site", "tw", "--days", "7")
+    assert "order" in text.splitlines()[0] and "Days late, all batteries together: " in text
+    for word in ("integer program", "HiGHS", "proven", "lower bound", "severity", "solver", "wave"):
+        assert word not in text
+
+
 @pytest.mark.parametrize("days", ["6", "29", "0"])
 def test_it_refuses_days_outside_7_to_28(warehouse, days):
     with pytest.raises(CommandError, match="--days must be between 7 and 28"):

@@ -19,7 +19,7 @@ class Command(BaseCommand):
         parser.add_argument("--days", type=int, default=14, help=f"Days to plan, {MIN_DAYS} to {MAX_DAYS} (default 14).")
         parser.add_argument("--json", action="store_true", help="Print the plan as JSON.")
         parser.add_argument("--solver-seconds", type=float, default=solver.SOLVER_SECONDS,
-                            help="Most time the integer program may take for the whole plan.")
+                            help="Most seconds spent looking for a better order of the work (whole plan).")
 
     def handle(self, *args, site, days, json: bool, solver_seconds, **options):
         if not MIN_DAYS <= days <= MAX_DAYS:
@@ -43,8 +43,7 @@ class Command(BaseCommand):
             self.stdout.write(_json_dumps(data))
             return
         self.stdout.write(f"{found.name}: {days} days from {entry.today}; {plan.method}")
-        self.stdout.write(f"Overdue battery-days {plan.total_overdue_days} (lower bound {plan.lower_bound_overdue_days}"
-                          f"{', proven best' if plan.proven_optimal else ''})")
+        self.stdout.write(f"Days late, all batteries together: {plan.total_overdue_days} ({_how_few(plan)})")
         for task in plan.tasks:
             late = f"  {task.days_overdue} d late" if task.days_overdue else ""
             self.stdout.write(f"{task.start:%a %d %b %H:%M}-{task.end:%H:%M}  {task.kind:<9} {task.serial}{late}")
@@ -52,6 +51,12 @@ class Command(BaseCommand):
             self.stdout.write(f"NOT PLANNED  {missing.kind:<9} {missing.serial}: {missing.reason}")
         for v in violations:
             self.stderr.write(f"LIMIT BROKEN: {v}")
+
+
+def _how_few(plan):
+    if plan.proven_optimal:
+        return "the fewest the chargers, shift windows and airflow allow"
+    return f"whatever the order, at least {plan.lower_bound_overdue_days}"
 
 
 def _json_dumps(data):
