@@ -19,6 +19,9 @@ from fleetcare.care import policy as care_policy
 from fleetcare.care import rules
 from fleetcare.care.models import Finding, Policy
 from fleetcare.fleet.models import Battery, Fitting
+from fleetcare.planner import due
+from fleetcare.planner import policy as planning_policy
+from fleetcare.planner.models import Policy as PlanningPolicy
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 
 log = logging.getLogger(__name__)
@@ -159,6 +162,14 @@ def load(batteries, now):
         data[top_up.battery_id].top_ups.append(top_up)
     for row in top_ups.order_by().values("battery_id").annotate(last=Max("done_at")):
         data[row["battery_id"]].last_top_up_at = row["last"]
+
+    planning = list(PlanningPolicy.objects.select_related("site", "profile"))
+    window_start = now - timedelta(days=due.CHARGE_WINDOW_DAYS)
+    for d in data.values():
+        d.planning = planning_policy.resolve(d.battery.site_id, d.battery.profile_id, planning)
+        zone = d.site.tzinfo
+        d.charge_dates = [r.taken_at.astimezone(zone).date() for r in d.recent
+                          if r.situation in Inspection.POST_CHARGE and r.taken_at >= window_start]
 
     for fitting in Fitting.objects.filter(battery_id__in=ids).select_related("vehicle").order_by("-fitted_at"):
         data[fitting.battery_id].fittings.append(fitting)

@@ -48,8 +48,6 @@ THRESHOLDS = (
               "about 50 % (about 12.2 V per 12 V block) must be charged at once"),
     Threshold("event_window_days", "deep discharge and early watering: events count for", Decimal("30"), "days",
               "FleetCare default: a month of events, so one slip does not stay on the list", integer=True),
-    Threshold("watering_interval_days", "watering: longest interval between top-ups", Decimal("14"), "days",
-              "FleetCare default, not a published figure; set the maker's watering interval", integer=True),
     Threshold("water_use_window_days", "water use: window it is measured over", Decimal("30"), "days",
               "FleetCare default: water use is judged per cell per month", integer=True),
     Threshold("max_overcharge_percent", "water use: most overcharge per charge, % of rated capacity", Decimal("12"),

@@ -9,6 +9,7 @@ from datetime import datetime, timedelta
 from fleetcare import chemistry
 from fleetcare.care import cycles, wording
 from fleetcare.fleet import site_units
+from fleetcare.planner import due
 from fleetcare.readings.services import is_rested
 
 DAYS_PER_MONTH = 30
@@ -116,6 +117,8 @@ class ReadingHistory:
     charges_logged: int = 0
     top_ups: list = field(default_factory=list)  # recent top-ups, newest first
     last_top_up_at: datetime | None = None
+    planning: object = None  # the planning policy as it applies to this battery (fleetcare.planner.policy)
+    charge_dates: list = field(default_factory=list)  # local dates of post-charge readings, planner's charge window
     latest_levels: dict = field(default_factory=dict)  # position -> (level, taken_at)
     fittings: list = field(default_factory=list)
     hot_readings: list = field(default_factory=list)  # HotReadings over the lowest hot limit, newest first
@@ -524,20 +527,28 @@ def low_level(data):
 
 
 def watering_overdue(data):
-    if not data.profile.watering_allowed:
+    """Overdue by the planner's own rule (fleetcare.planner.due), so the finding, the plan and the overview agree."""
+    if data.planning is None or not due.takes_water(data.profile) or data.battery.status not in due.CARED_FOR_STATUSES:
         return None
-    interval = timedelta(days=int(data.policy.watering_interval_days))
-    since = data.last_top_up_at or _start_of(data.battery, data.now)
-    if data.now - since <= interval:
+    zone = data.site.tzinfo
+    today = data.now.astimezone(zone).date()
+    last = data.last_top_up_at.astimezone(zone).date() if data.last_top_up_at else None
+    schedule = due.schedule(data.planning, False, True, data.charge_dates, None, today, data.site.charges_per_day)
+    late = due.days_overdue(due.watering_due(schedule, today, last, data.battery.in_service_date), today)
+    if not late:
         return None
-    days = (data.now - since).days
-    what = f"last top-up {data.last_top_up_at:%d %b %Y}" if data.last_top_up_at else "no top-up logged"
+    days = (today - (last or data.battery.in_service_date)).days
+    what = (f"last top-up {data.last_top_up_at:%d %b %Y}" if data.last_top_up_at
+            else f"no top-up logged since it went into service on {data.battery.in_service_date:%d %b %Y}")
+    thresholds = [data.planning.evidence("water_every_days")]
+    if int(data.planning.water_every_charges):
+        thresholds.append(data.planning.evidence("water_every_charges"))
     return Detected(
         kind="watering_overdue", severity=2,
-        summary=f"Watering overdue: {what}, {days} days ago (interval {interval.days} days)",
-        rule="A flooded battery with no top-up logged for longer than its watering interval.",
-        readings=[{"last_top_up_at": _when(data.last_top_up_at), "days_since": days}],
-        thresholds=[data.policy.evidence("watering_interval_days")],
+        summary=f"Watering overdue: {what}, {days} days ago (interval {schedule.water_every_days} days)",
+        rule="A flooded battery with no top-up logged for longer than its watering interval in the planning policy.",
+        readings=[{"last_top_up_at": _when(data.last_top_up_at), "days_since": days, "days_overdue": late}],
+        thresholds=thresholds,
         next_step="Check the levels after the next charge and top up to the level mark; log the top-up.",
         caution=WATER_CAUTION,
     )

@@ -9,7 +9,6 @@ linear in I_gas, so that difference is exact.
 """
 import datetime as dt
 import hashlib
-import math
 from collections import defaultdict
 from dataclasses import dataclass, field
 
@@ -17,16 +16,16 @@ from django.db.models import Count, Max, Q
 from django.db.models.functions import Coalesce
 
 from fleetcare import chemistry
-from fleetcare.planner import solver
+from fleetcare.planner import due, solver
 from fleetcare.care.models import Finding
 from fleetcare.fleet.models import Battery, ChargingRoom, Fitting, ShiftWindow
 from fleetcare.planner import policy as planner_policy
 from fleetcare.planner.models import EqualizingCharge, Policy, SiteSettings
 from fleetcare.readings.models import Inspection, WaterTopUp
 
-PLANNED_STATUSES = (Battery.Status.IN_SERVICE, Battery.Status.CHARGING, Battery.Status.SPARE)
+PLANNED_STATUSES = due.CARED_FOR_STATUSES
 PLANNER_FINDINGS = ("high_spread", "sulfation", "low_level")
-CHARGE_WINDOW_DAYS = 28
+CHARGE_WINDOW_DAYS = due.CHARGE_WINDOW_DAYS
 INPUTS_VERSION = "1"
 
 
@@ -205,8 +204,8 @@ def _facts(battery, site, policies, charge, reading, watered_at, vehicle):
     settings = planner_policy.resolve(site.pk, profile.pk, policies)
     facts = CareRecord(
         battery=battery, settings=settings,
-        can_equalize=bool(profile.equalizing_allowed),
-        can_water=bool(profile.is_flooded and profile.watering_allowed),
+        can_equalize=due.takes_equalizing(profile),
+        can_water=due.takes_water(profile),
         vehicle=vehicle or "",
     )
     equalized = [charge and charge["last"], reading and reading["last_equalized"]]
@@ -242,14 +241,15 @@ def _room_facts(room, members):
     return RoomLoad(room, at_once, sum(loads), source)
 
 
-def charges_logged(logged_times, since_date, site, now):
-    """(charges per day, charges since `since_date`) from post-charge readings in the last four weeks, or None."""
-    if not logged_times:
-        return None
-    per_day = len(logged_times) / CHARGE_WINDOW_DAYS
-    if since_date is None:
-        return per_day, len(logged_times)
-    return per_day, sum(1 for t in logged_times if _local_date(t, site) > since_date)
+def logged_dates(logged_times, site):
+    """The local dates of the post-charge readings logged in the last CHARGE_WINDOW_DAYS days."""
+    return [_local_date(t, site) for t in logged_times]
+
+
+def schedule_of(facts, site, logged_times, now):
+    """The battery's equalizing and watering schedule (fleetcare.planner.due) from its settings and charges."""
+    return due.schedule(facts.settings, facts.can_equalize, facts.can_water, logged_dates(logged_times, site),
+                        facts.last_equalized, site_today(site, now), site.charges_per_day)
 
 
 def short_note(summary, limit=100):
@@ -276,31 +276,12 @@ def _battery_care(facts, site, findings, logged_times, now):
     settings = facts.settings
     if not facts.can_equalize and not facts.can_water:
         return None
-    per_day = float(site.charges_per_day) or 1.0
-    logged = charges_logged(logged_times, facts.last_equalized, site, now)
-    if logged is not None:
-        per_day, since = logged
-    elif facts.last_equalized is not None:
-        since = math.floor((site_today(site, now) - facts.last_equalized).days * per_day)
-    else:
-        since = 0
-    per_day = max(per_day, 0.01)
-    eq_days = int(settings.equalize_every_days) or None
-    eq_charges = int(settings.equalize_every_charges) or None
-    water_days = int(settings.water_every_days) or None
-    water_charges = int(settings.water_every_charges) or None
-    if water_charges:
-        by_charges = math.ceil(water_charges / per_day)
-        water_days = min(water_days, by_charges) if water_days else by_charges
+    sched = schedule_of(facts, site, logged_times, now)
     kinds = set()
     if facts.can_equalize:
         kinds |= set(solver.EQUALIZE_FINDINGS)
-    else:
-        eq_days = eq_charges = None
     if facts.can_water:
         kinds |= set(solver.WATER_FINDINGS)
-    else:
-        water_days = None
     battery = facts.battery
     return solver.BatteryCare(
         battery_id=battery.pk,
@@ -308,16 +289,17 @@ def _battery_care(facts, site, findings, logged_times, now):
         room_id=battery.charging_room_id,
         airflow_m3h=round(facts.equalize_airflow_m3h, 3),
         equalize_hours=max(0.5, float(settings.equalize_hours)),
-        equalize_every_days=eq_days,
-        equalize_every_charges=eq_charges,
-        charges_per_day=round(per_day, 4),
-        charges_since_equalize=since,
+        equalize_every_days=sched.equalize_every_days,
+        equalize_every_charges=sched.equalize_every_charges,
+        charges_per_day=sched.charges_per_day,
+        charges_since_equalize=sched.charges_since_equalize,
         last_equalized=facts.last_equalized,
-        water_every_days=water_days,
+        water_every_days=sched.water_every_days,
         last_watered=facts.last_watered,
         watering_minutes=float(settings.watering_minutes),
         findings=tuple(
             solver.FindingInput(kind=f.kind, severity=int(f.severity), note=short_note(f.summary))
             for f in findings if f.kind in kinds and not acted_on(f, facts)
         ),
+        in_service=battery.in_service_date,
     )

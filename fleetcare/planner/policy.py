@@ -63,6 +63,14 @@ class Resolved(policy_layers.Resolved):
         value = self.values[name]
         return value.source if value.is_default else f"planning policy for {value.set_at}"
 
+    def evidence(self, name):
+        """A setting as a finding records it (the same shape as fleetcare.care.policy's thresholds)."""
+        setting, value = BY_NAME[name], self.values[name]
+        return {
+            "name": name, "label": setting.label, "value": str(value.value), "unit": setting.unit,
+            "source": self.source(name), "default": str(setting.default), "default_source": setting.source,
+        }
+
 
 def defaults():
     return Resolved(policy_layers.resolve_values(SETTINGS, None, None, ()))

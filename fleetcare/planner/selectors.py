@@ -1,6 +1,5 @@
 """Reads for the planner's pages, the API and the dashboard, each in a fixed number of queries."""
 import datetime as dt
-import math
 from collections import defaultdict
 from dataclasses import dataclass, field
 
@@ -16,14 +15,14 @@ from fleetcare.chemistry import equalizing
 from fleetcare.fleet import site_units
 from fleetcare.fleet.access import visible_sites
 from fleetcare.fleet.models import Battery, Site
-from fleetcare.planner import solver
+from fleetcare.planner import due, solver
 from fleetcare.planner import inputs as planner_inputs
 from fleetcare.planner import policy as planner_policy
 from fleetcare.planner.models import EqualizingCharge, EqualizingReading, Policy, TaskSkip
 from fleetcare.planner.plans import PLAN_DAYS, plans_for
 from fleetcare.readings.models import Inspection, WaterTopUp
 
-EQUALIZE, WATER, ALL_CELLS, PILOT = "equalize", "water", "all_cells", "pilot"
+EQUALIZE, WATER, ALL_CELLS, PILOT = due.EQUALIZE, due.WATER, due.ALL_CELLS, due.PILOT
 KINDS = (EQUALIZE, WATER, ALL_CELLS, PILOT)
 KIND_ORDER = {kind: n for n, kind in enumerate(KINDS)}
 
@@ -148,26 +147,13 @@ def read_after_equalizing(facts):
 
 
 def reading_tasks(facts, today):
-    """(kind, due day, why) for the all-cell and pilot readings due by today (never before they are due)."""
+    """(kind, due day, why) for the all-cell and pilot readings due by today (fleetcare.planner.due)."""
     settings = facts.settings
-    found = []
-    every_all = int(settings.all_cells_every_days) or None
-    if read_after_equalizing(facts):
-        ended = timezone.localtime(facts.equalizing_ended_at, facts.battery.site.tzinfo)
-        found.append((ALL_CELLS, ended.date(), f"after the equalizing charge that ended {ended:%-d %b %H:%M}: choose “Just equalized”"))
-    elif facts.last_all_cells is None:
-        found.append((ALL_CELLS, today, "no all-cell reading on record"))
-    elif every_all and facts.last_all_cells + dt.timedelta(days=every_all) <= today:
-        found.append((ALL_CELLS, facts.last_all_cells + dt.timedelta(days=every_all),
-                      f"every {every_all} days, last on {facts.last_all_cells:%d %b}"))
-    every_pilot = int(settings.pilot_every_days) or None
-    if facts.battery.profile.is_flooded and every_pilot and not found:
-        if facts.last_reading is None:
-            found.append((PILOT, today, "no reading on record"))
-        elif facts.last_reading + dt.timedelta(days=every_pilot) <= today:
-            found.append((PILOT, facts.last_reading + dt.timedelta(days=every_pilot),
-                          f"every {every_pilot} days, last reading on {facts.last_reading:%d %b}"))
-    return found
+    ended = (timezone.localtime(facts.equalizing_ended_at, facts.battery.site.tzinfo)
+             if read_after_equalizing(facts) else None)
+    return [(kind, t.day, t.why) for kind, t in due.reading_triggers(
+        today, facts.battery.profile.is_flooded, facts.last_all_cells, facts.last_reading, ended,
+        settings.all_cells_every_days, settings.pilot_every_days)]
 
 
 def _done_today(site_ids, day_starts, earliest):
@@ -276,26 +262,6 @@ def tasks_for_today(user, now=None):
     days = site_days(visible_sites(user).order_by("name"), now)
     tasks = [task for day in days.values() for task in day.tasks]
     return sorted(tasks, key=TodayTask.sort_key)
-
-
-def first_due(care, today):
-    """(equalize due day, water due day) for a planner battery, as the planner works them out; None = not due ever."""
-
-    def due(triggers):
-        return min(triggers) if triggers else None
-
-    eq = []
-    if care.equalize_every_days:
-        eq.append(today if care.last_equalized is None else care.last_equalized + dt.timedelta(days=care.equalize_every_days))
-    if care.equalize_every_charges:
-        left = care.equalize_every_charges - care.charges_since_equalize
-        eq.append(today + dt.timedelta(days=math.ceil(left / care.charges_per_day)))
-    water = []
-    if care.water_every_days:
-        water.append(today if care.last_watered is None else care.last_watered + dt.timedelta(days=care.water_every_days))
-    for finding in care.findings:
-        (eq if finding.kind in solver.EQUALIZE_FINDINGS else water).append(today)
-    return due(eq), due(water)
 
 
 def work_due_for_battery(battery, now=None):

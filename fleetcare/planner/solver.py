@@ -16,8 +16,8 @@ Model
   baseline airflow + the sum of the equalizing batteries' airflow <= the room's airflow; per site
   and slot: batteries off their trucks for equalizing <= spares_available - spares_reserve;
   per day: waterings <= waterings_per_day (None = no limit).
-* A task is due on a day (the earliest of: its interval since the last one, its charge count,
-  today if a finding is open). It is never planned before its due day. Overdue battery-days of a
+* A task is due on a day (fleetcare.planner.due: the earliest of its interval since the last one, its
+  charge count, today if a finding is open). It is never planned before its due day. Overdue battery-days of a
   placed task = max(0, planned day - due day); a task that finds no slot is unplaced and counts
   days - due (that is, overdue through the horizon end + 1).
 * Repeat tasks: the next one is due interval days after the day the previous one is planned, so
@@ -92,6 +92,8 @@ import numpy as np
 from scipy.optimize import Bounds, LinearConstraint, milp
 from scipy.sparse import coo_matrix
 
+from fleetcare.planner import due
+
 __all__ = [
     "EQUALIZE",
     "WATER",
@@ -108,8 +110,8 @@ __all__ = [
     "plan_care",
 ]
 
-EQUALIZE = "equalize"
-WATER = "water"
+EQUALIZE = due.EQUALIZE
+WATER = due.WATER
 EQUALIZE_FINDINGS = {"high_spread": "high-spread", "sulfation": "sulfation"}
 WATER_FINDINGS = {"low_level": "low electrolyte level"}
 # A finding's level as its page names it (care.models.Finding.Severity); a warning goes unsaid.
@@ -179,6 +181,7 @@ class BatteryCare:
     last_watered: date | None = None
     watering_minutes: float = 15.0
     findings: tuple[FindingInput, ...] = ()
+    in_service: date | None = None  # intervals count from here while nothing is on record
 
     def __post_init__(self):
         object.__setattr__(self, "findings", tuple(self.findings))
@@ -190,12 +193,7 @@ class BatteryCare:
             raise ValueError(f"battery {self.serial}: equalize_hours and charges_per_day must be > 0, airflow >= 0")
 
     def equalize_interval_days(self) -> int | None:
-        intervals = []
-        if self.equalize_every_days:
-            intervals.append(self.equalize_every_days)
-        if self.equalize_every_charges:
-            intervals.append(math.ceil(self.equalize_every_charges / self.charges_per_day))
-        return min(intervals) if intervals else None
+        return due.equalize_interval_days(self.equalize_every_days, self.equalize_every_charges, self.charges_per_day)
 
 
 WindowLike = DailyWindow | tuple
@@ -505,41 +503,16 @@ class _Need:
 
 
 def _first_equalize(grid: _Grid, index: int) -> _Need | None:
-    battery = grid.batteries[index]
-    triggers = []
-    if battery.equalize_every_days:
-        if battery.last_equalized is None:
-            triggers.append((0, "no equalizing charge on record"))
-        else:
-            due = (battery.last_equalized - grid.start).days + battery.equalize_every_days
-            triggers.append(
-                (due, f"equalizing every {battery.equalize_every_days} days, last on {battery.last_equalized}")
-            )
-    if battery.equalize_every_charges:
-        charges_left = battery.equalize_every_charges - battery.charges_since_equalize
-        due = math.ceil(charges_left / battery.charges_per_day)
-        triggers.append(
-            (
-                due,
-                (
-                    f"equalizing every {battery.equalize_every_charges} charges, "
-                    f"{battery.charges_since_equalize} since the last"
-                ),
-            )
-        )
-    return _need_from(grid, index, EQUALIZE, triggers, EQUALIZE_FINDINGS)
+    b = grid.batteries[index]
+    triggers = due.equalize_triggers(grid.start, b.last_equalized, b.in_service, b.equalize_every_days,
+                                     b.equalize_every_charges, b.charges_since_equalize, b.charges_per_day)
+    return _need_from(grid, index, EQUALIZE, [((t.day - grid.start).days, t.why) for t in triggers], EQUALIZE_FINDINGS)
 
 
 def _first_watering(grid: _Grid, index: int) -> _Need | None:
-    battery = grid.batteries[index]
-    triggers = []
-    if battery.water_every_days:
-        if battery.last_watered is None:
-            triggers.append((0, "no watering on record"))
-        else:
-            due = (battery.last_watered - grid.start).days + battery.water_every_days
-            triggers.append((due, f"watering every {battery.water_every_days} days, last on {battery.last_watered}"))
-    return _need_from(grid, index, WATER, triggers, WATER_FINDINGS)
+    b = grid.batteries[index]
+    triggers = due.water_triggers(grid.start, b.last_watered, b.in_service, b.water_every_days)
+    return _need_from(grid, index, WATER, [((t.day - grid.start).days, t.why) for t in triggers], WATER_FINDINGS)
 
 
 def _need_from(grid, index, kind, triggers, finding_labels) -> _Need | None:

@@ -6,6 +6,8 @@ import pytest
 from scipy import constants
 
 from fleetcare.care.models import Policy
+from fleetcare.fleet.models import Battery
+from fleetcare.planner.models import Policy as PlanningPolicy
 from tests.care.helpers import detect, inspect, kinds, one, sgs, water
 
 DAY = dt.timedelta(days=1)
@@ -30,22 +32,33 @@ def test_a_later_ok_level_for_the_same_cell_clears_it(battery, crew, watered, no
     assert "low_level" not in kinds(detect(battery, now))
 
 
-def test_watering_is_overdue_after_the_interval(battery, crew, now):
-    water(battery, crew, now - 15 * DAY, 1000)
+def test_watering_is_overdue_the_day_after_the_planners_interval(battery, crew, now):
+    water(battery, crew, now - 8 * DAY, 1000)
     finding = one(detect(battery, now), "watering_overdue")
-    assert "15 days ago (interval 14 days)" in finding.summary
-    assert finding.evidence["threshold"]["value"] == "14"
+    assert "8 days ago (interval 7 days)" in finding.summary
+    assert finding.evidence["threshold"]["name"] == "water_every_days"
+    assert finding.evidence["threshold"]["value"] == "7"
 
 
-def test_watering_thirteen_days_ago_is_a_near_miss(battery, crew, now):
-    water(battery, crew, now - 13 * DAY, 1000)
+def test_watering_due_today_is_not_yet_overdue(battery, crew, now):
+    water(battery, crew, now - 7 * DAY, 1000)
     assert detect(battery, now) == []
 
 
-def test_the_watering_interval_follows_policy(battery, crew, now, traction_profile):
-    Policy.objects.create(profile=traction_profile, watering_interval_days=21)
+def test_the_watering_interval_follows_the_planning_policy(battery, crew, now, traction_profile):
+    PlanningPolicy.objects.create(profile=traction_profile, water_every_days=21)
     water(battery, crew, now - 15 * DAY, 1000)
     assert detect(battery, now) == []
+
+
+def test_a_battery_never_watered_counts_from_its_first_day_in_service(battery, now):
+    Battery.objects.filter(pk=battery.pk).update(in_service_date=now.date() - 10 * DAY)
+    battery.refresh_from_db()
+    finding = one(detect(battery, now), "watering_overdue")
+    assert "no top-up logged since it went into service" in finding.summary
+    Battery.objects.filter(pk=battery.pk).update(in_service_date=now.date() - 6 * DAY)
+    battery.refresh_from_db()
+    assert "watering_overdue" not in kinds(detect(battery, now))
 
 
 def test_sealed_batteries_are_never_due_for_water(sealed_battery, now):

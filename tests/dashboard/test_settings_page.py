@@ -35,8 +35,8 @@ def test_it_shows_every_declared_setting_with_its_default_and_source(client, sup
     keys = {r["key"] for g in response.context["groups"] for r in g["rows"]}
     assert len(keys) == (len(care_policy.THRESHOLDS) + len(planner_policy.SETTINGS) + len(budget_policy.SETTINGS)
                          + len(entry_validation.SETTINGS))
-    watering = row(response, "findings:watering_interval_days")
-    assert watering["value"].value == Decimal("14") and watering["value"].is_default
+    watering = row(response, "planning:water_every_days")
+    assert watering["value"].value == Decimal("7") and watering["value"].is_default
     body = response.content.decode()
     assert "built-in default" in body and "not a published figure" in body
     assert "change_setting" not in str(response.context["can_change"]) and "/change/" not in body  # read only
@@ -57,17 +57,17 @@ def test_the_layers_apply_profile_then_site_then_site_and_profile(client, superv
 def test_an_administrator_sets_a_value_for_the_site_and_profile(client, admin_user, site, battery):
     client.force_login(admin_user)
     url = reverse("dashboard:change_setting", args=[site.code])
-    response = client.post(url, {"key": "findings:watering_interval_days", "scope": "site_profile", "value": "10",
+    response = client.post(url, {"key": "findings:storage_charge_days", "scope": "site_profile", "value": "10",
                                  "note": "maker's letter", "profile": battery.profile.pk})
     assert response.status_code == 302
     policy = CarePolicy.objects.get(site=site, profile=battery.profile)
-    assert policy.watering_interval_days == 10 and policy.note == "maker's letter"
-    assert care_policy.resolve(battery, list(CarePolicy.objects.all())).watering_interval_days == 10
-    shown = row(page(client, site, battery.profile), "findings:watering_interval_days")["value"]
+    assert policy.storage_charge_days == 10 and policy.note == "maker's letter"
+    assert care_policy.resolve(battery, list(CarePolicy.objects.all())).storage_charge_days == 10
+    shown = row(page(client, site, battery.profile), "findings:storage_charge_days")["value"]
     assert shown.set_at == f"site tw and profile {battery.profile.name}" and shown.note == "maker's letter"
-    client.post(url, {"key": "findings:watering_interval_days", "scope": "site_profile", "value": "",
+    client.post(url, {"key": "findings:storage_charge_days", "scope": "site_profile", "value": "",
                       "profile": battery.profile.pk})
-    assert CarePolicy.objects.get(site=site, profile=battery.profile).watering_interval_days is None
+    assert CarePolicy.objects.get(site=site, profile=battery.profile).storage_charge_days is None
 
 
 @pytest.mark.parametrize("value, message", [("ten", "Enter a whole number"), ("-3", "greater than or equal to 0")])
@@ -91,7 +91,7 @@ def test_an_unknown_setting_is_refused(client, admin_user, site, battery):
 def test_a_supervisor_cannot_change_a_setting(client, supervisor, site, battery):
     client.force_login(supervisor)
     response = client.post(reverse("dashboard:change_setting", args=[site.code]), {
-        "key": "findings:watering_interval_days", "scope": "site", "value": "3", "profile": battery.profile.pk})
+        "key": "findings:storage_charge_days", "scope": "site", "value": "3", "profile": battery.profile.pk})
     assert response.status_code == 403 and not CarePolicy.objects.exists()
 
 

@@ -11,7 +11,7 @@ from fleetcare.fleet.models import Battery, BatteryProfile, ShiftWindow
 from fleetcare.planner import inputs as planner_inputs
 from fleetcare.planner.models import Policy, RoomSettings
 from fleetcare.planner.plans import plans_for
-from fleetcare.planner.selectors import first_due
+from fleetcare.planner import due
 
 from .conftest import add_batteries, cared_for, equalized, finding, inspect, water
 
@@ -115,7 +115,8 @@ def test_charges_come_from_logged_post_charge_readings_else_the_site_setting(war
     cares = {c.battery_id: c for c in entry.inputs.batteries}
     assert cares[logged.pk].charges_since_equalize == 5
     assert cares[logged.pk].charges_per_day == pytest.approx(5 / 28, abs=1e-4)  # five in the four-week window
-    assert first_due(cares[logged.pk], entry.today)[0] == entry.today  # fifth charge reached
+    care = cares[logged.pk]
+    assert due.equalizing_due(care, entry.today, care.last_equalized, care.in_service) == entry.today  # fifth charge
     assert cares[unlogged.pk].charges_per_day == 1.5
     assert cares[unlogged.pk].charges_since_equalize == 3  # two days at 1.5 a day
 
