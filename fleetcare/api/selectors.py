@@ -7,7 +7,7 @@ from fleetcare.care.models import Finding
 from fleetcare.fleet.access import visible_batteries, visible_sites
 from fleetcare.fleet.models import Battery, BatteryProfile, Fitting
 from fleetcare.planner.selectors import work_due_for_battery
-from fleetcare.readings.models import Inspection, WaterTopUp
+from fleetcare.readings.models import BatteryState, Inspection, WaterTopUp
 
 
 def _float(value):
@@ -160,13 +160,11 @@ def next_work_due(battery):
 
 def battery_status(battery: Battery):
     """Latest state of charge, latest spread, open findings and planned work for one battery."""
-    readings = Inspection.objects.current().filter(battery=battery).order_by("-taken_at", "-pk")
-    latest = readings.first()
-    latest_all = latest if latest is not None and latest.scope == Inspection.Scope.ALL_CELLS else (
-        readings.filter(scope=Inspection.Scope.ALL_CELLS).first()
-    )
-    last_top_up = WaterTopUp.objects.current().filter(battery=battery).order_by("-done_at").values_list(
-        "done_at", flat=True).first()
+    kept = BatteryState.objects.filter(battery=battery).select_related(
+        "latest_inspection", "all_cells_inspection").first()
+    latest = kept and kept.latest_inspection
+    latest_all = kept and kept.all_cells_inspection
+    last_top_up = kept and kept.watered_at
     findings = open_findings(battery)
     return {
         "battery": battery.pk,

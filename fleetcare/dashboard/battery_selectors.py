@@ -46,22 +46,21 @@ OVERDUE_KINDS = {"equalizing": "Equalizing overdue", "watering": "Watering overd
 
 
 def latest_soc():
-    """Subquery: a battery's state of charge at its latest reading that shows one (after charge, or rested).
-    The overview's bands, the battery list's column and its filter all use this one expression."""
-    shows = Inspection.objects.current().shows_state_of_charge().filter(battery=OuterRef("pk")).order_by("-taken_at")
-    return Subquery(shows.values("soc_percent")[:1])
+    """A battery's state of charge at its latest reading that shows one (after charge, or rested), as kept in its
+    state row (readings.state). The overview's bands, the battery list's column and its filter all use this one
+    expression."""
+    return F("state__soc_percent")
 
 
 def with_latest_reading(batteries):
     """Annotate each battery with its state of charge (latest_soc()), its latest current inspection's time and
-    situation, and the spread of its latest all-cell inspection (a pilot reading has no spread worth showing)."""
-    latest = Inspection.objects.current().filter(battery=OuterRef("pk")).order_by("-taken_at")
-    all_cells = latest.filter(scope=Inspection.Scope.ALL_CELLS, sg_spread__isnull=False)
+    situation, and the spread of its latest all-cell inspection (a pilot reading has no spread worth showing):
+    read from the battery's kept state, one row whatever the length of its history."""
     return batteries.annotate(
         latest_soc=latest_soc(),
-        latest_spread=Subquery(all_cells.values("sg_spread")[:1]),
-        latest_taken_at=Subquery(latest.values("taken_at")[:1]),
-        latest_situation=Subquery(latest.values("situation")[:1]),
+        latest_spread=F("state__sg_spread"),
+        latest_taken_at=F("state__latest_at"),
+        latest_situation=F("state__latest_situation"),
         current_asset=Subquery(
             Fitting.objects.filter(battery=OuterRef("pk"), removed_at__isnull=True).values("vehicle__asset_number")[:1]
         ),

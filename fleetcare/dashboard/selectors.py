@@ -14,7 +14,7 @@ from functools import reduce
 from types import SimpleNamespace
 from urllib.parse import urlencode
 
-from django.db.models import BooleanField, Count, ExpressionWrapper, Max, Min, OuterRef, Q, Subquery, Sum
+from django.db.models import BooleanField, Count, ExpressionWrapper, F, Max, Min, Q, Sum
 from django.urls import reverse
 from django.utils import timezone
 
@@ -82,12 +82,10 @@ def overview(batteries, sites, scope=None, now=None):
 
 def _battery_rows(batteries, now, today):
     """One dict per battery with what the counts need: its latest SOC, care dates and latest spread."""
-    current = Inspection.objects.current().filter(battery=OuterRef("pk")).order_by("-taken_at")
-    post_charge_all = current.post_charge().filter(scope=Inspection.Scope.ALL_CELLS, sg_spread__isnull=False)
     rows = list(
         batteries.annotate(
             latest_soc=fleet.latest_soc(),
-            latest_post_charge_spread=Subquery(post_charge_all.values("sg_spread")[:1]),
+            latest_post_charge_spread=F("state__post_charge_sg_spread"),
             overdue_equalizing=ExpressionWrapper(fleet.overdue_q("equalizing", now), output_field=BooleanField()),
             overdue_watering=ExpressionWrapper(fleet.overdue_q("watering", now), output_field=BooleanField()),
         )

@@ -12,7 +12,7 @@ import hashlib
 from collections import defaultdict
 from dataclasses import dataclass, field
 
-from django.db.models import Count, Max, Q
+from django.db.models import Count, F, Max, Q
 from django.db.models.functions import Coalesce
 
 from fleetcare import chemistry
@@ -21,7 +21,7 @@ from fleetcare.care.models import Finding
 from fleetcare.fleet.models import Battery, ChargingRoom, Fitting, ShiftWindow
 from fleetcare.planner import policy as planner_policy
 from fleetcare.planner.models import EqualizingCharge, Policy, SiteSettings
-from fleetcare.readings.models import Inspection, WaterTopUp
+from fleetcare.readings.models import BatteryState, Inspection
 
 PLANNED_STATUSES = due.CARED_FOR_STATUSES
 PLANNER_FINDINGS = ("high_spread", "sulfation", "low_level")
@@ -114,11 +114,10 @@ def build(sites, now, days):
             last=Max(Coalesce("ended_at", "started_at")), last_end=Max("ended_at"),
             running=Count("pk", filter=Q(ended_at__isnull=True)))
     }
+    # Each battery's kept state (readings.state): its latest readings and top-up, without reading its history.
     readings = {
-        row["battery"]: row for row in Inspection.objects.current().filter(battery__in=ids).values("battery").annotate(
-            last_equalized=Max("taken_at", filter=Q(situation=Inspection.Situation.JUST_EQUALIZED)),
-            last_all=Max("taken_at", filter=Q(scope=Inspection.Scope.ALL_CELLS)),
-            last_any=Max("taken_at"),
+        row["battery"]: row for row in BatteryState.objects.filter(battery__in=ids).values(
+            "battery", "watered_at", last_equalized=F("equalized_at"), last_all=F("all_cells_at"), last_any=F("latest_at"),
         )
     }
     since = now - dt.timedelta(days=CHARGE_WINDOW_DAYS)
@@ -127,10 +126,7 @@ def build(sites, now, days):
         battery__in=ids, taken_at__gte=since
     ).values_list("battery", "taken_at"):
         logged[battery_id].append(taken_at)
-    watered = dict(
-        WaterTopUp.objects.current().filter(battery__in=ids).values("battery").annotate(last=Max("done_at"))
-        .values_list("battery", "last")
-    )
+    watered = {battery_id: row["watered_at"] for battery_id, row in readings.items() if row["watered_at"]}
     vehicles = dict(
         Fitting.objects.filter(battery__in=ids, removed_at__isnull=True).values_list("battery", "vehicle__asset_number")
     )
