@@ -8,7 +8,6 @@ asked for. A reading is already stored when its battery has a current reading of
 in the same minute, whatever stored it (tablet, API, demo, an earlier import): the import adds nothing
 for it.
 """
-import bisect
 import csv
 import datetime as dt
 import io
@@ -28,8 +27,9 @@ from django.utils.dateparse import parse_datetime
 from fleetcare import chemistry
 from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Site
-from fleetcare.readings import signals, state
-from fleetcare.readings.forms import SG_HIGH, SG_LOW, TEMP_HIGH_C, TEMP_LOW_C
+from fleetcare.readings import signals, state, validation
+from fleetcare.readings.models import EntryPolicy
+from fleetcare.readings.validation import SG_HIGH, SG_LOW, TEMP_HIGH_C, TEMP_LOW_C
 from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import SG_PLACES, _q, corrected_cell_sg, summarise
 from fleetcare.spreadsheets import CsvWriter
@@ -46,19 +46,14 @@ TEMP_UNITS = {"c": Site.TempUnit.CELSIUS, "°c": Site.TempUnit.CELSIUS, "f": Sit
               "°f": Site.TempUnit.FAHRENHEIT}
 # A header may name the temperature's unit itself ("temp_c", "temp_f"); a temp_unit cell still wins.
 TEMP_HEADERS = {"temp": None, "temp_c": Site.TempUnit.CELSIUS, "temp_f": Site.TempUnit.FAHRENHEIT}
-EARLIEST = dt.datetime(2000, 1, 1, tzinfo=dt.timezone.utc)
-FUTURE_ALLOWANCE = dt.timedelta(minutes=10)
 LONGEST_VALUE = 20  # characters: no reading is longer; a longer cell is refused before it is parsed
 # The import's chunk: rows read, checked and written together (memory is bounded by this, not the file).
 CHUNK_ROWS = getattr(settings, "FLEETCARE_IMPORT_CHUNK_ROWS", 10_000)
 LISTED_NOTES = 1_000  # notes of each kind kept for the page; the full list goes to the notes file
 # Only one import writes at a time (PostgreSQL advisory lock): two imports of the same file store it once.
 IMPORT_LOCK_KEY = 0x46435349  # "FCSI"
-
-# How far one cell may sit from the median of the others before the import points at it (a slip of the
-# hand or a misread is likelier than a cell reading high after a charge). Source: common practice.
-SLIP_ABOVE_SG = Decimal("0.020")
-SLIP_BELOW_SG = Decimal("0.050")
+# A file's dates come from whatever recorded them, not from this tablet.
+FILE_DATE_ADVICE = "Check the date in the file (and the clock of whatever recorded it)."
 
 
 # --- Records ---------------------------------------------------------------------------------------
@@ -308,11 +303,23 @@ class Checker:
         self.known = {}  # serial -> Battery or None
         self.report = report
         self.notes_out = notes_out
-        self.latest_allowed = (now or timezone.now()) + FUTURE_ALLOWANCE
+        self.now = now or timezone.now()
+        self.policies = None  # the entry settings' rows, loaded once for the whole file
+        self.limits = {}  # battery pk -> validation.Limits: the rules every entry path applies
         self.cell_values = {}  # (profile, site unit, header unit) -> {texts: CellValues or None}
         self.sgs = {}
         self.positions = {}  # cell number as written -> number or None
         self.seen = {}  # reading key -> first line, to find a reading given twice in one file
+
+    def limits_of(self, battery):
+        """The battery's entry limits (validation.limits_for with the settings in force), once per battery."""
+        limits = self.limits.get(battery.pk)
+        if limits is None:
+            if self.policies is None:
+                self.policies = list(EntryPolicy.objects.all())
+            values = validation.settings_for(battery, self.policies)
+            limits = self.limits[battery.pk] = validation.limits_for(battery, self.now, values)
+        return limits
 
     def note(self, line, column, message, level=Note.PROBLEM, cell=None):
         self.report.note(Note(line, column, message, level, cell), self.notes_out)
@@ -430,19 +437,14 @@ class Checker:
             except site_time.NonexistentLocalTime as exc:
                 return None, f"taken_at {_shown(text)}: {exc}"
             except OverflowError:
-                return None, f"taken_at {_shown(text)} is before 2000-01-01: not a reading this fleet can have."
-        try:
-            taken_at = taken_at.astimezone(dt.timezone.utc)
-        except OverflowError:
-            return None, f"taken_at {_shown(text)} is before 2000-01-01: not a reading this fleet can have."
-        if taken_at > self.latest_allowed:
-            return None, f"taken_at {text} is in the future (more than 10 minutes ahead of now)."
-        if taken_at < EARLIEST:
-            return None, f"taken_at {text} is before 2000-01-01: not a reading this fleet can have."
-        if battery is not None and site_time.local(taken_at, battery).date() < battery.in_service_date:
-            return None, (f"taken_at {text} is before {battery.serial} entered service "
-                          f"({battery.in_service_date:%Y-%m-%d}).")
-        return taken_at, None
+                return None, f"taken_at {_shown(text)}: that date cannot be right. {FILE_DATE_ADVICE}"
+        if battery is None:
+            return None, None  # the serial's own message says enough; a date is judged against its battery
+        problem = validation.when_problem(taken_at, self.limits_of(battery), self.now, label=f"taken_at {_shown(text)}",
+                                          advice=FILE_DATE_ADVICE)
+        if problem:
+            return None, problem
+        return taken_at.astimezone(dt.timezone.utc), None
 
     def _rest_hours(self, rows):
         texts = {row.rest_hours for row in rows} - {""}
@@ -551,37 +553,21 @@ class Checker:
             self.note(row.line, column, message, cell=position)
 
     def _note_slips(self, reading):
-        """Cells unlike the rest of the tray: stored as written (the reading was taken), but listed to check."""
-        sgs = [(cell, cell.values.sg) for cell in reading.cells if cell.values.sg is not None]
-        if len(sgs) < 3:
+        """Cells unlike the rest of the tray (validation.find_suspects, the entry screens' rule): the reading was
+        taken, so they are stored as written, but each is listed with its line and cell to check."""
+        sgs = {cell.position: cell.values.sg for cell in reading.cells if cell.values.sg is not None}
+        if not sgs:
             return
-        ordered = sorted(sg for _, sg in sgs)
-        if ordered[-1] - ordered[0] <= SLIP_ABOVE_SG:  # a tray this even has no cell unlike the rest
+        suspects = validation.find_suspects(sgs, self.limits_of(reading.battery))
+        if not suspects:
             return
-        for cell, sg in sgs:
-            median = _median_without(ordered, sg)
-            if sg - median > SLIP_ABOVE_SG:
-                why = f"{sg - median:.3f} above the median of the other cells ({median:.3f}): a slip, a misread or acid added?"
-            elif median - sg > SLIP_BELOW_SG:
-                why = f"{median - sg:.3f} below the median of the other cells ({median:.3f}): a weak cell, or a slip?"
-            else:
-                continue
-            self.note(cell.line, "sg", f"cell {cell.position} reads {sg}, {why} Stored as written; check it.",
-                      level=Note.CHECK, cell=cell.position)
+        lines = {cell.position: cell.line for cell in reading.cells}
+        for position, suspect in suspects.items():
+            self.note(lines[position], "sg", f"cell {position}: {suspect.fact}: {suspect.likely}? "
+                                             "Stored as written; check it.", level=Note.CHECK, cell=position)
 
 
 _UNSEEN = object()
-
-
-def _median_without(ordered, value):
-    """The median of a sorted list once one occurrence of value is left out."""
-    k = bisect.bisect_left(ordered, value)
-    n = len(ordered) - 1
-
-    def at(i):  # the i-th of the others
-        return ordered[i if i < k else i + 1]
-
-    return at(n // 2) if n % 2 else (at(n // 2 - 1) + at(n // 2)) / 2
 
 
 def _position(text):

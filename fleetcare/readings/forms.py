@@ -31,9 +31,11 @@ def check_temp_c(temp_c, site):
 
 
 def check_when(form, name, battery):
-    """The one date rule (validation.date_problem) on a form's date field, as the field's own error."""
+    """The one date rule (validation.when_problem) on a form's date field, as the field's own error; with the
+    form's limits (the settings in force for the battery, as the tablet's check has them) where it has them."""
     when = form.cleaned_data.get(name)
-    problem = validation.date_problem(when, battery, timezone.now(), label=str(form.fields[name].label))
+    limits = getattr(form, "limits", None) or validation.limits_for(battery, timezone.now())
+    problem = validation.when_problem(when, limits, timezone.now(), label=str(form.fields[name].label))
     if problem:
         raise forms.ValidationError(problem)
     return when

@@ -8,6 +8,7 @@ here: these judge one reading on its own.
 Messages are for the crew and name the box they belong to; keys follow the form's field names
 (`temp`, `taken_at`, `sg_3`, `volts_2`, `confirm_3`, `__all__`).
 """
+import bisect
 import datetime as dt
 from dataclasses import dataclass
 from decimal import Decimal, InvalidOperation
@@ -148,19 +149,35 @@ def date_window(battery, now, future_minutes=None):
     return DateWindow(earliest=earliest, latest=now + dt.timedelta(minutes=int(minutes)), earliest_reason=reason)
 
 
-def date_problem(when, battery, now, label="Taken at", future_minutes=None):
+def date_problem(when, battery, now, label="Taken at", future_minutes=None, advice=None):
     """A message naming the field when `when` (aware) is ahead of now by more than the allowance or before service."""
+    return window_problem(when, date_window(battery, now, future_minutes), now, label, advice)
+
+
+def when_problem(when, limits, now, label="Taken at", advice=None):
+    """As date_problem, from a battery's Limits (its settings already resolved): what the CSV import and the
+    forms use, so a site's own `future_minutes` holds on every path."""
+    window = DateWindow(earliest=limits.earliest, latest=now + dt.timedelta(minutes=limits.future_minutes),
+                        earliest_reason=limits.earliest_reason)
+    return window_problem(when, window, now, label, advice)
+
+
+CLOCK_ADVICE = "Check the date and the tablet's clock."
+
+
+def window_problem(when, window, now, label="Taken at", advice=None):
+    """The one date rule: a message when `when` is outside the window, else None. `advice` ends the messages
+    about an impossible or future date (the tablet's clock, or for a file, where the date came from)."""
     if when is None:
         return None
+    advice = advice or CLOCK_ADVICE
     try:
         when_utc = when.astimezone(dt.timezone.utc)
     except (OverflowError, ValueError):
-        return f"{label}: that date cannot be right. Check the date and the tablet's clock."
-    window = date_window(battery, now, future_minutes)
+        return f"{label}: that date cannot be right. {advice}"
     if when_utc > window.latest:
         minutes = int((window.latest - now).total_seconds() // 60)
-        return (f"{label} is in the future (more than {minutes} minutes from now). "
-                "Check the date and the tablet's clock.")
+        return f"{label} is in the future (more than {minutes} minutes from now). {advice}"
     if when_utc < window.earliest:
         return f"{label} is {window.earliest_reason}. Check the date."
     return None
@@ -246,37 +263,95 @@ def _in_band(value, limits):
             and (limits.band_high is None or value <= limits.band_high))
 
 
-def suspect_cells(sg_by_position, limits):
-    """{position: why} for cells unlike the rest of the tray: likely typing slips, to be confirmed or fixed.
+ABOVE, BELOW, OVER_BAND, UNDER_BAND = "above", "below", "over_band", "under_band"
+
+
+@dataclass(frozen=True)
+class Suspect:
+    """Why one cell is unlike the rest of the tray: its SG, which way, and what it was compared with
+    (the median of the other cells, or the band's edge)."""
+
+    sg: Decimal
+    kind: str
+    reference: Decimal
+
+    @property
+    def fact(self):
+        """What is unusual, in the crew's words: "1.328 is 0.047 above the other cells (median 1.281)"."""
+        if self.kind == ABOVE:
+            return f"{self.sg} is {self.sg - self.reference:.3f} above the other cells (median {self.reference})"
+        if self.kind == BELOW:
+            return f"{self.sg} is {self.reference - self.sg:.3f} below the other cells (median {self.reference})"
+        if self.kind == OVER_BAND:
+            return f"{self.sg} is above what this battery reads when full (over {self.reference})"
+        return f"{self.sg} is below what this battery reads when flat (under {self.reference})"
+
+    @property
+    def likely(self):
+        """What usually causes it."""
+        return {ABOVE: "a slip, a misread or acid added by mistake", BELOW: "a weak cell, or a slip"}.get(
+            self.kind, "a misread, or a hydrometer to check")
+
+    @property
+    def ask(self):
+        """What the entry screen asks for before the reading is saved."""
+        if self.kind == ABOVE:
+            return "A slip? Fix it, or confirm it."
+        if self.kind == BELOW:
+            return "Fix a slip, or confirm a weak cell."
+        return "Fix it, or confirm it is what the hydrometer shows."
+
+
+def _median_without(ordered, value):
+    """The median of a sorted list once one occurrence of `value` is left out (as statistics.median would give)."""
+    k = bisect.bisect_left(ordered, value)
+    n = len(ordered) - 1
+
+    def at(i):  # the i-th of the others
+        return ordered[i if i < k else i + 1]
+
+    return at(n // 2) if n % 2 else (at(n // 2 - 1) + at(n // 2)) / 2
+
+
+def find_suspects(sg_by_position, limits):
+    """{position: Suspect} for cells unlike the rest of the tray: likely typing slips, to be confirmed or fixed.
 
     A cell is suspect when it is more than `slip_above` above the median of the other cells, more than
     `slip_below` below it, or outside the profile's plausible band while the other cells are inside it
     (a whole tray outside the band is `tray_problem`'s business, not a slip). Medians need
-    `slip_min_others` other cells; a pilot-cell reading is judged by the band alone.
+    `slip_min_others` other cells; a pilot-cell reading is judged by the band alone. A plain function over
+    values, sorted once, so the CSV import can run it on every reading of a large file.
     """
-    suspects = {}
     filled = {p: Decimal(v) for p, v in sg_by_position.items() if v is not None}
+    if not filled:
+        return {}
+    ordered = sorted(filled.values())
+    lowest, highest = ordered[0], ordered[-1]
+    if (highest - lowest <= min(limits.slip_above, limits.slip_below) and _in_band(lowest, limits)
+            and _in_band(highest, limits)):
+        return {}  # an even tray inside the band: no cell can be unlike the rest (the common case)
+    suspects = {}
     for position, sg in sorted(filled.items()):
-        others = [v for p, v in filled.items() if p != position]
-        middle = Decimal(median(others)).quantize(SG_PLACES) if others else None
-        if len(others) >= limits.slip_min_others:
+        middle = _median_without(ordered, sg).quantize(SG_PLACES) if len(ordered) > 1 else None
+        if len(ordered) - 1 >= limits.slip_min_others:
             if sg - middle > limits.slip_above:
-                suspects[position] = (f"{sg} is {sg - middle:.3f} above the other cells (median {middle}). "
-                                      "A slip? Fix it, or confirm it.")
+                suspects[position] = Suspect(sg, ABOVE, middle)
                 continue
             if middle - sg > limits.slip_below:
-                suspects[position] = (f"{sg} is {middle - sg:.3f} below the other cells (median {middle}). "
-                                      "Fix a slip, or confirm a weak cell.")
+                suspects[position] = Suspect(sg, BELOW, middle)
                 continue
         if _in_band(sg, limits) or (middle is not None and not _in_band(middle, limits)):
             continue
         if limits.band_high is not None and sg > limits.band_high:
-            suspects[position] = (f"{sg} is above what this battery reads when full (over {limits.band_high}). "
-                                  "Fix it, or confirm it is what the hydrometer shows.")
+            suspects[position] = Suspect(sg, OVER_BAND, limits.band_high)
         else:
-            suspects[position] = (f"{sg} is below what this battery reads when flat (under {limits.band_low}). "
-                                  "Fix it, or confirm it is what the hydrometer shows.")
+            suspects[position] = Suspect(sg, UNDER_BAND, limits.band_low)
     return suspects
+
+
+def suspect_cells(sg_by_position, limits):
+    """{position: why} for the entry screens: each suspect cell's fact and what to do about it."""
+    return {p: f"{s.fact}. {s.ask}" for p, s in find_suspects(sg_by_position, limits).items()}
 
 
 def tray_problem(sg_by_position, limits, serial=""):

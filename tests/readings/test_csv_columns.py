@@ -1,7 +1,9 @@
 """The optional columns (temp_unit, rest_hours), values stored but listed to check, and crafted input."""
+import datetime as dt
 from decimal import Decimal
 
 import pytest
+from django.utils import timezone
 
 from fleetcare.fleet.models import Battery, Site
 from fleetcare.readings.csv_io import import_readings
@@ -78,15 +80,54 @@ def test_a_slip_is_stored_as_written_and_listed_with_its_line_and_cell(battery, 
     report = run(tray(temp="25", unit="C", sgs=sgs), crew)
     assert report.ok and report.imported
     assert [(n.line, n.cell) for n in report.checks] == [(3, 2)]
-    assert report.checks[0].message.startswith("cell 2 reads 1.328, 0.047 above the median of the other cells (1.281)")
+    assert report.checks[0].message == ("cell 2: 1.328 is 0.047 above the other cells (median 1.281): a slip, a "
+                                        "misread or acid added by mistake? Stored as written; check it.")
     assert CellReading.objects.get(position=2).sg == Decimal("1.328")
 
 
+def test_suspect_cells_are_the_entry_screens_suspects_and_listed_in_the_dry_run_too(battery, crew):
+    """The same values the tablet would ask to confirm (validation.suspect_cells), found by the import."""
+    from fleetcare.readings import validation
+
+    sgs = ["1.281"] * 24
+    sgs[4] = "1.221"  # 0.060 below the others: a weak cell, or a slip
+    sgs[9] = "1.305"  # 0.024 above: a slip, a misread or acid
+    report = run(tray(temp="25", unit="C", sgs=sgs), crew, dry_run=True)
+    assert report.ok and not Inspection.objects.exists()
+    screen = validation.suspect_cells({n: Decimal(sg) for n, sg in enumerate(sgs, start=1)},
+                                      validation.limits_for(battery, timezone.now()))
+    assert sorted(screen) == [n.cell for n in report.checks] == [5, 10]
+    assert [n.line for n in report.checks] == [6, 11]
+    assert "0.060 below the other cells (median 1.281): a weak cell, or a slip?" in report.checks[0].message
+    assert report.check_count == 2 and report.as_dict()["checks"][1][:2] == [11, 10]
+
+
+def test_a_pilot_cell_outside_the_band_is_listed_but_a_whole_tray_outside_it_is_no_slip(battery, crew):
+    """The traction profile's band: discharged 1.140 − 0.030 to full 1.290 + 0.030 (validation's margin)."""
+    pilot = tray(temp="25", unit="C", sgs=["1.330"])
+    whole = tray(temp="25", unit="C", sgs=["1.330"] * 24, taken="2026-11-03T06:00").split("\n", 1)[1]
+    report = run(pilot + whole, crew)
+    assert report.imported and report.inspections_created == 2
+    assert [(n.line, n.cell) for n in report.checks] == [(2, 1)]
+    assert "1.330 is above what this battery reads when full (over 1.320)" in report.checks[0].message
+    assert CellReading.objects.filter(sg=Decimal("1.330")).count() == 25  # records already taken: stored as written
+
+
+def test_a_sites_own_future_allowance_holds_for_the_import_as_for_the_form(battery, crew):
+    from fleetcare.readings.models import EntryPolicy
+
+    EntryPolicy.objects.create(site=battery.site, future_minutes=2)
+    ahead = (timezone.now() + dt.timedelta(minutes=5)).astimezone(dt.timezone.utc)
+    report = run(tray(temp="25", taken=ahead.isoformat(timespec="minutes")), crew)
+    assert "is in the future (more than 2 minutes from now). Check the date in the file" in report.errors[0][1]
+    assert not Inspection.objects.exists()
+
+
 @pytest.mark.parametrize("taken,message", [
-    ("0001-01-01T00:00+05:00", "is before 2000-01-01"),
-    ("1999-12-31T23:00", "is before 2000-01-01"),
-    ("2023-06-01T06:00", "is before TW-001 entered service (2024-01-15)"),
-    ("2099-01-01T06:00", "is in the future"),
+    ("0001-01-01T00:00+05:00", "0001-01-01T00:00+05:00: that date cannot be right. Check the date in the file"),
+    ("1999-12-31T23:00", "1999-12-31T23:00 is before this battery entered service (15 Jan 2024). Check the date."),
+    ("2023-06-01T06:00", "2023-06-01T06:00 is before this battery entered service (15 Jan 2024). Check the date."),
+    ("2099-01-01T06:00", "2099-01-01T06:00 is in the future (more than 10 minutes from now)."),
     ("9" * 5000, "is not a date and time"),
 ])
 def test_impossible_times_get_a_message(battery, crew, taken, message):

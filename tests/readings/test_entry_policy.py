@@ -26,3 +26,23 @@ def test_a_site_row_overrides_the_profile_row(battery):
     tray[2] = Decimal("1.297")  # 0.016 above: suspect at this site only
     assert list(validation.suspect_cells(tray, limits)) == [2]
     assert validation.suspect_cells(tray, validation.limits_for(battery, NOW, validation.setting_defaults())) == {}
+
+
+def test_the_forms_date_rule_follows_a_sites_own_future_allowance(battery, crew_client):
+    """The tablet's check reads futureMinutes from the limits; the server's form must refuse the same."""
+    import uuid
+
+    from django.urls import reverse
+    from django.utils import timezone
+
+    from fleetcare.fleet import site_time
+    from fleetcare.readings.models import Inspection
+
+    EntryPolicy.objects.create(site=battery.site, future_minutes=2)
+    ahead = site_time.local(timezone.now() + dt.timedelta(minutes=5), battery)
+    data = {"taken_at": ahead.strftime("%Y-%m-%dT%H:%M"), "situation": "charged", "temp": "25", "scope": "all",
+            "client_uuid": str(uuid.uuid4()), **{f"sg_{n}": "1.280" for n in range(1, 25)}}
+    response = crew_client.post(reverse("readings:inspect", args=[battery.pk]), data)
+    assert response.status_code == 200
+    assert "Taken at is in the future (more than 2 minutes from now)" in response.content.decode()
+    assert not Inspection.objects.exists()
