@@ -4,9 +4,16 @@ Each setting is declared once (`Setting`: name, label, default, unit, source). A
 overrides in a policy table whose columns are made from its declarations (`model_field`). A row for
 a battery profile overrides the built-in default, a row for a site overrides the profile's, and a
 row for that site and profile overrides both; blank fields inherit. `resolve` applies the layers.
+
+Every policy table has the same shape: a subclass of `LayeredPolicy` with its verbose names and
+`scope_constraints(...)`, then `add_setting_columns(...)` for its declarations.
 """
 from dataclasses import dataclass
 from decimal import Decimal
+
+from django.core.validators import MinValueValidator
+from django.db import models
+from django.db.models import Q
 
 DEFAULT = "built-in default"
 
@@ -38,14 +45,44 @@ class Value:
 
 def model_field(setting, max_digits=8, decimal_places=3):
     """The nullable policy column for a setting (blank inherits from the level above)."""
-    from django.core.validators import MinValueValidator
-    from django.db import models
-
     help_text = f"Default {setting.default} {setting.unit}. Source: {setting.source}. Blank uses the level above."
     if setting.integer:
         return models.PositiveIntegerField(setting.label, null=True, blank=True, help_text=help_text)
     return models.DecimalField(setting.label, max_digits=max_digits, decimal_places=decimal_places, null=True,
                                blank=True, validators=[MinValueValidator(0)], help_text=help_text)
+
+
+def add_setting_columns(policy_model, settings, max_digits, decimal_places):
+    """One column per declared setting on a `LayeredPolicy` table."""
+    for setting in settings:
+        policy_model.add_to_class(setting.name, model_field(setting, max_digits, decimal_places))
+
+
+class LayeredPolicy(models.Model):
+    """A row of overrides for a battery profile, a site, or a site and profile; blank columns inherit."""
+
+    profile = models.ForeignKey("fleet.BatteryProfile", on_delete=models.CASCADE, null=True, blank=True,
+                                related_name="%(app_label)s_policies")
+    site = models.ForeignKey("fleet.Site", on_delete=models.CASCADE, null=True, blank=True,
+                             related_name="%(app_label)s_policies")
+    note = models.CharField(max_length=200, blank=True,
+                            help_text="Why these values (maker's manual or letter, site rule, ...).")
+
+    class Meta:
+        abstract = True
+
+    def __str__(self):
+        return scope_label(self)
+
+
+def scope_constraints(name):
+    """A row names a profile, a site or both, and each scope has one row at most: `name` prefixes the constraints."""
+    return [
+        models.CheckConstraint(condition=Q(profile__isnull=False) | Q(site__isnull=False), name=f"{name}_has_scope"),
+        models.UniqueConstraint(fields=["profile"], condition=Q(site__isnull=True), name=f"one_{name}_per_profile"),
+        models.UniqueConstraint(fields=["site"], condition=Q(profile__isnull=True), name=f"one_{name}_per_site"),
+        models.UniqueConstraint(fields=["site", "profile"], name=f"one_{name}_per_site_profile"),
+    ]
 
 
 def layers_for(site_id, profile_id, policies):

@@ -130,29 +130,13 @@ class Finding(models.Model):
         return f"{word}{plural} " + ", ".join(str(p) for p in self.positions)
 
 
-class Policy(models.Model):
-    """Threshold overrides. Order of precedence: built-in default, then the battery profile's row,
-    then the site's row (no profile), then a row for that site and profile. Blank means 'inherit'."""
+class Policy(policy_layers.LayeredPolicy):
+    """Findings threshold overrides (fleetcare.care.policy.THRESHOLDS)."""
 
-    profile = models.ForeignKey(BatteryProfile, on_delete=models.CASCADE, null=True, blank=True, related_name="care_policies")
-    site = models.ForeignKey(Site, on_delete=models.CASCADE, null=True, blank=True, related_name="care_policies")
-    note = models.CharField(max_length=200, blank=True, help_text="Why these values (maker's letter, site rule, ...).")
-
-    class Meta:
+    class Meta(policy_layers.LayeredPolicy.Meta):
         verbose_name = "findings policy"
         verbose_name_plural = "findings policies"
-        constraints = [
-            models.CheckConstraint(condition=Q(profile__isnull=False) | Q(site__isnull=False), name="policy_has_scope"),
-            models.UniqueConstraint(fields=["profile"], condition=Q(site__isnull=True), name="one_policy_per_profile"),
-            models.UniqueConstraint(fields=["site"], condition=Q(profile__isnull=True), name="one_policy_per_site"),
-            models.UniqueConstraint(fields=["site", "profile"], name="one_policy_per_site_profile"),
-        ]
-
-    def __str__(self):
-        if self.site_id and self.profile_id:
-            return f"{self.site} · {self.profile}"
-        return str(self.site or self.profile)
+        constraints = policy_layers.scope_constraints("policy")
 
 
-for _threshold in THRESHOLDS:
-    Policy.add_to_class(_threshold.name, policy_layers.model_field(_threshold, max_digits=8, decimal_places=3))
+policy_layers.add_setting_columns(Policy, THRESHOLDS, max_digits=8, decimal_places=3)

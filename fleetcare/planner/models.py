@@ -17,33 +17,16 @@ from fleetcare import policy_layers
 from fleetcare.planner.policy import SETTINGS
 
 
-class Policy(models.Model):
-    """Planning overrides: built-in default, then the profile's row, then the site's, then site and profile."""
+class Policy(policy_layers.LayeredPolicy):
+    """Planning overrides (fleetcare.planner.policy.SETTINGS)."""
 
-    profile = models.ForeignKey(BatteryProfile, on_delete=models.CASCADE, null=True, blank=True,
-                                related_name="planning_policies")
-    site = models.ForeignKey(Site, on_delete=models.CASCADE, null=True, blank=True, related_name="planning_policies")
-    note = models.CharField(max_length=200, blank=True, help_text="Why these values (maker's manual, site rule, ...).")
-
-    class Meta:
+    class Meta(policy_layers.LayeredPolicy.Meta):
         verbose_name = "planning policy"
         verbose_name_plural = "planning policies"
-        constraints = [
-            models.CheckConstraint(condition=Q(profile__isnull=False) | Q(site__isnull=False),
-                                   name="planning_policy_has_scope"),
-            models.UniqueConstraint(fields=["profile"], condition=Q(site__isnull=True),
-                                    name="one_planning_policy_per_profile"),
-            models.UniqueConstraint(fields=["site"], condition=Q(profile__isnull=True),
-                                    name="one_planning_policy_per_site"),
-            models.UniqueConstraint(fields=["site", "profile"], name="one_planning_policy_per_site_profile"),
-        ]
-
-    def __str__(self):
-        return policy_layers.scope_label(self)
+        constraints = policy_layers.scope_constraints("planning_policy")
 
 
-for _setting in SETTINGS:
-    Policy.add_to_class(_setting.name, policy_layers.model_field(_setting, max_digits=6, decimal_places=2))
+policy_layers.add_setting_columns(Policy, SETTINGS, max_digits=6, decimal_places=2)
 
 
 def new_feed_token():

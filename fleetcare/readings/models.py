@@ -327,31 +327,13 @@ class CsvImport(models.Model):
         return self.state in (self.State.DONE, self.State.FAILED)
 
 
-class EntryPolicy(models.Model):
-    """Overrides of the reading-entry limits (fleetcare.readings.validation.SETTINGS): built-in default, then the
-    profile's row, then the site's, then site and profile. Blank means 'inherit'."""
+class EntryPolicy(policy_layers.LayeredPolicy):
+    """Reading-entry limit overrides (fleetcare.readings.validation.SETTINGS)."""
 
-    profile = models.ForeignKey(BatteryProfile, on_delete=models.CASCADE, null=True, blank=True,
-                                related_name="entry_policies")
-    site = models.ForeignKey(Site, on_delete=models.CASCADE, null=True, blank=True, related_name="entry_policies")
-    note = models.CharField(max_length=200, blank=True, help_text="Why these values (maker's manual, site rule, ...).")
-
-    class Meta:
+    class Meta(policy_layers.LayeredPolicy.Meta):
         verbose_name = "reading entry policy"
         verbose_name_plural = "reading entry policies"
-        constraints = [
-            models.CheckConstraint(condition=Q(profile__isnull=False) | Q(site__isnull=False),
-                                   name="entry_policy_has_scope"),
-            models.UniqueConstraint(fields=["profile"], condition=Q(site__isnull=True),
-                                    name="one_entry_policy_per_profile"),
-            models.UniqueConstraint(fields=["site"], condition=Q(profile__isnull=True),
-                                    name="one_entry_policy_per_site"),
-            models.UniqueConstraint(fields=["site", "profile"], name="one_entry_policy_per_site_profile"),
-        ]
-
-    def __str__(self):
-        return policy_layers.scope_label(self)
+        constraints = policy_layers.scope_constraints("entry_policy")
 
 
-for _setting in ENTRY_SETTINGS:
-    EntryPolicy.add_to_class(_setting.name, policy_layers.model_field(_setting, max_digits=6, decimal_places=3))
+policy_layers.add_setting_columns(EntryPolicy, ENTRY_SETTINGS, max_digits=6, decimal_places=3)
