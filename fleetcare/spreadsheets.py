@@ -21,6 +21,14 @@ def inert_text(text):
     return "'" + text if text.startswith(FORMULA_STARTS) else text
 
 
+def before_inert(text):
+    """The text `inert_text` was given, when `text` is what it made of it ("'=B02" -> "=B02"), else None: how an
+    import reads back a value our own export neutralised."""
+    if text.startswith("'") and text[1:].startswith(FORMULA_STARTS):
+        return text[1:]
+    return None
+
+
 def csv_value(value):
     """A value as CSV text: numbers and dates as written, text made inert, nothing as an empty cell."""
     if value is None:

@@ -32,7 +32,7 @@ from fleetcare.readings.models import EntryPolicy
 from fleetcare.readings.validation import SG_HIGH, SG_LOW, TEMP_HIGH_C, TEMP_LOW_C
 from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import SG_PLACES, _q, corrected_cell_sg, summarise
-from fleetcare.spreadsheets import CsvWriter
+from fleetcare.spreadsheets import CsvWriter, before_inert
 
 COLUMNS = ["serial", "taken_at", "situation", "cell", "sg", "temp", "volts", "level"]
 OPTIONAL_COLUMNS = ["temp_unit", "rest_hours"]
@@ -325,11 +325,15 @@ class Checker:
         self.report.note(Note(line, column, message, level, cell), self.notes_out)
 
     def load_batteries(self, chunk):
+        """Find the chunk's serials not seen yet, in one query. A serial our export neutralised against spreadsheet
+        formulas ("'=B02", spreadsheets.inert_text) is read back as the serial it was, unless one is named so."""
         serials = {group[0].serial for group in chunk} - self.known.keys()
         if serials:
-            found = {b.serial: b for b in self.batteries.filter(serial__in=serials).select_related("profile", "site")}
+            unguarded = {serial: before_inert(serial) for serial in serials}
+            wanted = serials | {plain for plain in unguarded.values() if plain is not None}
+            found = {b.serial: b for b in self.batteries.filter(serial__in=wanted).select_related("profile", "site")}
             for serial in serials:
-                self.known[serial] = found.get(serial)
+                self.known[serial] = found.get(serial) or found.get(unguarded[serial])
 
     def readings_in(self, chunk):
         """(rows, shared columns checked) per reading; neighbouring groups that name the same reading in

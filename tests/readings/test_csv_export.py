@@ -9,7 +9,7 @@ from django.utils import timezone
 
 from fleetcare.fleet.models import Battery
 from fleetcare.readings.services import CellEntry, record_inspection
-from fleetcare.spreadsheets import csv_value, safe_filename
+from fleetcare.spreadsheets import before_inert, csv_value, inert_text, safe_filename
 
 
 def test_a_formula_serial_is_exported_as_inert_text_under_a_clean_file_name(crew_client, crew, battery):
@@ -37,3 +37,10 @@ def test_download_names_keep_only_safe_characters():
     assert safe_filename('readings-"; filename=evil.exe.csv') == "readings-filename-evil.exe.csv"
     assert safe_filename("../../etc/passwd") == "etc-passwd"
     assert safe_filename('"""') == "export"
+
+
+def test_what_the_export_neutralised_reads_back_as_it_was():
+    for text in ("=1+1", "+1", "-TW-001", "@x", "\tx"):
+        assert before_inert(inert_text(text)) == text
+    for text in ("TW-001", "'TW-001", "x=1", ""):  # not made by inert_text: taken as written
+        assert before_inert(text) is None
