@@ -6,6 +6,7 @@ from collections import defaultdict
 from dataclasses import dataclass, field
 from functools import reduce
 
+from django.core.paginator import Paginator
 from django.db.models import F, OuterRef, Q, Subquery
 from django.db.models.functions import Coalesce
 from django.utils import timezone
@@ -17,7 +18,7 @@ from fleetcare.fleet.models import Battery, BatteryProfile, Fitting
 from fleetcare.planner import policy as planner_policy
 from fleetcare.planner.models import EqualizingCharge
 from fleetcare.planner.models import Policy as PlannerPolicy
-from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
+from fleetcare.readings.models import BatteryState, CellReading, Inspection, WaterTopUp
 
 HEATMAP_INSPECTIONS = 40
 LIST_PAGE_SIZE = 50
@@ -303,23 +304,48 @@ def battery_list(batteries, filters, now):
     return batteries.order_by(order, "serial")
 
 
-def battery_record(battery):
-    inspections = list(
-        Inspection.objects.current().filter(battery=battery).select_related("taken_by").order_by("-taken_at")
-    )
-    fittings = list(Fitting.objects.filter(battery=battery).select_related("vehicle"))
-    top_ups = list(WaterTopUp.objects.current().filter(battery=battery).select_related("done_by", "battery__profile").order_by("-done_at"))
+# How far back the battery record's charts reach unless asked for more (months; 0: the whole history). A year
+# shows a season's pattern; older readings stay in the paged table and the CSV (our own choice).
+CHART_SPANS = ((12, "Last 12 months"), (36, "Last 3 years"), (0, "Whole history"))
+CHART_MONTHS = 12
+RECORD_PAGE_SIZE = 50
+RECENT_TOP_UPS = 20
+
+
+def chart_months(value):
+    """The chart span asked for in the query string, or the default for anything else."""
+    return int(value) if str(value) in {str(months) for months, _ in CHART_SPANS} else CHART_MONTHS
+
+
+def battery_record(battery, *, page=None, months=CHART_MONTHS, now=None):
+    """The battery record: its charts over the last `months` months (0: all), one page of its readings, its
+    latest reading (from its kept state) and latest top-ups. The work is bounded by the span and the page,
+    not by how long the battery's history is."""
+    now = now or timezone.now()
+    since = now - dt.timedelta(days=round(months * 30.44)) if months else None
+    current = Inspection.objects.current().filter(battery=battery)
+    in_span = current if since is None else current.filter(taken_at__gte=since)
+    charted = list(in_span.only("pk", "taken_at", "situation", "scope", "soc_percent", "sg_mean", "lowest_position")
+                   .order_by("-taken_at", "-pk"))
+    top_ups = WaterTopUp.objects.current().filter(battery=battery)
+    watered = list((top_ups if since is None else top_ups.filter(done_at__gte=since)).only("done_at", "volume_ml"))
+    table = Paginator(current.select_related("taken_by").order_by("-taken_at", "-pk"), RECORD_PAGE_SIZE).get_page(page)
+    kept = BatteryState.objects.filter(battery=battery).select_related("latest_inspection").first()
     return {
         "battery": battery,
         "profile": battery.profile,
-        "inspections": inspections[:50],
-        "inspection_count": len(inspections),
-        "latest": inspections[0] if inspections else None,
-        "fittings": fittings,
-        "top_ups": top_ups[:20],
-        "soc_chart": soc_chart(battery, inspections),
-        "heatmap": sg_heatmap(battery, inspections),
-        "water_chart": water_chart(battery, top_ups),
+        "inspections": list(table.object_list),
+        "readings_page": table,
+        "inspection_count": table.paginator.count,
+        "latest": kept and kept.latest_inspection,
+        "fittings": list(Fitting.objects.filter(battery=battery).select_related("vehicle")),
+        "top_ups": list(top_ups.select_related("done_by", "battery__profile").order_by("-done_at")[:RECENT_TOP_UPS]),
+        "chart_months": months,
+        "chart_spans": CHART_SPANS,
+        "charted_count": len(charted),
+        "soc_chart": soc_chart(battery, charted),
+        "heatmap": sg_heatmap(battery, charted),
+        "water_chart": water_chart(battery, watered),
     }
 
 

@@ -67,4 +67,6 @@ def _sort_links(filters):
 def battery_detail(request, pk):
     battery = battery_or_404(request.user, pk)
     with site_clock(battery):
-        return render(request, "dashboard/battery_detail.html", selectors.battery_record(battery))
+        record = selectors.battery_record(battery, page=request.GET.get("page"),
+                                          months=selectors.chart_months(request.GET.get("months")))
+        return render(request, "dashboard/battery_detail.html", record)

@@ -8,8 +8,7 @@ from django.utils import timezone
 
 from fleetcare.care.models import Finding
 from fleetcare.fleet.models import Battery, Fitting, Vehicle
-from fleetcare.readings.models import WaterTopUp
-from fleetcare.readings.services import CellEntry, record_inspection
+from fleetcare.readings.services import CellEntry, record_inspection, record_top_up
 
 
 def read(battery, user, when, situation="charged", sg="1.290", scope="all", weak=None):
@@ -28,7 +27,7 @@ def read(battery, user, when, situation="charged", sg="1.290", scope="all", weak
 
 
 def water(battery, user, when, ml):
-    return WaterTopUp.objects.create(battery=battery, done_by=user, done_at=when, volume_ml=Decimal(ml))
+    return record_top_up(battery=battery, user=user, done_at=when, volume_ml=Decimal(ml))[0]
 
 
 @pytest.fixture

@@ -2,6 +2,8 @@ import datetime as dt
 import json
 import re
 
+from django.db import connection
+from django.test.utils import CaptureQueriesContext
 from django.urls import reverse
 
 from tests.dashboard.conftest import read, water
@@ -36,3 +38,47 @@ def test_the_record_charts_soc_over_time_and_water_per_cell_per_month(crew_clien
     html = crew_client.get(reverse("fleet:battery", args=[battery.pk])).content.decode()
     assert figure(html, "chart-soc")["data"][0]["y"] == [100.0]
     assert figure(html, "chart-water")["data"][0]["y"] == [100]  # 2,400 mL over 24 cells
+
+
+def test_the_charts_reach_back_a_year_unless_asked_for_more(crew_client, battery, crew, now):
+    read(battery, crew, now - dt.timedelta(days=500), "charged", sg="1.215")  # (1.215 - 1.140) / 0.150 = 50 %
+    read(battery, crew, now - dt.timedelta(days=3), "charged")
+    water(battery, crew, now - dt.timedelta(days=500), 1200)
+    url = reverse("fleet:battery", args=[battery.pk])
+    html = crew_client.get(url).content.decode()
+    assert figure(html, "chart-soc")["data"][0]["y"] == [100.0]
+    assert figure(html, "chart-water") is None
+    assert '<strong aria-current="true">Last 12 months</strong>' in html and "(1 reading)" in html
+    html = crew_client.get(url, {"months": "36"}).content.decode()
+    assert figure(html, "chart-soc")["data"][0]["y"] == [50.0, 100.0]
+    assert figure(html, "chart-water")["data"][0]["y"] == [50]  # 1,200 mL over 24 cells
+    assert figure(crew_client.get(url, {"months": "banana"}).content.decode(), "chart-soc")["data"][0]["y"] == [100.0]
+
+
+def test_the_readings_table_is_paged_newest_first(crew_client, battery, crew, now):
+    for hours in range(55):
+        read(battery, crew, now - dt.timedelta(hours=hours + 1), "before_charge", sg="1.200", scope="pilot")
+    url = reverse("fleet:battery", args=[battery.pk])
+    first = crew_client.get(url)
+    assert len(first.context["inspections"]) == 50 and first.context["inspection_count"] == 55
+    assert first.context["latest"] == first.context["inspections"][0]
+    assert "page 1 of 2" in first.content.decode()
+    second = crew_client.get(url, {"page": "2"}).context
+    assert len(second["inspections"]) == 5
+    assert second["inspections"][-1].taken_at == min(i.taken_at for i in battery.inspections.all())
+    assert len(crew_client.get(url, {"page": "99"}).context["inspections"]) == 5  # past the end: the last page
+
+
+def test_the_record_takes_the_same_queries_however_long_the_history(crew_client, battery, crew, now):
+    def count():
+        with CaptureQueriesContext(connection) as queries:
+            assert crew_client.get(reverse("fleet:battery", args=[battery.pk])).status_code == 200
+        return len(queries)
+
+    read(battery, crew, now - dt.timedelta(days=2), "charged")
+    water(battery, crew, now - dt.timedelta(days=2), 1200)
+    few = count()
+    for days in range(3, 40):
+        read(battery, crew, now - dt.timedelta(days=days), "charged")
+        water(battery, crew, now - dt.timedelta(days=days), 1200)
+    assert count() == few
