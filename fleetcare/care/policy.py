@@ -18,14 +18,17 @@ THRESHOLDS = (
               Decimal("0.050"), "SG", COMMON),
     Threshold("unserviceable_cell_gap_sg", "unserviceable: any two cells apart on a fully charged battery",
               Decimal("0.025"), "SG", "US Army TM 9-6140-200-14 (from memory of its text)"),
-    Threshold("equalize_spread_sg", "equalizing needed: post-charge spread over", Decimal("0.020"), "SG", COMMON),
+    Threshold("equalize_spread_sg", "equalizing needed: a cell below the other cells' median after charge by more than",
+              Decimal("0.020"), "SG",
+              "common practice (field notes): a post-charge spread over about 0.020 calls for equalizing; FleetCare "
+              "measures it from the median of the other cells, so 40 healthy cells do not exceed it by chance"),
     Threshold("sg_resolution", "hydrometer: resolution and reading error", Decimal("0.005"), "SG",
               "common practice (field notes, \"Measuring well\"): float hydrometers are graduated every 0.005 and a "
               "careful reading is good to about ±0.005; digital hydrometers and refractometers 0.001"),
-    Threshold("spread_readings_in_a_row", "spread: post-charge readings in a row over the limit plus one resolution",
+    Threshold("spread_readings_in_a_row", "spread: post-charge readings in a row with the same cell over the limit",
               Decimal("2"), "readings",
-              "FleetCare default: one reading is not evidence; a spread over the limit plus twice the resolution "
-              "counts at once", integer=True),
+              "FleetCare default: one reading is not evidence; a cell over the limit plus one resolution counts at "
+              "once", integer=True),
     Threshold("cell_gap_rule_max_cells", "any-two-cells rule: batteries of at most this many cells (0 = off)",
               Decimal("6"), "cells",
               "FleetCare default: the 0.025 rule comes from a manual on charged vehicle batteries of a few cells "

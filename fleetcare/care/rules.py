@@ -251,19 +251,35 @@ def weak_cell(data):
     )
 
 
+def lagging_cells(inspection, limit, resolution, readings_compared):
+    """{position: SG below the median of the other cells} for the cells of one post-charge inspection that lag
+    by more than `limit` plus `readings_compared` resolutions."""
+    below = chemistry.below_median_of_others_sg(_cell_values(inspection))
+    return {position: lag for position, lag in below.items()
+            if chemistry.beyond_resolution(lag, limit, resolution, readings_compared)}
+
+
 def spread_is_high(post_charge, policy):
-    """(high, persistent): the latest spread is over the limit plus twice the resolution (each end of a spread
-    may be off by one), or the last `spread_readings_in_a_row` post-charge spreads are all over the limit plus
-    one resolution. One reading within what the hydrometer can show is not evidence."""
-    if not post_charge or post_charge[0].sg_spread is None:
-        return False, False
+    """(lagging, persistent): the cells that make the spread high, {position: SG below the others' median on
+    the latest reading}.
+
+    A cell counts when it reads below the median of the other cells by more than the limit plus one resolution
+    on the latest post-charge reading (a cell against the median of many: one reading may be off by one
+    resolution), or by more than the limit on each of the last `spread_readings_in_a_row` post-charge readings
+    (the same cell each time: persistence is the evidence, reading errors do not repeat). Judging cells against
+    the median, not the highest against the lowest, keeps the rule the same on small and large trays."""
+    if not post_charge:
+        return {}, False
     limit, resolution = policy.equalize_spread_sg, policy.sg_resolution
     needed = max(1, int(policy.spread_readings_in_a_row))
+    latest = chemistry.below_median_of_others_sg(_cell_values(post_charge[0]))
+    at_once = {p for p, lag in latest.items() if chemistry.beyond_resolution(lag, limit, resolution, 1)}
+    in_a_row = set()
     run = post_charge[:needed]
-    in_a_row = len(run) == needed and all(
-        i.sg_spread is not None and chemistry.beyond_resolution(i.sg_spread, limit, resolution) for i in run)
-    at_once = chemistry.beyond_resolution(post_charge[0].sg_spread, limit, resolution, 2)
-    return at_once or in_a_row, in_a_row and needed > 1
+    if len(run) == needed:
+        in_a_row = set.intersection(*(set(lagging_cells(i, limit, resolution, 0)) for i in run))
+    persistent = bool(in_a_row) and needed > 1
+    return {p: latest[p] for p in sorted(at_once | in_a_row)}, persistent
 
 
 def high_spread(data):
@@ -271,12 +287,19 @@ def high_spread(data):
         return None
     latest = data.post_charge[0]
     limit = data.policy.equalize_spread_sg
-    high, persistent = spread_is_high(data.post_charge, data.policy)
-    if not high:
+    lagging, persistent = spread_is_high(data.post_charge, data.policy)
+    if not lagging:
         return None
     shown = max(2, int(data.policy.spread_readings_in_a_row))
-    readings = [dict(_inspection_ref(i), sg_spread=_f(i.sg_spread), sg_min=_f(i.sg_min), sg_max=_f(i.sg_max),
-                     lowest_cell=i.lowest_position) for i in data.post_charge[:shown]]
+    readings = []
+    for i in data.post_charge[:shown]:
+        below = chemistry.below_median_of_others_sg(_cell_values(i))
+        readings.append(dict(_inspection_ref(i), sg_spread=_f(i.sg_spread), sg_min=_f(i.sg_min), sg_max=_f(i.sg_max),
+                             lowest_cell=i.lowest_position,
+                             lagging_cells=[{"position": p, "below_median_points": _points(below[p])}
+                                            for p in lagging if p in below]))
+    worst = max(lagging, key=lambda p: (lagging[p], -p))
+    cells = ", ".join(str(p) for p in lagging)
     if data.profile.equalizing_allowed:
         next_step = "Give an equalizing charge (the care planner schedules it), then read all cells again."
         caution = EQUALIZE_CAUTION
@@ -285,15 +308,15 @@ def high_spread(data):
         caution = ""
     return Detected(
         kind="high_spread", severity=2,
-        summary=(f"Spread {_points(latest.sg_spread)} points after charging (limit {_points(limit)}"
+        summary=(f"Spread {_points(latest.sg_spread)} points after charging: cell{'s' if len(lagging) > 1 else ''} "
+                 f"{cells} behind the others, cell {worst} by {_points(lagging[worst])} points (limit {_points(limit)}"
                  f"{', on consecutive readings' if persistent else ''}): an equalizing charge is due"),
-        rule=("After a charge, the spread between the highest and lowest corrected cell SG is over the equalizing "
-              "threshold by more than the hydrometer can show: over the threshold plus one resolution on the set "
-              "number of post-charge readings in a row, or plus twice the resolution on one."),
+        rule=("After a charge, a cell reads below the median of the other cells by more than the equalizing threshold "
+              "plus the hydrometer's resolution, or by more than the threshold on the set number of post-charge "
+              "readings in a row (the same cell each time)."),
         readings=readings, thresholds=[data.policy.evidence("equalize_spread_sg"), data.policy.evidence("sg_resolution"),
                                        data.policy.evidence("spread_readings_in_a_row")], next_step=next_step,
-        caution=caution, positions=[latest.lowest_position] if latest.lowest_position else [],
-        persistent=persistent, inspection=latest,
+        caution=caution, positions=list(lagging), persistent=persistent, inspection=latest,
     )
 
 

@@ -1,7 +1,7 @@
 """Lead-acid battery science for FleetCare: plain functions, units in the names, no Django."""
 
 from .electrolysis import electrolysis_hydrogen_l, electrolysis_water_g
-from .measurement import beyond_resolution
+from .measurement import below_median_of_others_sg, beyond_resolution
 from .open_circuit import (
     TECHNOLOGIES,
     ocv_per_cell_from_sg,
@@ -17,6 +17,7 @@ __all__ = [
     "TECHNOLOGIES",
     "VENTILATION_SOURCE",
     "SgStats",
+    "below_median_of_others_sg",
     "beyond_resolution",
     "c_to_f",
     "corrected_sg",

@@ -1,4 +1,5 @@
 """What a reading can show: comparisons that allow for the instrument's resolution and reading error."""
+import bisect
 
 SG_INSTRUMENT_RESOLUTION = 0.005  # float hydrometer: graduated every 0.005, good to about ±0.005
 
@@ -18,3 +19,32 @@ def beyond_resolution(difference, limit, resolution, readings_compared=1):
     if readings_compared < 0:
         raise ValueError("The number of readings compared cannot be negative.")
     return float(difference) > float(limit) + readings_compared * float(resolution) + 1e-9
+
+
+def below_median_of_others_sg(sg_by_position):
+    """How far each cell reads below the median of the other cells: {position: SG difference}.
+
+    Judging each cell against the typical cell, rather than the highest against the lowest, keeps the
+    comparison the same on a 6-cell block and a 40-cell tray: the range between the two extremes of n healthy
+    cells grows with n (about 2.5 standard deviations for 6 cells, 4.3 for 40: expected range of a normal
+    sample, standard statistical tables), while a cell's distance from the median of the others does not;
+    the median also ignores one odd cell, where a mean is pulled by it.
+    Source: common practice (field notes, "Measuring well": cells of a healthy tray differ by a few points);
+    the expected-range figures are textbook order statistics.
+    """
+    values = [(position, float(sg)) for position, sg in dict(sg_by_position).items() if sg is not None]
+    if len(values) < 2:
+        return {}
+    ordered = sorted(sg for _, sg in values)
+    count = len(ordered) - 1  # the others
+
+    def other(index, skipped):  # the index-th of the others, with ordered[skipped] left out
+        return ordered[index if index < skipped else index + 1]
+
+    below = {}
+    for position, sg in values:
+        skipped = bisect.bisect_left(ordered, sg)
+        middle = count // 2
+        median = other(middle, skipped) if count % 2 else (other(middle - 1, skipped) + other(middle, skipped)) / 2
+        below[position] = round(median - sg, 6)
+    return below

@@ -485,4 +485,4 @@ def _spread_chart(rows, now, sites):
         height=360,
     )
     guide = round(float(EQUALIZE_SPREAD_SG) * 1000)
-    return charts.reference_line(fig, guide, f"{guide} points: equalizing charge due")
+    return charts.reference_line(fig, guide, f"{guide} points: the equalizing limit for a cell behind the others")

@@ -59,7 +59,7 @@ def test_it_logs_a_24_cell_inspection_from_the_keyboard_alone(tablet, crew, batt
     assert page.locator("#spread").inner_text().strip() == "0.040"
     assert "cell 9" in page.locator("#inspection-summary").inner_text()
     # Findings on the same page: cell 9 sits 40 points below the others after charge (over 30 plus the
-    # hydrometer's 5), and a post-charge spread of 40 points, over 20 plus two resolutions, calls for an
+    # hydrometer's 5), and a cell 40 points below the median of the others, over 20 plus one resolution, calls for an
     # equalizing charge (field notes: common practice, "Measuring well").
     findings = page.locator(".fc-findings-panel").inner_text()
     assert "Weak cell" in findings and "cell 9" in findings

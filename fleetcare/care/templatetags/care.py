@@ -53,6 +53,10 @@ def reading_lines(reading, battery):
             for cell in value:
                 lines.append((f"cell {cell['position']}", f"{cell['sg_corrected']:.3f}, {cell['below_others_points']} "
                               f"points below the other cells' mean, {cell['below_highest_points']} below the highest"))
+        elif key == "lagging_cells":
+            for cell in value:
+                lines.append((f"cell {cell['position']}",
+                              f"{cell['below_median_points']} points below the median of the other cells"))
         elif key == "blocks":
             lines.append(("blocks", ", ".join(f"block {p}: {v:.2f} V" for p, v in value.items())))
         elif key == "volume_ml":

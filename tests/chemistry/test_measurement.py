@@ -1,0 +1,41 @@
+"""Comparisons that allow for the instrument (field notes, "Measuring well": float hydrometers are graduated every
+0.005 and good to about ±0.005, common practice)."""
+import pytest
+
+from fleetcare.chemistry import below_median_of_others_sg, beyond_resolution
+
+
+def test_a_difference_counts_only_beyond_the_limit_plus_the_readings_errors():
+    assert not beyond_resolution(0.025, 0.020, 0.005)
+    assert beyond_resolution(0.026, 0.020, 0.005)
+    assert not beyond_resolution(0.030, 0.020, 0.005, readings_compared=2)
+    assert beyond_resolution(0.021, 0.020, 0.005, readings_compared=0)
+
+
+def test_it_refuses_a_negative_resolution():
+    with pytest.raises(ValueError):
+        beyond_resolution(0.03, 0.02, -0.001)
+
+
+def test_each_cell_is_measured_from_the_median_of_the_other_cells():
+    below = below_median_of_others_sg({1: 1.285, 2: 1.285, 3: 1.260, 4: 1.290})
+    # cell 3: others 1.285, 1.285, 1.290 -> median 1.285; cell 4: others 1.260, 1.285, 1.285 -> 1.285
+    assert below == {1: pytest.approx(0.0), 2: pytest.approx(0.0), 3: pytest.approx(0.025), 4: pytest.approx(-0.005)}
+
+
+def test_an_even_number_of_others_takes_the_middle_pair():
+    below = below_median_of_others_sg({1: 1.280, 2: 1.290, 3: 1.270})
+    assert below[3] == pytest.approx(0.015)  # others 1.280 and 1.290: median 1.285
+
+
+def test_one_odd_cell_does_not_move_the_others_median():
+    # with a mean, cell 9 at 1.200 would pull every other cell's reference down by 0.004 on 24 cells
+    cells = {p: 1.285 for p in range(1, 25)}
+    cells[9] = 1.200
+    below = below_median_of_others_sg(cells)
+    assert below[9] == pytest.approx(0.085) and below[1] == pytest.approx(0.0)
+
+
+def test_blank_cells_are_left_out_and_one_cell_has_no_others():
+    assert below_median_of_others_sg({1: 1.28, 2: None}) == {}
+    assert below_median_of_others_sg({1: 1.28, 2: None, 3: 1.27}) == {1: pytest.approx(-0.01), 3: pytest.approx(0.01)}
