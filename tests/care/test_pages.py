@@ -134,7 +134,7 @@ def test_the_admin_shows_each_default_with_its_source(admin_client):
     body = admin_client.get(reverse("admin:care_policy_add")).content.decode()
     assert "US Army TM 9-6140-200-14 (from memory of its text)" in body
     assert "US Army TM 5-1185 series: stored wet batteries need a charge every 30 days (from memory)" in body
-    assert "Default 0.020 SG. Source: common practice (field notes)." in body
+    assert "Default 0.020 SG. Source: common practice (field notes): a post-charge spread over about 0.020" in body
 
 
 def test_an_override_is_shown_beside_the_value_it_replaced(crew_client, weak, traction_profile, battery, crew):
