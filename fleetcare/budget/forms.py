@@ -5,6 +5,7 @@ from django.utils import timezone
 
 from fleetcare.budget.models import BudgetAssumptions, CapacityTest, ProfileBudget
 from fleetcare.chemistry import capacity
+from fleetcare.fleet import site_time
 from fleetcare.fleet.models import Site
 from fleetcare.readings.forms import check_temp_c, to_celsius
 
@@ -39,18 +40,14 @@ class CapacityTestForm(forms.Form):
         super().__init__(*args, **kwargs)
         self.fields["battery"].queryset = batteries
         self.fields["battery"].label_from_instance = lambda b: f"{b.serial} · {b.site.code}"
-        self.fields["tested_on"].initial = timezone.localdate()
+        sites = {b.site for b in batteries.select_related("site")}
+        # A test is dated by the battery's site clock; one site's form starts on that site's today.
+        self.fields["tested_on"].initial = site_time.today_at(next(iter(sites))) if len(sites) == 1 else timezone.localdate()
         self.fields["end_volts_per_cell"].initial = Decimal("1.70")
-        units = {b.site.temp_unit for b in batteries}
+        units = {site.temp_unit for site in sites}
         unit = "°F" if units == {Site.TempUnit.FAHRENHEIT} else "°C" if units <= {Site.TempUnit.CELSIUS} else \
             "in the battery's site's unit"
         self.fields["start_temp"].label = f"Electrolyte temperature at the start ({unit})"
-
-    def clean_tested_on(self):
-        tested_on = self.cleaned_data["tested_on"]
-        if tested_on > timezone.localdate():
-            raise forms.ValidationError("A test cannot be dated in the future.")
-        return tested_on
 
     def _cell_volts(self, text, battery):
         positions = battery.profile.positions
@@ -73,7 +70,10 @@ class CapacityTestForm(forms.Form):
     def clean(self):
         data = super().clean()
         battery, tested_on = data.get("battery"), data.get("tested_on")
-        if battery and tested_on and tested_on < battery.in_service_date:
+        if battery and tested_on and tested_on > site_time.today_at(battery):  # the battery's site clock, not the user's
+            self.add_error("tested_on", f"A test cannot be dated in the future: it is "
+                                        f"{site_time.today_at(battery):%d %b %Y} at {battery.site.name}.")
+        elif battery and tested_on and tested_on < battery.in_service_date:
             self.add_error("tested_on", f"{battery} went into service on {battery.in_service_date:%Y-%m-%d}.")
         if data.get("rate") == CapacityTest.Rate.CURRENT and not data.get("current_a"):
             self.add_error("current_a", "Give the current the test ran at.")

@@ -265,3 +265,29 @@ def test_the_battery_panel_shows_the_forecast_to_supervisors_only(rf, crew, supe
     assert "Due now" in html
     request.user = crew
     assert "Replacement forecast" not in template.render(Context({"request": request, "battery": world["capacity"]}))
+
+
+def test_a_test_is_dated_by_the_batterys_site_clock_not_the_users(client, django_user_model, traction_profile):
+    """Kiritimati (UTC+14) is always a calendar day ahead of Pago Pago (UTC−11), and the user of both reads
+    pages in UTC: at any hour the old check (the user's date) got one of these two wrong."""
+    from fleetcare.accounts.roles import SUPERVISOR
+    from fleetcare.fleet import site_time
+    from fleetcare.fleet.models import Site
+    from tests.conftest import make_user
+
+    east = Site.objects.create(name="Line Islands depot", code="kir", timezone="Pacific/Kiritimati")
+    west = Site.objects.create(name="Pago Pago depot", code="ppg", timezone="Pacific/Pago_Pago")
+    ahead = Battery.objects.create(serial="KI-01", profile=traction_profile, site=east, in_service_date=dt.date(2024, 1, 15))
+    behind = Battery.objects.create(serial="PP-01", profile=traction_profile, site=west, in_service_date=dt.date(2024, 1, 15))
+    client.force_login(make_user(django_user_model, "two-zones", SUPERVISOR, [east, west]))
+    east_today = site_time.today_at(east)
+    assert east_today > site_time.today_at(west)
+    url = reverse("budget:capacity_tests")
+    response = client.post(url, capacity_form(behind, tested_on=east_today.isoformat(), hours_to_end="4"))
+    assert response.status_code == 200
+    assert f"A test cannot be dated in the future: it is {site_time.today_at(west):%d %b %Y} at Pago Pago depot." \
+        in response.content.decode()
+    assert not CapacityTest.objects.exists()
+    response = client.post(url, capacity_form(ahead, tested_on=east_today.isoformat(), hours_to_end="4"))
+    assert response.status_code == 302
+    assert CapacityTest.objects.get().tested_on == east_today
