@@ -7,7 +7,7 @@ from django.db import migrations, models
 class Migration(migrations.Migration):
 
     dependencies = [
-        ('care', '0006_watering_interval_is_the_planners'),
+        ('care', '0007_policy_one_shape'),
     ]
 
     operations = [
