@@ -322,7 +322,7 @@ def find_suspects(sg_by_position, limits):
     `slip_min_others` other cells; a pilot-cell reading is judged by the band alone. A plain function over
     values, sorted once, so the CSV import can run it on every reading of a large file.
     """
-    filled = {p: Decimal(v) for p, v in sg_by_position.items() if v is not None}
+    filled = {p: v if type(v) is Decimal else Decimal(v) for p, v in sg_by_position.items() if v is not None}
     if not filled:
         return {}
     ordered = sorted(filled.values())
