@@ -18,7 +18,7 @@ def chart(fig, element_id, label=""):
         return ""
     payload = to_json(fig).translate(_JSON_ESCAPES)
     return format_html(
-        '<div class="fc-chart" id="{}" data-figure="{}-data" role="img" aria-label="{}"></div>'
+        '<div class="fc-chart" id="{}" data-figure="{}-data" role="figure" aria-label="{}"></div>'
         '<script type="application/json" id="{}-data">{}</script>',
         element_id, element_id, label, element_id, mark_safe(payload),
     )
