@@ -105,6 +105,28 @@ def scope_label(policy):
     return " and ".join(n for n in (site_name, profile_name) if n)
 
 
+def partition(policies, prefix=""):
+    """[(condition, site_id, profile_id)] splitting batteries by the sites and profiles that policy rows name
+    (None: any other), so each battery falls in exactly one part and one resolution serves the whole part: how
+    a SQL filter applies layered settings. `prefix` is the path to the battery from the queried model
+    (e.g. "battery__")."""
+    from django.db.models import Q
+
+    site_ids = sorted({p.site_id for p in policies if p.site_id})
+    profile_ids = sorted({p.profile_id for p in policies if p.profile_id})
+    parts = []
+    for site_id in site_ids + [None]:
+        for profile_id in profile_ids + [None]:
+            where = Q(**{f"{prefix}site_id": site_id}) if site_id else ~Q(**{f"{prefix}site_id__in": site_ids})
+            where &= (
+                Q(**{f"{prefix}profile_id": profile_id})
+                if profile_id
+                else ~Q(**{f"{prefix}profile_id__in": profile_ids})
+            )
+            parts.append((where, site_id, profile_id))
+    return parts
+
+
 def resolve_values(settings, site_id, profile_id, policies):
     """{name: Value} for a battery of `profile_id` at `site_id`, from policy rows the caller loaded once."""
     values = {s.name: Value(s.name, s.default, s.source) for s in settings}

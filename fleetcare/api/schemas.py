@@ -203,7 +203,9 @@ class FindingOut(Schema):
 class WorkDueOut(Schema):
     kind: str
     title: str
-    due: dt.datetime
+    due: dt.datetime = Field(description="Planned start, or the start of the day it fell due if not planned yet.")
+    due_day: dt.date = Field(description="The day it falls due at the battery's site.")
+    days_overdue: int = Field(description="Whole days past that day (0 when due today or later).")
 
 
 class StatusOut(Schema):

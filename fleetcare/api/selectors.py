@@ -153,7 +153,7 @@ def open_findings(battery):
 def next_work_due(battery):
     """The battery's work as the planner has it due."""
     return [
-        {"kind": item["kind"], "title": item["title"], "due": item["due"]}
+        {key: item[key] for key in ("kind", "title", "due", "due_day", "days_overdue")}
         for item in work_due_for_battery(battery)
     ]
 

@@ -1,23 +1,18 @@
 """Reads that feed the fleet pages, each in a fixed number of queries whatever the history length."""
 
 import datetime as dt
-import operator
 from collections import defaultdict
 from dataclasses import dataclass, field
-from functools import reduce
 
 from django.core.paginator import Paginator
 from django.db.models import F, OuterRef, Q, Subquery
-from django.db.models.functions import Coalesce
 from django.utils import timezone
 
 from fleetcare import charts
 from fleetcare.care.models import Finding
 from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Battery, BatteryProfile, Fitting
-from fleetcare.planner import policy as planner_policy
-from fleetcare.planner.models import EqualizingCharge
-from fleetcare.planner.models import Policy as PlannerPolicy
+from fleetcare.planner import overdue
 from fleetcare.readings.models import BatteryState, CellReading, Inspection, WaterTopUp
 
 HEATMAP_INSPECTIONS = 40
@@ -42,8 +37,8 @@ SOC_BAND_SHORT = {
     NO_READING: "none yet",
 }
 
-# How often equalizing and watering are due comes from the planner's policy (per site and profile).
-OVERDUE_KINDS = {"equalizing": "Equalizing overdue", "watering": "Watering overdue"}
+# When equalizing and watering are overdue is the planner's rule (fleetcare.planner.due and .overdue).
+OVERDUE_KINDS = overdue.KINDS
 
 
 def latest_soc():
@@ -65,83 +60,6 @@ def with_latest_reading(batteries):
         current_asset=Subquery(
             Fitting.objects.filter(battery=OuterRef("pk"), removed_at__isnull=True).values("vehicle__asset_number")[:1]
         ),
-    )
-
-
-def _care_logged_since(kind, since):
-    """Conditions matching batteries equalized (a current 'just equalized' inspection or an equalizing
-    charge logged in the planner) or watered since `since`."""
-    if kind == "equalizing":
-        done = [
-            Q(
-                pk__in=Inspection.objects.current()
-                .filter(situation=Inspection.Situation.JUST_EQUALIZED, taken_at__gte=since)
-                .values("battery_id")
-            )
-        ]
-        if EqualizingCharge is not None:
-            done.append(
-                Q(
-                    pk__in=EqualizingCharge.objects.annotate(at=Coalesce("ended_at", "started_at"))
-                    .filter(at__gte=since)
-                    .values("battery_id")
-                )
-            )
-        return done
-    if kind == "watering":
-        return [Q(pk__in=WaterTopUp.objects.current().filter(done_at__gte=since).values("battery_id"))]
-    raise ValueError(kind)
-
-
-def policy_partition(policies, prefix=""):
-    """[(condition, site_id, profile_id)] splitting batteries by the sites and profiles that policy rows
-    name (None: any other), so each battery falls in exactly one part and one policy resolution serves
-    the whole part. `prefix` is the path to the battery from the queried model (e.g. "battery__")."""
-    site_ids = sorted({p.site_id for p in policies if p.site_id})
-    profile_ids = sorted({p.profile_id for p in policies if p.profile_id})
-    parts = []
-    for site_id in site_ids + [None]:
-        for profile_id in profile_ids + [None]:
-            where = Q(**{f"{prefix}site_id": site_id}) if site_id else ~Q(**{f"{prefix}site_id__in": site_ids})
-            where &= (
-                Q(**{f"{prefix}profile_id": profile_id})
-                if profile_id
-                else ~Q(**{f"{prefix}profile_id__in": profile_ids})
-            )
-            parts.append((where, site_id, profile_id))
-    return parts
-
-
-def care_intervals(kind):
-    """[(condition on a battery's site and profile, days)] covering every battery once: the planner's
-    equalize_every_days or water_every_days as its policy rows resolve them (one query for the rows).
-    Days of 0 mean never due by time."""
-    setting = "equalize_every_days" if kind == "equalizing" else "water_every_days"
-    policies = list(PlannerPolicy.objects.select_related("site", "profile"))
-    return [
-        (where, int(getattr(planner_policy.resolve(site_id, profile_id, policies), setting)))
-        for where, site_id, profile_id in policy_partition(policies)
-    ]
-
-
-def overdue_q(kind, now):
-    """Flooded batteries whose profile allows equalizing (or watering) with none logged within the
-    planner's interval for their site and profile: one SQL condition for filter() or an annotation.
-    (The planner's full plan also counts charges and findings; this is the time-based part of it.)"""
-    allowed = "equalizing_allowed" if kind == "equalizing" else "watering_allowed"
-    by_days = defaultdict(list)
-    for where, days in care_intervals(kind):
-        if days:
-            by_days[days].append(where)
-    due = [
-        reduce(operator.or_, wheres)
-        & reduce(operator.and_, [~done for done in _care_logged_since(kind, now - dt.timedelta(days=days))])
-        for days, wheres in sorted(by_days.items())
-    ]
-    if not due:
-        return Q(pk__isnull=True)  # nothing is ever due by time
-    return Q(profile__technology=BatteryProfile.Technology.FLOODED, **{f"profile__{allowed}": True}) & reduce(
-        operator.or_, due
     )
 
 
@@ -270,8 +188,9 @@ class BatteryFilters:
         return words
 
 
-def battery_list(batteries, filters, now):
-    """The battery list narrowed and sorted by filters: a queryset to page, in one query per page."""
+def battery_list(batteries, filters, now, sites=()):
+    """The battery list narrowed and sorted by filters: a queryset to page, in one query per page.
+    `sites`: the user's sites (loaded once by the page; "overdue" is judged in each site's own day)."""
     batteries = batteries.select_related("profile", "site")
     if filters.query:
         batteries = batteries.filter(
@@ -296,7 +215,7 @@ def battery_list(batteries, filters, now):
     if filters.finding:
         batteries = batteries.filter(pk__in=Finding.objects.active().filter(kind=filters.finding).values("battery_id"))
     if filters.overdue:
-        batteries = batteries.filter(overdue_q(filters.overdue, now))
+        batteries = batteries.filter(overdue.overdue_q(filters.overdue, now, sites))
     if filters.past_life:
         batteries = batteries.filter(past_design_life_q(timezone.localdate(now)))
     column = F(SORTS[filters.sort])

@@ -26,9 +26,9 @@ COLUMNS = (
 @role_required(CREW)
 def battery_list(request):
     filters = selectors.BatteryFilters.from_query(request.GET)
-    batteries = selectors.battery_list(visible_batteries(request.user), filters, timezone.now())
+    sites = list(visible_sites(request.user))
+    batteries = selectors.battery_list(visible_batteries(request.user), filters, timezone.now(), sites)
     page = Paginator(batteries, selectors.LIST_PAGE_SIZE).get_page(request.GET.get("page"))
-    sites = visible_sites(request.user)
     return render(
         request,
         "dashboard/battery_list.html",

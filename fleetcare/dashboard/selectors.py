@@ -18,7 +18,7 @@ from django.db.models import BooleanField, Count, ExpressionWrapper, F, Max, Min
 from django.urls import reverse
 from django.utils import timezone
 
-from fleetcare import charts
+from fleetcare import charts, policy_layers
 from fleetcare.care import policy as care_policy
 from fleetcare.care.models import Finding
 from fleetcare.care.models import Policy as CarePolicy
@@ -26,6 +26,7 @@ from fleetcare.care.policy import BY_NAME as CARE_THRESHOLDS
 from fleetcare.dashboard import battery_selectors as fleet
 from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Battery, Fitting
+from fleetcare.planner import overdue
 from fleetcare.readings import selectors as reading_selectors
 from fleetcare.readings.models import Inspection, WaterTopUp
 
@@ -60,7 +61,7 @@ def overview(batteries, sites, scope=None, now=None):
     now = now or timezone.now()
     today = timezone.localdate(now)
     batteries = batteries.active()
-    rows = _battery_rows(batteries, now, today)
+    rows = _battery_rows(batteries, now, today, sites)
     in_scope = [r for r in rows if scope is None or r["site_id"] == scope.pk]
     scoped = batteries if scope is None else batteries.filter(site=scope)
     finding_counts = _open_findings_by_site_and_kind(batteries)
@@ -80,14 +81,18 @@ def overview(batteries, sites, scope=None, now=None):
     }
 
 
-def _battery_rows(batteries, now, today):
-    """One dict per battery with what the counts need: its latest SOC, care dates and latest spread."""
+def _battery_rows(batteries, now, today, sites):
+    """One dict per battery with what the counts need: its latest SOC, whether care is overdue (the planner's
+    rule) and latest spread."""
+    planning = overdue.policies()
     rows = list(
         batteries.annotate(
             latest_soc=fleet.latest_soc(),
             latest_post_charge_spread=F("state__post_charge_sg_spread"),
-            overdue_equalizing=ExpressionWrapper(fleet.overdue_q("equalizing", now), output_field=BooleanField()),
-            overdue_watering=ExpressionWrapper(fleet.overdue_q("watering", now), output_field=BooleanField()),
+            overdue_equalizing=ExpressionWrapper(overdue.overdue_q(overdue.EQUALIZING, now, sites, planning),
+                                                 output_field=BooleanField()),
+            overdue_watering=ExpressionWrapper(overdue.overdue_q(overdue.WATERING, now, sites, planning),
+                                               output_field=BooleanField()),
         )
         .values(
             "pk",
@@ -201,8 +206,8 @@ def _sections(rows, sites, finding_counts):
     sections.append(
         {
             "title": "Care",
-            "note": "Overdue: flooded batteries with nothing logged within the planner's interval "
-            "(7 days unless a planning policy says otherwise).",
+            "note": "Overdue: nothing logged within the planner's interval (7 days unless a planning policy "
+            "says otherwise), counted from the day in service when nothing is on record.",
             "rows": [
                 {
                     "label": label,
@@ -368,7 +373,7 @@ def deep_discharge_limits():
                 SimpleNamespace(site_id=site_id, profile_id=profile_id), policies
             ).deep_discharge_soc_percent,
         )
-        for where, site_id, profile_id in fleet.policy_partition(policies, prefix="battery__")
+        for where, site_id, profile_id in policy_layers.partition(policies, prefix="battery__")
     ]
 
 

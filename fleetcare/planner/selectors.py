@@ -265,8 +265,9 @@ def tasks_for_today(user, now=None):
 
 
 def work_due_for_battery(battery, now=None):
-    """[{kind, title, due}] for one battery: its next planned equalizing and watering (from the site's stored
-    plan) and any reading due; `due` is an aware datetime. Used by the JSON API."""
+    """[{kind, title, due, due_day, days_overdue}] for one battery: its next planned equalizing and watering (from
+    the site's stored plan) and any reading due; `due` is an aware datetime (the planned start, or the day it fell
+    due when the plan has no room for it), `due_day` the site's day it falls due. Used by the JSON API."""
     site = battery.site
     entry, plan = site_plan(site, now)
     facts = entry.facts.get(battery.pk)
@@ -277,13 +278,14 @@ def work_due_for_battery(battery, now=None):
     found = {}
     for task in plan.tasks:
         if task.battery_id == battery.pk and task.kind not in found:
-            found[task.kind] = _aware(site, task.start)
+            found[task.kind] = (_aware(site, task.start), task.due_day)
     for missing in plan.unplaced:
         if missing.battery_id == battery.pk and missing.kind not in found:
-            found[missing.kind] = _aware(site, dt.datetime.combine(missing.due_day, dt.time()))
+            found[missing.kind] = (_aware(site, dt.datetime.combine(missing.due_day, dt.time())), missing.due_day)
     for kind, due_day, _ in reading_tasks(facts, entry.today):
-        found.setdefault(kind, _aware(site, dt.datetime.combine(due_day, dt.time())))
-    return [{"kind": k, "title": titles[k], "due": found[k]} for k in KINDS if k in found]
+        found.setdefault(kind, (_aware(site, dt.datetime.combine(due_day, dt.time())), due_day))
+    return [{"kind": k, "title": titles[k], "due": found[k][0], "due_day": found[k][1],
+             "days_overdue": due.days_overdue(found[k][1], entry.today)} for k in KINDS if k in found]
 
 
 @dataclass
