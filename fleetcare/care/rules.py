@@ -15,16 +15,14 @@ from fleetcare.readings.services import is_rested
 DAYS_PER_MONTH = 30
 LOW_LEVEL_LOOKBACK = timedelta(hours=24)
 
-EQUALIZE_CAUTION = (
-    "Equalize only in a ventilated charging area: an equalizing charge releases more hydrogen than a normal "
-    "charge. Keep the vent caps in place and check the electrolyte temperature."
-)
-WATER_CAUTION = "Top up with distilled or deionised water only, to the level mark, wearing face shield and gloves."
-REPLACE_CAUTION = (
-    "Replacing cells or blocks means handling acid and heavy parts: use approved lifting equipment; spent cells "
-    "and blocks go to a licensed lead recycler."
-)
-GAS_CAUTION = "Heavy water use means heavy gassing: check that the charging room's ventilation copes."
+# A finding's caution is a topic of the one cautions template (templates/partials/cautions.html), which words it
+# for flooded or sealed batteries.
+EQUALIZE_CAUTION = "equalize"
+WATER_CAUTION = "water"
+REPLACE_CAUTION = "replace"
+GAS_CAUTION = "gas"
+HOT_CAUTION = "hot"
+CHARGE_CAUTION = "charge"  # the general cautions alone
 
 
 @dataclass(frozen=True, slots=True)
@@ -485,8 +483,7 @@ def left_discharged(data):
         next_step=(f"Put the {what} on charge now and let it charge fully (do not stop the charge early), then read it "
                    "again after the rest time. If it will not come back above half charge, book a capacity test."
                    + (" Ask the user or carers to charge it every night." if chair else "")),
-        caution=("Charge in a ventilated place away from flames and sparks; switch the charger off before "
-                 "disconnecting. Follow the battery maker's instructions."),
+        caution=CHARGE_CAUTION,
         inspection=latest,
     )
 
@@ -520,8 +517,7 @@ def hot_battery(data):
                    "and timer: an equalizing or normal charge that ran too long), the charging room (ventilation "
                    "running, room temperature, batteries charged too close together), and the cells (one much hotter "
                    "than the rest, or with a low voltage or SG, may be shorted: ask the battery maker)."),
-        caution=("Hot electrolyte gasses hard: ventilate, keep flames and sparks away, wear face shield and gloves. "
-                 "Follow the battery maker's instructions and the site safety officer."),
+        caution=HOT_CAUTION,
         facts={"hottest_temp_c": _f(hottest.temp_c, 1), "hot_readings": len(hot)},
     )
 

@@ -18,11 +18,6 @@ from fleetcare.planner.plans import PLAN_DAYS
 from fleetcare.readings import validation
 from fleetcare.readings.forms import temp_label
 
-EQUALIZING_CAUTION = (
-    "Equalizing gives off more hydrogen than any normal charge: check the room's ventilation is running before "
-    "you start, keep sparks, flames and phones away, and leave the vent caps on while it gasses."
-)
-
 
 def site_temperature(temp_c, site, unit=True):
     """A temperature stored in °C, as the site reads it."""
@@ -157,7 +152,7 @@ def equalizing(request, pk):
         return render(request, "planner/equalizing.html", {
             "battery": battery, "profile": battery.profile, "site": battery.site, "record": record,
             "running": running, "start_form": form, "reading_form": ReadingForm(site=battery.site),
-            "end_form": EndChargeForm(), "levelling": _levelling(battery, running), "caution": EQUALIZING_CAUTION,
+            "end_form": EndChargeForm(), "levelling": _levelling(battery, running),
             "closing_url": reverse("readings:inspect", args=[battery.pk]) + "?scope=all&situation=equalized",
             "limits": validation.limits_for(battery, timezone.now()).as_json(),
             "last_ended": next((c for c in record["past"] if c.ended_at), None),
@@ -183,7 +178,7 @@ def equalizing_reading(request, pk):
         return render(request, "planner/equalizing.html", {
             "battery": battery, "profile": battery.profile, "site": battery.site, "record": record,
             "running": running, "start_form": None, "reading_form": form, "end_form": EndChargeForm(),
-            "levelling": _levelling(battery, running), "caution": EQUALIZING_CAUTION,
+            "levelling": _levelling(battery, running),
             "closing_url": reverse("readings:inspect", args=[battery.pk]) + "?scope=all&situation=equalized",
             "limits": validation.limits_for(battery, timezone.now()).as_json(),
         }, status=400)

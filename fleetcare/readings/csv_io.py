@@ -420,6 +420,10 @@ class Checker:
         if situation is None:
             problems.append(("situation", f"situation “{_shown(row.situation)}” is not one of "
                                           f"{', '.join(Inspection.Situation.values)}."))
+        elif battery is not None:
+            refused = validation.situation_problem(situation, validation.situations_for(battery.profile))
+            if refused:
+                problems.append(("situation", refused))
         return battery, taken_at, situation, problems
 
     def _taken_at(self, text, battery):

@@ -140,6 +140,18 @@ class InspectionForm(forms.Form):
     def clean_taken_at(self):
         return check_when(self, "taken_at", self.battery)
 
+    def clean_situation(self):
+        situation = self.cleaned_data.get("situation")
+        message = validation.situation_problem(situation, self.limits.situations)
+        if message:
+            raise forms.ValidationError(message)
+        return situation
+
+    @property
+    def situation_choices(self):
+        """The situations offered for this battery: a sealed one has no "Just equalized"."""
+        return [(v, label) for v, label in self.fields["situation"].choices if v in self.limits.situations]
+
     def header_fields(self):
         return [self[name] for name in ("situation", "taken_at", "temp", "hydrometer_compensated", "hours_since_charge") if name in self.fields]
 

@@ -183,6 +183,33 @@ def window_problem(when, window, now, label="Taken at", advice=None):
     return None
 
 
+# ---- The situation ---------------------------------------------------------------------------------
+
+JUST_EQUALIZED = "equalized"  # Inspection.Situation.JUST_EQUALIZED
+
+
+def situations_for(profile):
+    """The situations a reading of this profile may be taken in (Inspection.Situation values). Sealed blocks are
+    not equalized by the crew (the maker's charger and instructions govern them), so "Just equalized" is not one."""
+    from fleetcare.readings.models import Inspection  # the models module imports this one for SETTINGS
+
+    values = tuple(Inspection.Situation.values)
+    return values if profile.is_flooded else tuple(v for v in values if v != JUST_EQUALIZED)
+
+
+def situation_problem(situation, situations):
+    """A message for the situation box when `situation` is not among `situations` (from situations_for), else None."""
+    if not situation or situation in situations:
+        return None
+    if situation == JUST_EQUALIZED:
+        return SEALED_NOT_EQUALIZED
+    return "Choose the situation the reading was taken in."
+
+
+SEALED_NOT_EQUALIZED = ("A sealed battery is not equalized: choose just charged, rested, in use or before charge. "
+                        "Charge it only as its maker says.")
+
+
 # ---- The tray as a whole --------------------------------------------------------------------------
 
 @dataclass(frozen=True)
@@ -207,6 +234,7 @@ class Limits:
     earliest_reason: str
     future_minutes: int
     slip_min_others: int = SLIP_MIN_OTHER_CELLS
+    situations: tuple = ()
 
     def as_json(self):
         def num(value):
@@ -219,6 +247,7 @@ class Limits:
             "voltsHigh": num(self.volts_high), "cellsPerBlock": self.cells_per_block,
             "earliest": self.earliest.isoformat(), "earliestReason": self.earliest_reason,
             "futureMinutes": self.future_minutes, "slipMinOthers": self.slip_min_others,
+            "situations": list(self.situations), "sealedNotEqualized": SEALED_NOT_EQUALIZED,
         }
 
 
@@ -254,7 +283,7 @@ def limits_for(battery, now, values=None):
         slip_above=settings["slip_above_median_sg"], slip_below=settings["slip_below_median_sg"],
         band_low=band_low, band_high=band_high, volts_low=volts_low, volts_high=volts_high,
         cells_per_block=profile.cells_per_block, earliest=window.earliest, earliest_reason=window.earliest_reason,
-        future_minutes=int(settings["future_minutes"]),
+        future_minutes=int(settings["future_minutes"]), situations=situations_for(profile),
     )
 
 

@@ -131,6 +131,11 @@
     var scope = (form.elements.scope && form.elements.scope.value) || "all";
     var when = form.elements.taken_at;
     if (when) { var d = dateProblem(when.value, limits, "Taken at"); if (d) add(errors, "taken_at", d); }
+    var situation = form.elements.situation;
+    if (situation && situation.value && limits.situations && limits.situations.indexOf(situation.value) < 0) {
+      add(errors, "situation", situation.value === "equalized" ? limits.sealedNotEqualized
+        : "Choose the situation the reading was taken in.");
+    }
     var t = form.elements.temp ? tempProblem(form.elements.temp.value, limits) : null;
     if (t) add(errors, "temp", t);
     var values = {};

@@ -5,6 +5,7 @@ from decimal import Decimal
 
 from fleetcare.fleet.models import Battery
 from fleetcare.readings.forms import InspectionForm
+from fleetcare.readings import validation
 from fleetcare.readings.models import Inspection
 from tests.api.conftest import TRAY_SG, post_json, reading_body
 
@@ -97,6 +98,15 @@ def test_it_takes_block_voltages_for_a_sealed_pair(token_client, sealed_battery)
     assert response.status_code == 201
     assert response.json()["volts_total"] == 25.46
     assert response.json()["soc_basis"] == "ocv"
+
+
+def test_the_api_refuses_just_equalized_for_a_sealed_battery_with_422(token_client, sealed_battery):
+    body = reading_body(situation="equalized", temp=None, hours_since_charge="24",
+                        cells=[{"position": 1, "volts": "12.84"}, {"position": 2, "volts": "12.62"}])
+    response = post_json(token_client, url(sealed_battery), body)
+    assert response.status_code == 422
+    assert response.json()["errors"]["situation"] == [validation.SEALED_NOT_EQUALIZED]
+    assert not Inspection.objects.exists()
 
 
 def test_it_refuses_an_implausible_block_voltage_with_the_forms_message(token_client, sealed_battery):

@@ -22,7 +22,7 @@ def test_a_reading_at_56_degrees_opens_an_urgent_finding(battery, crew, watered,
     assert finding.severity == Finding.Severity.URGENT
     assert "56 °C" in finding.summary and "limit 55 °C" in finding.summary
     assert "charger" in finding.evidence["next_step"] and "ventilation" in finding.evidence["next_step"]
-    assert "safety officer" in finding.evidence["caution"]
+    assert finding.evidence["caution"] == "hot"  # the hot-battery caution of the one cautions template
 
 
 def test_55_degrees_is_not_over_the_limit(battery, crew, watered, now):

@@ -62,7 +62,7 @@ def test_a_finding_explains_itself(crew_client, weak):
     assert "cell 9: <strong>1.245, 40 points below" in body  # the reading used
     assert "0.030 SG" in body and "common practice (field notes)" in body  # threshold and source
     assert "Give an equalizing charge" in body  # what to do next
-    assert "Equalize only in a ventilated charging area" in body and "Sulfuric acid burns" in body  # cautions
+    assert "Equalizing gives off more hydrogen" in body and "Sulfuric acid burns" in body  # cautions
 
 
 def test_crew_cannot_acknowledge(crew_client, weak):

@@ -21,7 +21,7 @@ def test_it_reports_low_cells_until_water_is_logged(battery, crew, now):
     inspect(battery, crew, now - DAY, cells=sgs(), levels={5: "low", 12: "low"})
     finding = one(detect(battery, now), "low_level")
     assert finding.positions == [5, 12]
-    assert "distilled or deionised" in finding.evidence["caution"]
+    assert finding.evidence["caution"] == "water"  # the water caution of the one cautions template
     water(battery, crew, now - dt.timedelta(hours=2), 900)
     assert "low_level" not in kinds(detect(battery, now))
 

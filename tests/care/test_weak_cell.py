@@ -117,7 +117,7 @@ def test_a_cell_behind_the_others_median_by_over_twenty_points_plus_one_resoluti
     assert reading["sg_spread"] == 0.026 and reading["lagging_cells"] == [{"position": 4, "below_median_points": 26}]
     assert finding.persistent is False
     assert "cell 4" in finding.summary and "26 points" in finding.summary
-    assert "ventilated" in finding.evidence["caution"]
+    assert finding.evidence["caution"] == "equalize"
 
 
 def test_one_cell_twenty_five_points_behind_is_not_evidence(battery, crew, watered, now):
