@@ -77,6 +77,7 @@ MIDDLEWARE = [
     "fleetcare.accounts.middleware.SiteTimezoneMiddleware",
     "fleetcare.accounts.middleware.ContentSecurityPolicyMiddleware",
     "fleetcare.accounts.middleware.PrivateResponsesMiddleware",
+    "fleetcare.accounts.middleware.KnownDeviceMiddleware",
 ]
 
 ROOT_URLCONF = "fleetcare.urls"
@@ -171,8 +172,20 @@ LOGIN_REDIRECT_URL = "/start/"
 LOGOUT_REDIRECT_URL = "/accounts/login/"
 
 AUTHENTICATION_BACKENDS = ["fleetcare.accounts.backends.ThrottledModelBackend"]
-# Sign-in throttling (fleetcare/accounts/throttle.py): failures per username and address.
+# Sign-in throttling (fleetcare/accounts/throttle.py). Failures within the window pause sign-in for the lock time:
+# per username and address (or per username on a device where it signed in before), per address whatever the
+# usernames (one password tried on many accounts), per username whatever the addresses (one account guessed from
+# many places). A device where the user signed in before is recognised for FLEETCARE_SIGNIN_DEVICE_DAYS and is not
+# held by the address or username pauses. Defaults: common practice.
 FLEETCARE_SIGNIN_MAX_FAILURES = int(os.environ.get("FLEETCARE_SIGNIN_MAX_FAILURES", "5"))
+FLEETCARE_SIGNIN_ADDRESS_MAX_FAILURES = int(os.environ.get("FLEETCARE_SIGNIN_ADDRESS_MAX_FAILURES", "10"))
+FLEETCARE_SIGNIN_USERNAME_MAX_FAILURES = int(os.environ.get("FLEETCARE_SIGNIN_USERNAME_MAX_FAILURES", "10"))
+FLEETCARE_SIGNIN_DEVICE_DAYS = int(os.environ.get("FLEETCARE_SIGNIN_DEVICE_DAYS", "90"))
+# How many proxies of ours stand in front of the app, each appending the address it was reached from to
+# X-Forwarded-For. 0 (default): the connection's own address is the client's and the header is ignored (a client
+# can write anything there). 1: behind one proxy (e.g. the TLS terminator in front of gunicorn), whose own entry
+# (the header's last) is the client's address.
+FLEETCARE_TRUSTED_PROXIES = int(os.environ.get("FLEETCARE_TRUSTED_PROXIES", "0"))
 FLEETCARE_SIGNIN_WINDOW_MINUTES = int(os.environ.get("FLEETCARE_SIGNIN_WINDOW_MINUTES", "15"))
 FLEETCARE_SIGNIN_LOCK_MINUTES = int(os.environ.get("FLEETCARE_SIGNIN_LOCK_MINUTES", "15"))
 

@@ -14,17 +14,16 @@ class SignInForm(AuthenticationForm):
 
     def clean(self):
         username = self.cleaned_data.get("username")
-        ip = throttle.client_ip(self.request)
-        if username:
-            until = throttle.locked_until(username, ip)
-            if until:
-                raise forms.ValidationError(throttle.lock_message(until), code="throttled")
+        attempt = throttle.Attempt.of(self.request, username) if username else None
+        lock = throttle.lock_for(attempt) if attempt else None
+        if lock:
+            raise forms.ValidationError(throttle.lock_message(lock), code="throttled")
         try:
             return super().clean()
         except forms.ValidationError:
-            until = throttle.locked_until(username, ip) if username else None
-            if until:
-                raise forms.ValidationError(throttle.lock_message(until), code="throttled") from None
+            lock = throttle.lock_for(attempt) if attempt else None
+            if lock:
+                raise forms.ValidationError(throttle.lock_message(lock), code="throttled") from None
             raise
 
 

@@ -56,3 +56,22 @@ class PrivateResponsesMiddleware:
         if "Cache-Control" not in response.headers:
             patch_cache_control(response, private=True, no_store=True)
         return response
+
+
+class KnownDeviceMiddleware:
+    """After a sign-in, mark the browser as one where that user signed in (the sign-in throttle trusts it)."""
+
+    def __init__(self, get_response):
+        self.get_response = get_response
+
+    def __call__(self, request):
+        from fleetcare.accounts import backends, throttle
+
+        response = self.get_response(request)
+        value = getattr(request, backends.SIGNED_IN_DEVICE, None)
+        if value:
+            response.set_cookie(
+                throttle.DEVICE_COOKIE, value, max_age=settings.FLEETCARE_SIGNIN_DEVICE_DAYS * 86400,
+                secure=settings.SESSION_COOKIE_SECURE, httponly=True, samesite="Lax",
+            )
+        return response
