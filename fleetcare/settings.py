@@ -92,6 +92,7 @@ TEMPLATES = [
                 "django.template.context_processors.request",
                 "django.contrib.auth.context_processors.auth",
                 "django.contrib.messages.context_processors.messages",
+                "fleetcare.replica.freshness",
             ],
         },
     },
@@ -119,6 +120,20 @@ if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
     DATABASES["default"].setdefault("OPTIONS", {}).update(
         {"init_command": "PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;", "timeout": 20}
     )
+# DATABASE_REPLICA_URL (optional; default: none): a read-only copy of the database, such as a PostgreSQL streaming
+# standby. The dashboards' and exports' reads go there (fleetcare.replica); writes and every other page use
+# DATABASE_URL. A page whose copy is more than REPLICA_LAG_NOTE_SECONDS (default 10 s) behind says how old
+# its figures are.
+DATABASE_REPLICA_URL = os.environ.get("DATABASE_REPLICA_URL", "")
+REPLICA_LAG_NOTE_SECONDS = int(os.environ.get("REPLICA_LAG_NOTE_SECONDS", "10"))
+if DATABASE_REPLICA_URL:
+    DATABASES["replica"] = dj_database_url.parse(
+        DATABASE_REPLICA_URL, conn_max_age=DATABASES["default"]["CONN_MAX_AGE"],
+        conn_health_checks=DATABASES["default"]["CONN_HEALTH_CHECKS"],
+    )
+    DATABASES["replica"]["OPTIONS"] = dict(DATABASES["default"].get("OPTIONS", {}))
+    DATABASES["replica"]["TEST"] = {"MIRROR": "default"}  # tests read their own writes
+DATABASE_ROUTERS = ["fleetcare.replica.ReplicaRouter"]
 DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 
 AUTH_PASSWORD_VALIDATORS = [

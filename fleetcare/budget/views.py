@@ -4,6 +4,7 @@ from django.shortcuts import redirect, render
 from django.views.decorators.http import require_http_methods
 
 from fleetcare.accounts.access import role_required
+from fleetcare.replica import reads_from_replica
 from fleetcare.accounts.roles import MANAGER, SUPERVISOR
 from fleetcare.budget import exports, selectors, services
 from fleetcare.budget.forecast import Bucket
@@ -46,6 +47,7 @@ def _filters(request):
 
 
 @role_required(MANAGER)
+@reads_from_replica
 def budget_page(request):
     batteries, filters = _filters(request)
     budget, assumptions = selectors.replacement_budget(batteries, years=filters["years"])
@@ -71,6 +73,7 @@ def drill_down(budget, chosen):
 
 
 @role_required(MANAGER)
+@reads_from_replica
 def export(request, fmt):
     batteries, filters = _filters(request)
     budget, assumptions = selectors.replacement_budget(batteries, years=filters["years"])

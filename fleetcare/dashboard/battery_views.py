@@ -5,6 +5,7 @@ from django.shortcuts import render
 from django.utils import timezone
 
 from fleetcare.accounts.access import role_required
+from fleetcare.replica import reads_from_replica
 from fleetcare.accounts.roles import CREW
 from fleetcare.dashboard import battery_selectors as selectors
 from fleetcare.fleet.access import battery_or_404, visible_batteries, visible_sites
@@ -24,6 +25,7 @@ COLUMNS = (
 
 
 @role_required(CREW)
+@reads_from_replica
 def battery_list(request):
     filters = selectors.BatteryFilters.from_query(request.GET)
     sites = list(visible_sites(request.user))

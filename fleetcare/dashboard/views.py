@@ -7,6 +7,7 @@ from django.urls import reverse
 from django.views.decorators.http import require_POST
 
 from fleetcare.accounts.access import role_required
+from fleetcare.replica import reads_from_replica
 from fleetcare.accounts.roles import ADMINISTRATOR, CREW, SUPERVISOR, has_role
 from fleetcare.dashboard import selectors, settings_page
 from fleetcare.dashboard.landing import landing, sees_overview
@@ -23,6 +24,7 @@ def start(request):
 
 
 @role_required(CREW)
+@reads_from_replica
 def home(request):
     if not sees_overview(request.user):  # the crew's front page is today's work, as after signing in
         return redirect(landing(request.user))

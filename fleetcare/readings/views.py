@@ -8,6 +8,7 @@ from django.urls import reverse
 from django.views.decorators.http import require_http_methods
 
 from fleetcare.accounts.access import role_required
+from fleetcare.replica import reads_from_replica
 from fleetcare.accounts.forms import ReasonForm
 from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
 from fleetcare.fleet import site_time, site_units
@@ -216,6 +217,7 @@ def top_up(request, pk):
 
 
 @role_required(CREW)
+@reads_from_replica
 def export_csv(request, pk):
     battery = battery_or_404(request.user, pk)
     response = HttpResponse(content_type="text/csv; charset=utf-8")
