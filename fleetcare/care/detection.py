@@ -10,7 +10,7 @@ from collections import defaultdict
 from datetime import timedelta
 
 from django.db import connection, transaction
-from django.db.models import Count, Exists, F, Max, Min, OuterRef
+from django.db.models import Count, Exists, F, Max, Min, OuterRef, Subquery
 from django.db.models.expressions import Window
 from django.db.models.functions import RowNumber
 from django.utils import timezone
@@ -90,7 +90,10 @@ def _with_cells(rows):
 
 def load(batteries, now):
     """ReadingHistory for every battery in the queryset, in a fixed number of queries."""
-    battery_list = list(batteries.select_related("profile", "site").order_by("pk"))
+    last_top_up = (WaterTopUp.objects.current().filter(battery_id=OuterRef("pk"), done_at__lte=now)
+                   .order_by("-done_at").values("done_at")[:1])
+    battery_list = list(batteries.select_related("profile", "site").annotate(last_top_up_at=Subquery(last_top_up))
+                        .order_by("pk"))
     if not battery_list:
         return []
     ids = _battery_ids(batteries)
@@ -160,8 +163,8 @@ def load(batteries, now):
     top_ups = WaterTopUp.objects.current().filter(battery_id__in=ids, done_at__lte=now)
     for top_up in top_ups.filter(done_at__gte=since).order_by("-done_at"):
         data[top_up.battery_id].top_ups.append(top_up)
-    for row in top_ups.order_by().values("battery_id").annotate(last=Max("done_at")):
-        data[row["battery_id"]].last_top_up_at = row["last"]
+    for b in battery_list:
+        data[b.pk].last_top_up_at = b.last_top_up_at
 
     planning = list(PlanningPolicy.objects.select_related("site", "profile"))
     window_start = now - timedelta(days=due.CHARGE_WINDOW_DAYS)

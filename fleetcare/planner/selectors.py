@@ -226,7 +226,7 @@ def site_days(sites, now=None):
             if (facts.battery.pk, kind) in done_keys:
                 return
             task = TodayTask(kind=kind, battery=facts.battery, site=site, due_day=due_day,
-                             days_overdue=max(0, (today - due_day).days), why=why, severity=severity,
+                             days_overdue=due.days_overdue(due_day, today), why=why, severity=severity,
                              start=start, end=end, vehicle=facts.vehicle, status=status, not_planned_reason=reason)
             skipped = skips.get((facts.battery.pk, kind, today))
             if skipped is not None and status == "to_do":

@@ -13,7 +13,7 @@ from fleetcare.fleet.models import Battery, Fitting, Vehicle
 from tests.care.helpers import inspect, sgs, water
 
 DAY = dt.timedelta(days=1)
-MAX_QUERIES = 21  # one of them reads the planning policy, whose watering interval the watering rule uses
+MAX_QUERIES = 20
 
 
 def add_fleet(size, site, care_site, traction_profile, sealed_profile, crew, now):
