@@ -13,6 +13,7 @@ from django.urls import reverse
 from fleetcare.fleet.access import visible_batteries, visible_sites
 from fleetcare.fleet.models import Battery
 from fleetcare.labels.sheets import Label, label_sheet
+from fleetcare.planner.selectors import just_equalized
 from fleetcare.readings.models import Inspection
 
 
@@ -114,23 +115,28 @@ def resolve_label(user, site_code, serial):
         return Outcome(UNKNOWN, MESSAGES[UNKNOWN].format(site=site.name, serial=serial))
     if battery.status == Battery.Status.RETIRED:
         return Outcome(RETIRED, MESSAGES[RETIRED].format(serial=battery.serial, site=battery.site.name))
-    return Outcome(OPEN, url=entry_url(battery))
+    equalized = just_equalized(Battery.objects.filter(pk=battery.pk))
+    return Outcome(OPEN, url=entry_url(battery, battery.pk in equalized))
 
 
-def entry_url(battery):
-    return reverse("readings:inspect", args=[battery.pk]) + f"?via={Inspection.ChosenVia.SCAN}"
+def entry_url(battery, just_equalized=False):
+    """The battery's entry screen, opened by a scan; after an equalizing charge as today's task for it opens
+    (all cells, "Just equalized" chosen)."""
+    url = reverse("readings:inspect", args=[battery.pk]) + f"?via={Inspection.ChosenVia.SCAN}"
+    return url + "&scope=all&situation=equalized" if just_equalized else url
 
 
 def scan_data(user, base):
     """What the scan screen needs to judge a code without the network: the same facts resolve_label uses."""
     batteries = visible_batteries(user).select_related("site").order_by("serial")
+    equalized = just_equalized(visible_batteries(user))
     return {
         "bases": [base],
         "prefix": label_prefix(),
         "messages": MESSAGES,
         "sites": {site.code: site.name for site in visible_sites(user)},
         "batteries": {
-            b.serial: {"url": entry_url(b), "retired": b.status == Battery.Status.RETIRED, "site": b.site.name}
+            b.serial: {"url": entry_url(b, b.pk in equalized), "retired": b.status == Battery.Status.RETIRED, "site": b.site.name}
             for b in batteries
         },
     }

@@ -3,7 +3,7 @@ import datetime as dt
 from collections import defaultdict
 from dataclasses import dataclass, field
 
-from django.db.models import Q
+from django.db.models import F, Max, Q
 from django.urls import reverse
 from django.utils import timezone
 
@@ -142,8 +142,19 @@ def _aware(site, naive):
 
 def read_after_equalizing(facts):
     """True when an equalizing charge ended after the battery's last all-cell reading: read all cells, "Just equalized"."""
-    return bool(facts.equalizing_ended_at) and (
-        facts.all_cells_at is None or facts.equalizing_ended_at > facts.all_cells_at)
+    return equalized_since_all_cells(facts.equalizing_ended_at, facts.all_cells_at)
+
+
+def equalized_since_all_cells(equalizing_ended_at, all_cells_at):
+    return bool(equalizing_ended_at) and (all_cells_at is None or equalizing_ended_at > all_cells_at)
+
+
+def just_equalized(batteries):
+    """The pks of these batteries whose next all-cell reading is "Just equalized" (the rule above), in one query:
+    a scanned label opens their entry screen as today's work does."""
+    rows = batteries.order_by().annotate(
+        ended=Max("equalizing_charges__ended_at"), all_cells=F("state__all_cells_at")).values_list("pk", "ended", "all_cells")
+    return {pk for pk, ended, all_cells in rows if equalized_since_all_cells(ended, all_cells)}
 
 
 def reading_tasks(facts, today):

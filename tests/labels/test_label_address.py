@@ -1,5 +1,6 @@
 """The address a label's QR code holds: it opens the battery's entry screen, or says why it opens nothing."""
 import datetime as dt
+import urllib.parse
 
 import pytest
 from django.urls import reverse
@@ -76,3 +77,33 @@ def test_the_scan_screen_brings_its_facts_and_the_decoder_and_no_inline_code(cre
 def test_the_find_page_offers_scanning_and_keeps_typed_search(crew_client, battery):
     html = crew_client.get(reverse("readings:find")).content.decode()
     assert 'href="/labels/scan/"' in html and 'name="q"' in html
+
+
+def test_after_an_equalizing_charge_a_label_opens_todays_task_with_just_equalized_chosen(crew_client, crew, battery, site):
+    """As today's work opens the all-cell reading after equalizing; both the address and the scan screen's facts."""
+    from django.utils import timezone
+
+    from fleetcare.planner import selectors as planner_selectors
+    from fleetcare.planner.models import EqualizingCharge
+
+    plain = reverse("readings:inspect", args=[battery.pk]) + "?via=scan"
+    ended = timezone.now() - dt.timedelta(hours=1)
+    EqualizingCharge.objects.create(battery=battery, started_at=ended - dt.timedelta(hours=3), ended_at=ended, by=crew)
+    crew_client.cookies["fc_site"] = site.code
+    today = crew_client.get(reverse("planner:today", args=[site.code])).context["day"]
+    task = next(t for t in today.tasks if t.battery.pk == battery.pk and t.situation == "equalized")
+    opened = crew_client.get(label("tw", "TW-001"))["Location"]
+    assert opened == plain + "&scope=all&situation=equalized"
+    as_task = urllib.parse.urlsplit(task.entry_url)
+    assert (as_task.path, {**urllib.parse.parse_qs(as_task.query), "via": ["scan"]}) == \
+        (urllib.parse.urlsplit(opened).path, urllib.parse.parse_qs(urllib.parse.urlsplit(opened).query))
+    assert selectors.scan_data(crew, "https://fleetcare.example.com")["batteries"]["TW-001"]["url"] == opened
+    assert crew_client.get(opened).context["form"]["situation"].value() == "equalized"
+    # Read all cells "Just equalized": the task is done, and the label opens the plain entry screen again.
+    from fleetcare.readings.services import CellEntry, record_inspection
+    from decimal import Decimal
+
+    record_inspection(battery=battery, user=crew, taken_at=timezone.now(), situation="equalized", temp_c=Decimal("25"),
+                      cells=[CellEntry(position=n, sg=Decimal("1.285")) for n in range(1, 25)])
+    assert crew_client.get(label("tw", "TW-001"))["Location"] == plain
+    assert planner_selectors.just_equalized(Battery.objects.all()) == set()
