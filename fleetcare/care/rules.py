@@ -280,6 +280,31 @@ def spread_is_high(post_charge, policy):
     return {p: latest[p] for p in sorted(at_once | in_a_row)}, persistent
 
 
+@dataclass(frozen=True, slots=True)
+class SpreadGuides:
+    """The spread rule's two lines for a chart of how far a battery's furthest-behind cell reads below the median
+    of the other cells after charge (`Inspection.sg_behind_median`): over `once_sg` on the latest reading, or over
+    `in_a_row_sg` on each of the last `in_a_row` readings, the rule finds the spread high. (The rule also asks that
+    it be the same cell each time; the chart shows the furthest cell of each reading.)"""
+
+    once_sg: float
+    in_a_row_sg: float
+    in_a_row: int
+
+    def over_once(self, behind_sg):
+        return behind_sg is not None and float(behind_sg) > self.once_sg + 1e-9
+
+    def over_in_a_row(self, behind_sg):
+        return behind_sg is not None and float(behind_sg) > self.in_a_row_sg + 1e-9
+
+
+def spread_guides(policy):
+    """The lines `spread_is_high` judges by, at this battery's settings."""
+    limit, resolution = float(policy.equalize_spread_sg), float(policy.sg_resolution)
+    needed = max(1, int(policy.spread_readings_in_a_row))
+    return SpreadGuides(once_sg=limit + (resolution if needed > 1 else 0), in_a_row_sg=limit, in_a_row=needed)
+
+
 def high_spread(data):
     if not data.profile.is_flooded or not data.post_charge:
         return None

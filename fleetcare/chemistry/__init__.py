@@ -1,7 +1,7 @@
 """Lead-acid battery science for FleetCare: plain functions, units in the names, no Django."""
 
 from .electrolysis import electrolysis_hydrogen_l, electrolysis_water_g
-from .measurement import below_median_of_others_sg, beyond_resolution
+from .measurement import below_median_of_others_sg, beyond_resolution, furthest_below_median_of_others_sg
 from .open_circuit import (
     TECHNOLOGIES,
     ocv_per_cell_from_sg,
@@ -18,6 +18,7 @@ __all__ = [
     "VENTILATION_SOURCE",
     "SgStats",
     "below_median_of_others_sg",
+    "furthest_below_median_of_others_sg",
     "beyond_resolution",
     "c_to_f",
     "corrected_sg",

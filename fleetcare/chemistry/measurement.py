@@ -48,3 +48,11 @@ def below_median_of_others_sg(sg_by_position):
         median = other(middle, skipped) if count % 2 else (other(middle - 1, skipped) + other(middle, skipped)) / 2
         below[position] = round(median - sg, 6)
     return below
+
+
+def furthest_below_median_of_others_sg(sg_by_position):
+    """The furthest any cell reads below the median of the other cells (SG), or None for fewer than two cells:
+    the one figure that says how far behind a battery's weakest cell is, as the spread rule judges it.
+    Source: common practice (field notes, "Measuring well"), as `below_median_of_others_sg`."""
+    below = below_median_of_others_sg(sg_by_position)
+    return max(below.values()) if below else None

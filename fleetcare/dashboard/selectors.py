@@ -14,7 +14,7 @@ from functools import reduce
 from types import SimpleNamespace
 from urllib.parse import urlencode
 
-from django.db.models import BooleanField, Count, ExpressionWrapper, F, Max, Min, Q, Sum
+from django.db.models import BooleanField, Count, Exists, ExpressionWrapper, F, Max, Min, OuterRef, Q, Sum
 from django.urls import reverse
 from django.utils import timezone
 
@@ -23,6 +23,7 @@ from fleetcare.care import policy as care_policy
 from fleetcare.care.models import Finding
 from fleetcare.care.models import Policy as CarePolicy
 from fleetcare.care.policy import BY_NAME as CARE_THRESHOLDS
+from fleetcare.care.rules import spread_guides
 from fleetcare.dashboard import battery_selectors as fleet
 from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Battery, Fitting
@@ -40,7 +41,6 @@ def _care_default(name, fallback):
 # Fleet-wide chart guides use the findings policy's built-in defaults (a site's own override still
 # drives its findings; the charts only draw the guide line and count events against it).
 DEEP_DISCHARGE_SOC = _care_default("deep_discharge_soc_percent", Decimal(20))  # field notes: 80 % DoD, common practice
-EQUALIZE_SPREAD_SG = _care_default("equalize_spread_sg", Decimal("0.020"))  # field notes: common practice
 
 SHOWN_STATUSES = (Battery.Status.IN_SERVICE, Battery.Status.CHARGING, Battery.Status.SPARE, Battery.Status.REPAIR)
 FINDINGS_WEEKS = 26
@@ -48,6 +48,7 @@ WATER_MONTHS = 12
 DEEP_DISCHARGE_DAYS = 90
 SPREAD_WEEKS = 26
 WORST_BATTERIES = 5
+SPREAD_CHART_MOST = 10  # batteries with an equalizing finding shown on the spread chart before "and N more"
 OUTLIER_LABELS_PER_MONTH = 3
 WATER_PROFILES = 4
 OUTLIER_MIN_SHARE = 0.25  # FleetCare default, not a published figure: a smaller difference is not worth naming
@@ -65,6 +66,7 @@ def overview(batteries, sites, scope=None, now=None):
     in_scope = [r for r in rows if scope is None or r["site_id"] == scope.pk]
     scoped = batteries if scope is None else batteries.filter(site=scope)
     finding_counts = _open_findings_by_site_and_kind(batteries)
+    care_policies = list(CarePolicy.objects.select_related("site", "profile"))
     return {
         "columns": [{"code": s.code, "name": s.name} for s in sites] + [{"code": "", "name": "All my sites"}],
         "sections": _sections(rows, sites, finding_counts),
@@ -73,8 +75,8 @@ def overview(batteries, sites, scope=None, now=None):
         "soc_chart": _soc_chart(in_scope, sites if scope is None else [scope]),
         "findings_chart": _findings_chart(scoped, now),
         "water_chart": _water_chart(scoped, in_scope, now, scope or site_units.shared_site(sites, "volume_unit")),
-        "deep_discharge_chart": _deep_discharge_chart(scoped, now),
-        "spread_chart": _spread_chart(in_scope, now, {s.pk: s for s in sites}),
+        "deep_discharge_chart": _deep_discharge_chart(scoped, now, care_policies),
+        "spread_chart": _spread_chart(in_scope, now, {s.pk: s for s in sites}, care_policies),
         "chosen_via": reading_selectors.chosen_via_by_site(sites, now),
         "chosen_via_days": reading_selectors.CHOSEN_VIA_DAYS,
         "chosen_via_others": [label for _, label in reading_selectors.OTHER_WAYS],
@@ -83,12 +85,13 @@ def overview(batteries, sites, scope=None, now=None):
 
 def _battery_rows(batteries, now, today, sites):
     """One dict per battery with what the counts need: its latest SOC, whether care is overdue (the planner's
-    rule) and latest spread."""
+    rule), how far its furthest cell reads behind the others after charge and whether equalizing is due."""
     planning = overdue.policies()
     rows = list(
         batteries.annotate(
             latest_soc=fleet.latest_soc(),
-            latest_post_charge_spread=F("state__post_charge_sg_spread"),
+            latest_behind=F("state__post_charge_sg_behind_median"),
+            spread_finding=Exists(Finding.objects.active().filter(battery=OuterRef("pk"), kind=Finding.Kind.HIGH_SPREAD)),
             overdue_equalizing=ExpressionWrapper(overdue.overdue_q(overdue.EQUALIZING, now, sites, planning),
                                                  output_field=BooleanField()),
             overdue_watering=ExpressionWrapper(overdue.overdue_q(overdue.WATERING, now, sites, planning),
@@ -101,10 +104,12 @@ def _battery_rows(batteries, now, today, sites):
             "status",
             "in_service_date",
             "latest_soc",
-            "latest_post_charge_spread",
+            "latest_behind",
+            "spread_finding",
             "overdue_equalizing",
             "overdue_watering",
             "profile__technology",
+            "profile_id",
             "profile__watering_allowed",
             "profile__design_life_years",
             "profile__monoblocks",
@@ -362,10 +367,11 @@ def _water_boxes(members, by_battery, edges, unit_site=None):
     return groups, outliers
 
 
-def deep_discharge_limits():
+def deep_discharge_limits(policies=None):
     """[(condition on an inspection's battery, state-of-charge limit)] from the findings policy, so the
-    chart counts what the deep-discharge finding counts (one query for the policy rows)."""
-    policies = list(CarePolicy.objects.select_related("site", "profile"))
+    chart counts what the deep-discharge finding counts (one query for the policy rows unless given them)."""
+    if policies is None:
+        policies = list(CarePolicy.objects.select_related("site", "profile"))
     return [
         (
             where,
@@ -377,7 +383,7 @@ def deep_discharge_limits():
     ]
 
 
-def deep_discharge_by_truck_and_shift(batteries, since):
+def deep_discharge_by_truck_and_shift(batteries, since, policies=None):
     """{(asset number, shift): events}: readings (any situation) under the deep-discharge limit,
     each counted against the truck and shift the battery was fitted to when it was read (the latest
     fitting that covers it).
@@ -386,7 +392,7 @@ def deep_discharge_by_truck_and_shift(batteries, since):
     the fittings of those batteries; and the single events of only those batteries whose span of
     events is not inside one fitting (a battery moved to another truck meanwhile), matched here.
     Counting in SQL spares fetching every event: about 13,000 rows at 1,000 batteries."""
-    under = reduce(operator.or_, [where & Q(soc_percent__lt=limit) for where, limit in deep_discharge_limits()])
+    under = reduce(operator.or_, [where & Q(soc_percent__lt=limit) for where, limit in deep_discharge_limits(policies)])
     events = (
         Inspection.objects.current()
         .filter(
@@ -435,8 +441,8 @@ def deep_discharge_by_truck_and_shift(batteries, since):
     return dict(counts)
 
 
-def _deep_discharge_chart(batteries, now):
-    counts = deep_discharge_by_truck_and_shift(batteries, now - dt.timedelta(days=DEEP_DISCHARGE_DAYS))
+def _deep_discharge_chart(batteries, now, policies=None):
+    counts = deep_discharge_by_truck_and_shift(batteries, now - dt.timedelta(days=DEEP_DISCHARGE_DAYS), policies)
     if not counts:
         return None
     per_truck = Counter()
@@ -454,40 +460,75 @@ def _deep_discharge_chart(batteries, now):
     )
 
 
-def _spread_chart(rows, now, sites):
-    """Post-charge corrected-SG spread over time for the batteries whose latest spread is widest, each reading
-    at its own site's time (sites: {pk: site})."""
-    worst = sorted(
-        (r for r in rows if r["latest_post_charge_spread"] is not None),
-        key=lambda r: (-r["latest_post_charge_spread"], r["serial"]),
-    )[:WORST_BATTERIES]
-    if not worst:
+def _spread_chart(rows, now, sites, policies):
+    """How far behind the other cells each battery's weakest cell reads after charge: the furthest any cell is
+    below the median of the other cells, the spread rule's own measure (care.rules.spread_is_high), over time,
+    with the rule's lines at each battery's settings. Shown: every flooded battery with an open spread finding
+    (marked "equalizing due"; the furthest behind first, at most SPREAD_CHART_MOST), then the furthest behind of
+    the others up to WORST_BATTERIES (sites: {pk: site}; policies: the findings policy rows)."""
+    judged = [r for r in rows if r["latest_behind"] is not None and r["profile__technology"] == "flooded"]
+    order = sorted(judged, key=lambda r: (-r["latest_behind"], r["serial"]))
+    due = [r for r in order if r["spread_finding"]]
+    others = [r for r in order if not r["spread_finding"]]
+    shown = due[:SPREAD_CHART_MOST] + others[:max(0, WORST_BATTERIES - len(due))]
+    if not shown:
         return None
-    serial = {r["pk"]: r["serial"] for r in worst}
-    site_of = {r["pk"]: sites[r["site_id"]] for r in worst}
+    serial = {r["pk"]: r["serial"] for r in shown}
+    site_of = {r["pk"]: sites[r["site_id"]] for r in shown}
     readings = (
         Inspection.objects.current()
         .post_charge()
         .filter(
             battery_id__in=serial,
             scope=Inspection.Scope.ALL_CELLS,
-            sg_spread__isnull=False,
+            sg_behind_median__isnull=False,
             taken_at__gte=now - dt.timedelta(weeks=SPREAD_WEEKS),
         )
-        .order_by("taken_at")
-        .values_list("battery_id", "taken_at", "sg_spread")
+        .order_by("taken_at", "pk")
+        .values_list("battery_id", "taken_at", "sg_behind_median")
     )
     series = defaultdict(lambda: ([], []))
-    for battery_id, taken_at, spread in readings:
+    for battery_id, taken_at, behind in readings:
         series[battery_id][0].append(site_time.local(taken_at, site_of[battery_id]).replace(tzinfo=None).isoformat())
-        series[battery_id][1].append(round(float(spread) * 1000))
+        series[battery_id][1].append(_sg_points(behind))
+    names = {r["pk"]: f"{r['serial']} (equalizing due)" if r["spread_finding"] else r["serial"] for r in shown}
+    more = len(due) - SPREAD_CHART_MOST
     fig = charts.line(
-        [(serial[pk], *series[pk]) for pk in serial if pk in series],
-        f"Spread after charge: the {len(worst)} widest"
-        f"<br><sup>corrected SG, all-cell readings, last {SPREAD_WEEKS} weeks</sup>",
-        "Spread (points of SG)",
+        [(names[pk], *series[pk]) for pk in serial if pk in series],
+        "Cells behind the others after charge"
+        f"<br><sup>each battery's furthest-behind cell, below the middle reading of its other cells; corrected SG, "
+        f"last {SPREAD_WEEKS} weeks"
+        f"{f'; {more} more batteries with equalizing due are on the findings list' if more > 0 else ''}</sup>",
+        "Behind the other cells (points of SG)",
         x_title="Each battery's site time",
-        height=360,
+        height=380,
     )
-    guide = round(float(EQUALIZE_SPREAD_SG) * 1000)
-    return charts.reference_line(fig, guide, f"{guide} points: the equalizing limit for a cell behind the others")
+    for y, label in _spread_guide_lines(shown, policies):
+        charts.reference_line(fig, y, label)
+    return fig
+
+
+def _sg_points(sg):
+    """An SG difference in points (0.001); half points kept, as a median of two cells can give."""
+    value = round(float(sg) * 1000, 1)
+    return int(value) if value == int(value) else value
+
+
+def _spread_guide_lines(rows, policies):
+    """[(points, label)]: the spread rule's lines at the settings in force for these batteries; where batteries
+    differ, each line names its batteries."""
+    by_guides = defaultdict(list)
+    for r in rows:
+        by_guides[spread_guides(care_policy.resolve_for(r["site_id"], r["profile_id"], policies))].append(r["serial"])
+    lines = []
+    for guides, serials in by_guides.items():
+        whose = f" ({', '.join(serials)})" if len(by_guides) > 1 else ""
+        once = _sg_points(guides.once_sg)
+        if guides.in_a_row > 1:
+            lines.append((once, f"over {once} points once: equalizing due{whose}"))
+            lines.append((_sg_points(guides.in_a_row_sg),
+                          f"over {_sg_points(guides.in_a_row_sg)} points on {guides.in_a_row} charges in a row, "
+                          f"same cell: equalizing due{whose}"))
+        else:
+            lines.append((once, f"over {once} points: equalizing due{whose}"))
+    return lines

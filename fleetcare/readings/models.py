@@ -85,6 +85,10 @@ class Inspection(models.Model):
     sg_min = models.DecimalField(max_digits=5, decimal_places=3, null=True, blank=True)
     sg_max = models.DecimalField(max_digits=5, decimal_places=3, null=True, blank=True)
     sg_spread = models.DecimalField(max_digits=5, decimal_places=3, null=True, blank=True)
+    sg_behind_median = models.DecimalField(
+        max_digits=5, decimal_places=4, null=True, blank=True,
+        help_text="All-cell readings: the furthest any cell reads below the median of the other cells (the spread "
+                  "rule's measure).")
     lowest_position = models.PositiveSmallIntegerField(null=True, blank=True)
     volts_total = models.DecimalField(max_digits=6, decimal_places=2, null=True, blank=True)
     soc_percent = models.DecimalField("state of charge (%)", max_digits=5, decimal_places=1, null=True, blank=True)
@@ -236,6 +240,9 @@ class BatteryState(models.Model):
         help_text="The latest current all-cell inspection after charge with a spread.")
     post_charge_spread_at = models.DateTimeField(null=True)
     post_charge_sg_spread = models.DecimalField(max_digits=5, decimal_places=3, null=True)
+    post_charge_sg_behind_median = models.DecimalField(
+        max_digits=5, decimal_places=4, null=True,
+        help_text="That inspection's furthest cell below the median of the other cells.")
     equalized_inspection = models.ForeignKey(Inspection, on_delete=models.SET_NULL, null=True, related_name="+",
                                              help_text="The latest current reading taken just after equalizing.")
     equalized_at = models.DateTimeField(null=True)

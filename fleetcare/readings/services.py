@@ -11,6 +11,7 @@ from fleetcare.readings import signals, state
 from fleetcare.readings.models import CellReading, Inspection, WaterTopUp
 
 SG_PLACES = Decimal("0.001")
+BEHIND_PLACES = Decimal("0.0001")
 SOC_PLACES = Decimal("0.1")
 
 
@@ -58,6 +59,7 @@ def summarise(inspection, cells):
     profile = inspection.battery.profile
     corrected = [c.sg_corrected for c in cells if c.sg_corrected is not None]
     inspection.sg_mean = inspection.sg_min = inspection.sg_max = inspection.sg_spread = None
+    inspection.sg_behind_median = None
     inspection.lowest_position = inspection.volts_total = inspection.soc_percent = None
     inspection.soc_basis = ""
     if corrected:
@@ -68,6 +70,10 @@ def summarise(inspection, cells):
         inspection.sg_max = _q(stats.highest, SG_PLACES)
         inspection.sg_spread = _q(stats.spread, SG_PLACES)
         inspection.lowest_position = positions[stats.lowest_index]
+        if inspection.scope == Inspection.Scope.ALL_CELLS:
+            behind = chemistry.furthest_below_median_of_others_sg(
+                {c.position: float(c.sg_corrected) for c in cells if c.sg_corrected is not None})
+            inspection.sg_behind_median = _q(behind, BEHIND_PLACES)  # a median of two cells ends in 0.0005
         if profile.full_charge_sg is not None and profile.discharged_sg is not None:
             inspection.soc_percent = _q(
                 chemistry.soc_from_sg(stats.mean, float(profile.full_charge_sg), float(profile.discharged_sg)), SOC_PLACES

@@ -43,7 +43,7 @@ KINDS = (
            lambda i: i.scope == ALL_CELLS and i.sg_spread is not None, (("sg_spread", "sg_spread"),)),
     Latest("post_charge_spread", Q(situation__in=POST_CHARGE, scope=ALL_CELLS, sg_spread__isnull=False),
            lambda i: i.situation in POST_CHARGE and i.scope == ALL_CELLS and i.sg_spread is not None,
-           (("sg_spread", "post_charge_sg_spread"),)),
+           (("sg_spread", "post_charge_sg_spread"), ("sg_behind_median", "post_charge_sg_behind_median"))),
     Latest("equalized", Q(situation=Inspection.Situation.JUST_EQUALIZED),
            lambda i: i.situation == Inspection.Situation.JUST_EQUALIZED),
     Latest("post_charge", Q(situation__in=POST_CHARGE), lambda i: i.situation in POST_CHARGE),

@@ -29,6 +29,9 @@ EXPECTED = {
     "weak_block": ("weak_block",),
 }
 CELL_OR_SPREAD = ("weak_cell", "high_spread")
+# Not in build(): a cell lagging 15-30 points, around the spread rule's lines, for tests that need batteries
+# on both sides of them (tray(cells, "lagging_cell")).
+LAGGING_CELL = "lagging_cell"
 
 
 @dataclass
@@ -87,6 +90,10 @@ class FleetGenerator:
         if fault == "weak_cell":
             position = rng.randrange(cells)
             offsets[position] -= rng.uniform(0.045, 0.070)
+            notes["position"] = position + 1
+        elif fault == LAGGING_CELL:
+            position = rng.randrange(cells)
+            offsets[position] -= rng.uniform(0.015, 0.030)
             notes["position"] = position + 1
         for days_ago in (15, 8, 1):
             taken = self.now - days_ago * DAY

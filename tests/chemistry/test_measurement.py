@@ -2,6 +2,7 @@
 0.005 and good to about ±0.005, common practice)."""
 import pytest
 
+from fleetcare import chemistry
 from fleetcare.chemistry import below_median_of_others_sg, beyond_resolution
 
 
@@ -39,3 +40,11 @@ def test_one_odd_cell_does_not_move_the_others_median():
 def test_blank_cells_are_left_out_and_one_cell_has_no_others():
     assert below_median_of_others_sg({1: 1.28, 2: None}) == {}
     assert below_median_of_others_sg({1: 1.28, 2: None, 3: 1.27}) == {1: pytest.approx(-0.01), 3: pytest.approx(0.01)}
+
+
+def test_the_furthest_behind_is_the_lowest_cells_distance_from_the_middle_of_the_others():
+    # Worked by hand: others of cell 3 are 1.280, 1.285, 1.290, 1.270 -> median (1.280 + 1.285) / 2 = 1.2825.
+    sgs = {1: 1.280, 2: 1.285, 3: 1.250, 4: 1.290, 5: 1.270}
+    assert chemistry.furthest_below_median_of_others_sg(sgs) == pytest.approx(0.0325)
+    assert chemistry.furthest_below_median_of_others_sg({1: 1.280, 2: 1.280}) == 0
+    assert chemistry.furthest_below_median_of_others_sg({1: 1.280}) is None
