@@ -247,7 +247,9 @@ def battery_record(battery, *, page=None, months=CHART_MONTHS, now=None):
     charted = list(in_span.only("pk", "taken_at", "situation", "scope", "soc_percent", "sg_mean", "lowest_position")
                    .order_by("-taken_at", "-pk"))
     top_ups = WaterTopUp.objects.current().filter(battery=battery)
-    watered = list((top_ups if since is None else top_ups.filter(done_at__gte=since)).only("done_at", "volume_ml"))
+    # Water is charted by month: from the start of the span's first month, so that month is not cut short.
+    month_start = since and site_time.local(since, battery).replace(day=1, hour=0, minute=0, second=0, microsecond=0)
+    watered = list((top_ups if since is None else top_ups.filter(done_at__gte=month_start)).only("done_at", "volume_ml"))
     table = Paginator(current.select_related("taken_by").order_by("-taken_at", "-pk"), RECORD_PAGE_SIZE).get_page(page)
     kept = BatteryState.objects.filter(battery=battery).select_related("latest_inspection").first()
     return {

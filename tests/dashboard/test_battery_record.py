@@ -82,3 +82,13 @@ def test_the_record_takes_the_same_queries_however_long_the_history(crew_client,
         read(battery, crew, now - dt.timedelta(days=days), "charged")
         water(battery, crew, now - dt.timedelta(days=days), 1200)
     assert count() == few
+
+
+def test_the_water_chart_starts_at_the_first_of_the_spans_first_month(battery, crew):
+    from fleetcare.dashboard.battery_selectors import battery_record
+
+    now = dt.datetime(2026, 11, 20, 12, 0, tzinfo=dt.UTC)  # a 12-month span starts about 20 Nov 2025
+    water(battery, crew, dt.datetime(2025, 11, 5, 9, 0, tzinfo=dt.UTC), 2400)  # same month: counted in full
+    water(battery, crew, dt.datetime(2025, 10, 25, 9, 0, tzinfo=dt.UTC), 2400)  # month before: left out
+    chart = battery_record(battery, months=12, now=now)["water_chart"]
+    assert chart["data"][0]["x"] == ["2025-11"] and chart["data"][0]["y"] == [100]
