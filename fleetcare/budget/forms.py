@@ -61,6 +61,8 @@ class CapacityTestForm(forms.Form):
                 volts = {n: Decimal(w) for n, w in enumerate(words, start=1)}
         except (ValueError, ArithmeticError):
             raise forms.ValidationError("Write the voltages as numbers, in cell order or as cell=volts.") from None
+        if not all(v.is_finite() for v in volts.values()):  # NaN or Infinity: Decimal takes them, they are no voltage
+            raise forms.ValidationError("Write the voltages as numbers, in cell order or as cell=volts.")
         if any(not 1 <= p <= positions for p in volts):
             raise forms.ValidationError(f"{battery.serial} has {positions} cells.")
         if any(not Decimal("0") <= v <= Decimal("3") for v in volts.values()):

@@ -227,6 +227,8 @@ def test_bad_capacity_test_input_stores_nothing_and_says_why(client, supervisor,
         ({"rate": "current", "hours_to_end": "4"}, "Give the current the test ran at."),
         ({"hours_to_end": "4", "start_temp": "95"}, "between −30 and 70 °C"),
         ({"hours_to_end": "4", "cell_volts": "1.7 x"}, "as numbers"),
+        ({"hours_to_end": "4", "cell_volts": "1.7 NaN"}, "as numbers"),
+        ({"hours_to_end": "4", "cell_volts": "2=Infinity"}, "as numbers"),
         ({"hours_to_end": "4", "cell_volts": "30=1.70"}, "has 24 cells"),
         ({"hours_to_end": "40"}, "cannot be right"),
     ):
