@@ -769,7 +769,7 @@ def ageing(data):
     if past_life:
         parts.append(f"in service {years:.1f} years (design life {profile.design_life_years} years)")
     if past_cycles:
-        parts.append(f"about {count.whole} cycles (design {profile.design_cycles})")
+        parts.append(f"about {count.whole:,} charges (design {profile.design_cycles:,} cycles)")
     design = {"name": "design_life", "label": "design life and cycles of the battery profile",
               "value": f"{profile.design_life_years} years / {profile.design_cycles} cycles", "unit": "",
               "source": f"battery profile {profile.name} (maker's figures)"}

@@ -32,7 +32,7 @@ def test_just_inside_the_design_life_is_quiet(battery, site, watered, now):
 def test_cycles_are_estimated_from_the_sites_charges_per_day(battery, watered, now):
     in_service_days_ago(battery, 1501, now)  # one charge a day: 1501 cycles against 1500
     finding = one(detect(battery, now), "ageing")
-    assert "about 1501 cycles (design 1500)" in finding.summary
+    assert "about 1,501 charges (design 1,500 cycles)" in finding.summary
     in_service_days_ago(battery, 1499, now)
     assert "ageing" not in kinds(detect(battery, now))
 
