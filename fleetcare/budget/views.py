@@ -4,7 +4,6 @@ from django.shortcuts import redirect, render
 from django.views.decorators.http import require_http_methods
 
 from fleetcare.accounts.access import role_required
-from fleetcare.replica import reads_from_replica
 from fleetcare.accounts.roles import MANAGER, SUPERVISOR
 from fleetcare.budget import exports, selectors, services
 from fleetcare.budget.forecast import Bucket
@@ -13,6 +12,7 @@ from fleetcare.budget.models import BudgetAssumptions, CapacityTest
 from fleetcare.care import policy as care_policy
 from fleetcare.fleet.access import visible_batteries, visible_sites
 from fleetcare.fleet.models import BatteryProfile
+from fleetcare.replica import reads_from_replica
 from fleetcare.spreadsheets import attach
 
 MAX_YEARS = 10

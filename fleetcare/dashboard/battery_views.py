@@ -5,12 +5,12 @@ from django.shortcuts import render
 from django.utils import timezone
 
 from fleetcare.accounts.access import role_required
-from fleetcare.replica import reads_from_replica
 from fleetcare.accounts.roles import CREW
 from fleetcare.dashboard import battery_selectors as selectors
 from fleetcare.fleet.access import battery_or_404, visible_batteries, visible_sites
 from fleetcare.fleet.models import Battery, BatteryProfile
 from fleetcare.fleet.site_time import site_clock
+from fleetcare.replica import reads_from_replica
 
 COLUMNS = (
     ("Serial", "serial"),

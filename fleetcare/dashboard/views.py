@@ -7,7 +7,6 @@ from django.urls import reverse
 from django.views.decorators.http import require_POST
 
 from fleetcare.accounts.access import role_required
-from fleetcare.replica import reads_from_replica
 from fleetcare.accounts.roles import ADMINISTRATOR, CREW, SUPERVISOR, has_role
 from fleetcare.dashboard import selectors, settings_page
 from fleetcare.dashboard.landing import landing, sees_overview
@@ -15,6 +14,7 @@ from fleetcare.dashboard.forms import ChangeSettingForm
 from fleetcare.fleet.access import site_or_404, visible_batteries, visible_sites
 from fleetcare.fleet.models import BatteryProfile
 from fleetcare.fleet.site_time import site_clock
+from fleetcare.replica import reads_from_replica
 
 
 @role_required(CREW)

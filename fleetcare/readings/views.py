@@ -8,7 +8,6 @@ from django.urls import reverse
 from django.views.decorators.http import require_http_methods
 
 from fleetcare.accounts.access import role_required
-from fleetcare.replica import reads_from_replica
 from fleetcare.accounts.forms import ReasonForm
 from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
 from fleetcare.fleet import site_time, site_units
@@ -21,6 +20,7 @@ from fleetcare.readings.forms import InspectionForm, TopUpForm
 from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import record_inspection, record_top_up
 from fleetcare.readings.tasks import queue_csv_import, read_progress
+from fleetcare.replica import reads_from_replica
 from fleetcare.spreadsheets import attach
 
 
