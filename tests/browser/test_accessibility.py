@@ -6,6 +6,7 @@ AA rules and axe's best practices).
 """
 import datetime as dt
 import json
+import re
 from decimal import Decimal
 from pathlib import Path
 
@@ -13,6 +14,11 @@ import pytest
 from django.urls import reverse
 from django.utils import timezone
 
+from fleetcare.budget.services import record_capacity_test
+from fleetcare.care.detection import detect_for_batteries
+from fleetcare.care.models import Finding
+from fleetcare.fleet.models import Battery
+from fleetcare.planner import services as equalizing
 from fleetcare.readings.services import CellEntry, record_inspection, record_top_up
 from tests.browser.pages import screenshot, sign_in
 
@@ -40,7 +46,14 @@ def history(battery, sealed_battery, supervisor):
             cells=[CellEntry(position=1, volts=Decimal("12.80")), CellEntry(position=2, volts=Decimal("12.55"))],
             hours_since_charge=Decimal("12"),
         )
+    detect_for_batteries(Battery.objects.filter(pk__in=[battery.pk, sealed_battery.pk]), now=now)
+    record_capacity_test(battery=battery, user=supervisor, tested_on=(now - dt.timedelta(days=3)).date(),
+                         start_temp_c=Decimal("25"), end_volts_per_cell=Decimal("1.70"), hours_to_end=Decimal("4.5"))
     return battery
+
+
+def a_finding(battery):
+    return Finding.objects.active().filter(battery=battery).order_by("pk").first()
 
 
 def violations(page):
@@ -65,14 +78,18 @@ def check_pages(page, role, urls):
     for url in urls:
         page.goto(url)
         page.wait_for_load_state("load")
-        found = violations(page)
-        if found:
-            problems[url] = found
-            screenshot(page, f"axe-{role}-{url}")
+        check_here(page, role, url, problems)
     assert problems == {}, json.dumps(problems, indent=1)
 
 
-def test_the_crews_pages_pass_axe(tablet, crew, history, site):
+def check_here(page, role, name, problems):
+    found = violations(page)
+    if found:
+        problems[name] = found
+        screenshot(page, f"axe-{role}-{name}")
+
+
+def test_the_crews_pages_pass_axe(tablet, crew, history, site, tmp_path):
     sign_in(tablet, "crew1")
     check_pages(tablet, "crew", [
         reverse("dashboard:home"),
@@ -82,7 +99,33 @@ def test_the_crews_pages_pass_axe(tablet, crew, history, site):
         reverse("readings:inspect", args=[history.pk]),
         reverse("labels:scan"),
         reverse("readings:import"),
+        reverse("care:findings"),
+        reverse("care:finding", args=[a_finding(history).pk]),
+        reverse("readings:top_up", args=[history.pk]),
+        reverse("planner:equalizing", args=[history.pk]),
     ])
+    problems = {}
+    upload = tmp_path / "readings.csv"
+    upload.write_text("serial,taken_at,situation,cell,sg,temp,volts,level\n"
+                      + "".join(f"TW-001,2026-10-01T08:00,charged,{n},1.280,25,,ok\n" for n in range(1, 25))
+                      + "TW-001,2026-10-02T08:00,charged,1,abc,25,,ok\nNO-SUCH,2026-10-02T08:00,charged,1,1.280,25,,ok\n")
+    tablet.goto(reverse("readings:import"))
+    tablet.set_input_files("#file", str(upload))
+    tablet.get_by_role("button", name="Import").click()
+    tablet.wait_for_url(re.compile(r"/readings/import/[0-9a-f-]+/$"))
+    tablet.wait_for_load_state("load")
+    assert "Nothing was imported: 2 problems" in tablet.inner_text("main")
+    check_here(tablet, "crew", "import result", problems)
+    now = timezone.now()
+    charge, _ = equalizing.start_charge(battery=history, user=crew, started_at=now - dt.timedelta(hours=3))
+    for hours, sg in ((2, "1.270"), (1, "1.280")):
+        equalizing.add_reading(charge=charge, taken_at=now - dt.timedelta(hours=hours), sg=Decimal(sg),
+                               temp_c=Decimal("30"))
+    tablet.goto(reverse("planner:equalizing", args=[history.pk]))
+    tablet.wait_for_load_state("load")
+    assert tablet.locator("#equalizing-readings tbody tr").count() == 2
+    check_here(tablet, "crew", "equalizing running", problems)
+    assert problems == {}, json.dumps(problems, indent=1)
 
 
 def test_the_supervisors_pages_pass_axe(tablet, supervisor, history, site):
@@ -93,7 +136,17 @@ def test_the_supervisors_pages_pass_axe(tablet, supervisor, history, site):
         reverse("planner:plan", args=[site.code]),
         reverse("dashboard:settings"),
         reverse("dashboard:settings_site", args=[site.code]),
+        reverse("care:findings"),
+        reverse("care:finding", args=[a_finding(history).pk]),
+        reverse("labels:print"),
+        reverse("budget:capacity_tests"),
     ])
+    tablet.get_by_role("button", name="Save test").click()  # nothing filled in: the server's messages
+    tablet.wait_for_load_state("load")
+    assert tablet.locator(".invalid-feedback, .errorlist, .alert-danger").count() > 0
+    problems = {}
+    check_here(tablet, "supervisor", "capacity form with messages", problems)
+    assert problems == {}, json.dumps(problems, indent=1)
 
 
 def test_the_managers_pages_pass_axe(tablet, manager, history):
@@ -102,3 +155,6 @@ def test_the_managers_pages_pass_axe(tablet, manager, history):
         reverse("dashboard:home"),
         reverse("budget:home"),
     ])
+    # The check sees a fault when there is one: an image with no text for a screen reader is a critical one.
+    tablet.evaluate("() => document.querySelector('main').append(document.createElement('img'))")
+    assert any(v.startswith("image-alt (critical)") for v in violations(tablet))
