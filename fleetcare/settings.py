@@ -94,6 +94,7 @@ TEMPLATES = [
                 "django.contrib.messages.context_processors.messages",
                 "fleetcare.replica.freshness",
             ],
+            "builtins": ["fleetcare.fleet.templatetags.words"],  # the one date style: |day, |moment, ...
         },
     },
 ]

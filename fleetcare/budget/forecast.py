@@ -42,6 +42,7 @@ from dataclasses import dataclass, field
 from datetime import date, timedelta
 from decimal import ROUND_HALF_UP, Decimal
 
+from fleetcare import words
 from fleetcare.care import cycles, wording
 
 CENT = Decimal("0.01")
@@ -352,17 +353,17 @@ def capacity_evidence(facts, today, rules):
     last_day, last_value = tests[-1]
     last_value = float(last_value)
     if last_value < floor:
-        detail = f"{last_value:g} % of rating (corrected) on {last_day:%Y-%m-%d}, under the {floor:g} % floor"
+        detail = f"{last_value:g} % of rating (corrected) on {words.day(last_day)}, under the {floor:g} % floor"
         return Evidence(CAPACITY, detail, last_day, last_day, last_day + timedelta(days=rules.act_within_days))
     trend = fit_trend(tests)
     if trend is None or trend.slope >= 0:
-        detail = f"{last_value:g} % of rating (corrected) on {last_day:%Y-%m-%d}; " + (
+        detail = f"{last_value:g} % of rating (corrected) on {words.day(last_day)}; " + (
             "one test, no trend yet" if len(tests) == 1 else "not falling"
         )
         return Evidence(CAPACITY, detail)
     dates = _trend_range(trend, last_day, floor, today, rules, significant_only=False)
     per_year = -trend.slope * DAYS_PER_YEAR
-    detail = (f"{len(tests)} corrected tests, latest {last_value:g} % on {last_day:%Y-%m-%d}, "
+    detail = (f"{len(tests)} corrected tests, latest {last_value:g} % on {words.day(last_day)}, "
               f"falling {per_year:.1f} points a year toward {floor:g} %")
     if dates is None:
         return Evidence(CAPACITY, detail)
@@ -395,7 +396,7 @@ def sg_mean_evidence(facts, today, rules):
     dates = _trend_range(fit_trend(points), points[-1][0], level, today, rules, significant_only=True)
     if dates is None:
         return Evidence(SG_MEAN, detail + "; no clear fall")
-    return Evidence(SG_MEAN, detail + f"; falling, at the limit about {dates[1]:%d %b %Y}: equalize and test then, "
+    return Evidence(SG_MEAN, detail + f"; falling, at the limit about {words.day(dates[1])}: equalize and test then, "
                                       "not a replacement by itself")
 
 

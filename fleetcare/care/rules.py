@@ -6,7 +6,7 @@ used) or None. Loading the data and storing findings is fleetcare.care.detection
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 
-from fleetcare import chemistry
+from fleetcare import chemistry, words
 from fleetcare.care import cycles, wording
 from fleetcare.fleet import site_units
 from fleetcare.planner import due
@@ -386,8 +386,8 @@ def sulfation(data):
     run = _partial_charge_run(data)
     if len(run) >= 2 and run[-1].taken_at - run[0].taken_at > timedelta(days=int(policy.partial_charge_days)):
         days = (run[-1].taken_at - run[0].taken_at).days
-        signs.append(f"below {policy.partial_charge_soc_percent:.0f} % state of charge for {days} days "
-                     f"({len(run)} readings)")
+        signs.append(f"below {policy.partial_charge_soc_percent:.0f} % state of charge for {words.count(days, 'day')} "
+                     f"({words.count(len(run), 'reading')})")
         readings += [dict(_inspection_ref(i), soc_percent=_f(i.soc_percent, 1)) for i in (run[0], run[-1])]
         thresholds += [policy.evidence("partial_charge_soc_percent"), policy.evidence("partial_charge_days")]
         latest_inspection = latest_inspection or run[-1]
@@ -396,7 +396,7 @@ def sulfation(data):
         since = last_charge or _start_of(data.battery, data.now)
         idle = data.now - since
         if idle > timedelta(days=int(policy.storage_charge_days)):
-            signs.append(f"spare battery with no charge logged for {idle.days} days")
+            signs.append(f"spare battery with no charge logged for {words.count(idle.days, 'day')}")
             readings.append({"last_charge_at": _when(last_charge), "in_service_date": str(data.battery.in_service_date),
                              "days_without_charge": idle.days})
             thresholds.append(policy.evidence("storage_charge_days"))
@@ -464,7 +464,7 @@ def deep_discharge(data):
     window = int(data.policy.event_window_days)
     return Detected(
         kind="deep_discharge", severity=2,
-        summary=(f"{len(events)} deep discharge{'s' if len(events) != 1 else ''} in {window} days, lowest "
+        summary=(f"{words.count(len(events), 'deep discharge')} in {words.count(window, 'day')}, lowest "
                  f"{lowest.soc_percent:.0f} % state of charge ({trucks})"),
         rule=("Any reading (in use, before charge or at rest) under the deep-discharge state of charge "
               "(80 % depth of discharge)."),
@@ -582,14 +582,15 @@ def watering_overdue(data):
     if not late:
         return None
     days = (today - (last or data.battery.in_service_date)).days
-    what = (f"last top-up {data.last_top_up_at:%d %b %Y}" if data.last_top_up_at
-            else f"no top-up logged since it went into service on {data.battery.in_service_date:%d %b %Y}")
+    what = (f"last top-up {words.day(data.last_top_up_at)}" if data.last_top_up_at
+            else f"no top-up logged since it went into service on {words.day(data.battery.in_service_date)}")
     thresholds = [data.planning.evidence("water_every_days")]
     if int(data.planning.water_every_charges):
         thresholds.append(data.planning.evidence("water_every_charges"))
     return Detected(
         kind="watering_overdue", severity=2,
-        summary=f"Watering overdue: {what}, {days} days ago (interval {schedule.water_every_days} days)",
+        summary=(f"Watering overdue: {what}, {words.count(days, 'day')} ago "
+                 f"(interval {words.count(schedule.water_every_days, 'day')})"),
         rule="A flooded battery with no top-up logged for longer than its watering interval in the planning policy.",
         readings=[{"last_top_up_at": _when(data.last_top_up_at), "days_since": days, "days_overdue": late}],
         thresholds=thresholds,

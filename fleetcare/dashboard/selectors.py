@@ -18,7 +18,7 @@ from django.db.models import BooleanField, Count, Exists, ExpressionWrapper, F, 
 from django.urls import reverse
 from django.utils import timezone
 
-from fleetcare import charts, policy_layers
+from fleetcare import charts, policy_layers, words
 from fleetcare.care import policy as care_policy
 from fleetcare.care.models import Finding
 from fleetcare.care.models import Policy as CarePolicy
@@ -454,7 +454,7 @@ def _deep_discharge_chart(batteries, now, policies=None):
         trucks,
         [(shift, [counts.get((t, shift), 0) for t in trucks], None) for shift in shifts],
         f"Deep discharge by truck and shift<br><sup>in use or before charge, under {DEEP_DISCHARGE_SOC:.0f} % "
-        f"(or the site's limit), last {DEEP_DISCHARGE_DAYS} days</sup>",
+        f"(or the site's limit), last {words.count(DEEP_DISCHARGE_DAYS, 'day')}</sup>",
         "Readings",
         barmode="group",
     )

@@ -18,6 +18,8 @@ import math
 from dataclasses import dataclass
 from datetime import date, timedelta
 
+from fleetcare import words
+
 EQUALIZE, WATER, ALL_CELLS, PILOT = "equalize", "water", "all_cells", "pilot"
 CARED_FOR_STATUSES = ("in_service", "charging", "spare")  # the batteries the plan looks after
 CHARGE_WINDOW_DAYS = 28
@@ -94,10 +96,10 @@ def equalize_interval_days(every_days, every_charges, charges_per_day):
 
 def _since(last, in_service, every_days, what):
     if last is not None:
-        return Trigger(last + timedelta(days=every_days), f"{what} every {every_days} days, last on {last}")
+        return Trigger(last + timedelta(days=every_days), f"{what} every {words.count(every_days, 'day')}, last on {last}")
     if in_service is not None:
         return Trigger(in_service + timedelta(days=every_days),
-                       f"{what} every {every_days} days, none on record since it went into service on {in_service}")
+                       f"{what} every {words.count(every_days, 'day')}, none on record since it went into service on {in_service}")
     return None
 
 
@@ -110,7 +112,7 @@ def equalize_triggers(today, last_equalized, in_service, every_days, every_charg
     if every_charges:
         left = every_charges - charges_since
         found.append(Trigger(today + timedelta(days=math.ceil(left / charges_per_day)),
-                             f"equalizing every {every_charges} charges, {charges_since} since the last"))
+                             f"equalizing every {words.count(every_charges, 'charge')}, {charges_since} since the last"))
     return found
 
 
@@ -149,18 +151,18 @@ def reading_triggers(today, is_flooded, last_all_cells, last_reading, equalized_
     every_all = int(all_cells_every_days) or None
     if equalized_since_all_cells is not None:
         return [(ALL_CELLS, Trigger(equalized_since_all_cells.date(),
-                                    f"after the equalizing charge that ended {equalized_since_all_cells:%-d %b %H:%M}: "
+                                    f"after the equalizing charge that ended {words.weekday_time(equalized_since_all_cells)}: "
                                     "choose “Just equalized”"))]
     if last_all_cells is None:
         return [(ALL_CELLS, Trigger(today, "no all-cell reading on record"))]
     if every_all and last_all_cells + timedelta(days=every_all) <= today:
         return [(ALL_CELLS, Trigger(last_all_cells + timedelta(days=every_all),
-                                    f"every {every_all} days, last on {last_all_cells:%d %b}"))]
+                                    f"every {words.count(every_all, 'day')}, last on {words.day(last_all_cells)}"))]
     every_pilot = int(pilot_every_days) or None
     if is_flooded and every_pilot:
         if last_reading is None:
             return [(PILOT, Trigger(today, "no reading on record"))]
         if last_reading + timedelta(days=every_pilot) <= today:
             return [(PILOT, Trigger(last_reading + timedelta(days=every_pilot),
-                                    f"every {every_pilot} days, last reading on {last_reading:%d %b}"))]
+                                    f"every {words.count(every_pilot, 'day')}, last reading on {words.day(last_reading)}"))]
     return []

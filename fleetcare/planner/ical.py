@@ -1,6 +1,7 @@
 """The site's plan as an iCalendar file (RFC 5545): UTC times, escaped text, lines folded at 75 octets, CRLF."""
 import datetime as dt
 
+from fleetcare import words
 from fleetcare.fleet import site_time
 
 PRODID = "-//FleetCare//Equalizing and watering plan//EN"
@@ -35,7 +36,12 @@ def utc(value):
 def _site_clock_note(start, end, site):
     """The times as the site's clocks show them, for a reader whose calendar is set to another zone."""
     start, end = site_time.local(start, site), site_time.local(end, site)
-    return f"Site time {start:%a %d %b %H:%M}–{end:%H:%M} {end:%Z} ({site_time.zone_of(site).key}). "
+    return f"Site time {words.weekday_time(start)}–{end:%H:%M} {end:%Z} ({site_time.zone_of(site).key}). "
+
+
+def _why(reason):
+    """The planner's reason as whole sentences, its dates in words: 'Equalizing every 7 days, last on 21 Mar 2026.'"""
+    return words.sentence(words.iso_dates_in_words(reason))
 
 
 def calendar(site, plan, serials, built_at, host="fleetcare"):
@@ -49,7 +55,7 @@ def calendar(site, plan, serials, built_at, host="fleetcare"):
         serial = serials.get(task.battery_id, task.serial)
         summary = f"{TITLES.get(task.kind, task.kind)}: {serial}"
         if task.days_overdue:
-            summary += f" ({task.days_overdue} days overdue)"
+            summary += f" ({words.count(task.days_overdue, 'day')} overdue)"
         lines += [
             "BEGIN:VEVENT",
             f"UID:{task.kind}-{task.battery_id}-{task.day:%Y%m%d}@{site.code}.{host}",
@@ -57,7 +63,7 @@ def calendar(site, plan, serials, built_at, host="fleetcare"):
             f"DTSTART:{utc(start)}",
             f"DTEND:{utc(end)}",
             f"SUMMARY:{escape(summary)}",
-            f"DESCRIPTION:{escape(_site_clock_note(start, end, site) + task.reason)}",
+            f"DESCRIPTION:{escape(_site_clock_note(start, end, site) + _why(task.reason))}",
             "TRANSP:TRANSPARENT",
             "END:VEVENT",
         ]

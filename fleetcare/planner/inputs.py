@@ -248,14 +248,6 @@ def schedule_of(facts, site, logged_times, now):
                         facts.last_equalized, site_today(site, now), site.charges_per_day)
 
 
-def short_note(summary, limit=100):
-    """The finding's summary, cut at a word boundary."""
-    text = " ".join((summary or "").split())
-    if len(text) <= limit:
-        return text
-    return text[:limit].rsplit(" ", 1)[0].rstrip(",;:") + " …"
-
-
 def acted_on(finding, facts):
     """A finding already answered by an equalizing charge (or a top-up) after it was last seen: the next
     reading decides whether it stays, so it does not ask for the same work again meanwhile."""
@@ -294,7 +286,7 @@ def _battery_care(facts, site, findings, logged_times, now):
         last_watered=facts.last_watered,
         watering_minutes=float(settings.watering_minutes),
         findings=tuple(
-            solver.FindingInput(kind=f.kind, severity=int(f.severity), note=short_note(f.summary))
+            solver.FindingInput(kind=f.kind, severity=int(f.severity), note=" ".join((f.summary or "").split()))
             for f in findings if f.kind in kinds and not acted_on(f, facts)
         ),
         in_service=battery.in_service_date,

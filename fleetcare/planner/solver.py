@@ -93,6 +93,7 @@ from scipy.optimize import Bounds, LinearConstraint, milp
 from scipy.sparse import coo_matrix
 
 from fleetcare.planner import due
+from fleetcare.words import count
 
 __all__ = [
     "EQUALIZE",
@@ -539,7 +540,7 @@ def _follow_up(grid: _Grid, need: _Need, day: int) -> _Need | None:
     if interval is None or day + interval >= grid.days:
         return None
     return _Need(
-        need.battery, need.kind, day + interval, 0, f"every {interval} days after the one planned for {grid.day(day)}"
+        need.battery, need.kind, day + interval, 0, f"every {count(interval, 'day')} after the one planned for {grid.day(day)}"
     )
 
 
@@ -956,7 +957,7 @@ def _equalize_task(grid: _Grid, need: _Need, slot: int, load: _Load) -> PlannedT
     overdue = max(0, day - need.due)
     reason = need.why
     if day > need.release:
-        reason += f"; {overdue} day{'s' if overdue != 1 else ''} late: "
+        reason += f"; {count(overdue, 'day')} late: "
         reason += _blocked_summary(grid, need, load, day)
     return PlannedTask(
         battery_id=battery.battery_id,
@@ -1026,7 +1027,7 @@ def _water_task(grid: _Grid, need: _Need, day: int, equalizing_placed: list) -> 
     reason = need.why
     if day > need.release:
         reason += (
-            f"; {overdue} day{'s' if overdue != 1 else ''} late: crew capacity of "
+            f"; {count(overdue, 'day')} late: crew capacity of "
             f"{grid.inputs.waterings_per_day} waterings a day used on earlier days"
         )
     return PlannedTask(

@@ -24,7 +24,7 @@ from django.db import connection, models, transaction
 from django.utils import timezone
 from django.utils.dateparse import parse_datetime
 
-from fleetcare import chemistry
+from fleetcare import chemistry, words
 from fleetcare.fleet import site_time, site_units
 from fleetcare.fleet.models import Site
 from fleetcare.readings import signals, state, validation
@@ -149,7 +149,7 @@ class CheckedReading:
 
     def describe(self):
         local = site_time.local(self.taken_at, self.battery)
-        return f"{self.battery.serial} at {local:%Y-%m-%d %H:%M} ({Inspection.Situation(self.situation).label.lower()})"
+        return f"{self.battery.serial} at {words.moment(local)} ({Inspection.Situation(self.situation).label.lower()})"
 
 
 @dataclass
@@ -236,7 +236,7 @@ def read_rows(source, report):
         index[name.strip().lower().lstrip("\ufeff")] = i
     missing = [c for c in REQUIRED_COLUMNS if c not in index]
     if missing:
-        raise FileProblem(1, f"missing column(s): {', '.join(missing)}. Expected: {', '.join(COLUMNS)}.")
+        raise FileProblem(1, f"missing {'column' if len(missing) == 1 else 'columns'}: {', '.join(missing)}. Expected: {', '.join(COLUMNS)}.")
     temp_header = next((name for name in TEMP_HEADERS if name in index), "temp")
     report.header_unit = TEMP_HEADERS[temp_header]
     names = REQUIRED_COLUMNS + ["sg", temp_header, "volts", "level"] + OPTIONAL_COLUMNS
@@ -534,7 +534,7 @@ class Checker:
                 cells = profile.cells_per_block if profile.reads_by_block else 1
                 low, high = chemistry.plausible_volts_range(cells, profile.technology)
                 if not Decimal(str(low)) <= volts <= Decimal(str(high)):
-                    problems.append(("volts", f"volts {volts} is not plausible for {cells} cell(s) ({low:.2f}–{high:.2f} V)."))
+                    problems.append(("volts", f"volts {volts} is not plausible for {words.count(cells, 'cell')} ({low:.2f}–{high:.2f} V)."))
         if sg is None and volts is None and not problems:
             problems.append(("sg", "neither sg nor volts given."))
         if sg is not None and temp_c is None and not problems:

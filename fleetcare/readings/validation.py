@@ -16,7 +16,7 @@ from statistics import median
 
 from django.db.models import Q as models_q
 
-from fleetcare import chemistry, policy_layers
+from fleetcare import chemistry, policy_layers, words
 from fleetcare.policy_layers import Setting
 
 SG_LOW, SG_HIGH = Decimal("1.000"), Decimal("1.350")
@@ -141,10 +141,10 @@ def date_window(battery, now, future_minutes=None):
     start = getattr(battery, "in_service_date", None)
     tz = battery.site.tzinfo
     if start:
-        reason = f"before this battery entered service ({start:%d %b %Y})"
+        reason = f"before this battery entered service ({words.day(start)})"
     else:
         start = EARLIEST_WHEN_UNKNOWN
-        reason = f"before {start:%d %b %Y}"
+        reason = f"before {words.day(start)}"
     earliest = dt.datetime.combine(start, dt.time.min, tzinfo=tz)
     return DateWindow(earliest=earliest, latest=now + dt.timedelta(minutes=int(minutes)), earliest_reason=reason)
 

@@ -7,6 +7,7 @@ from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_http_methods
 
+from fleetcare import words
 from fleetcare.accounts.access import role_required
 from fleetcare.accounts.forms import ReasonForm
 from fleetcare.accounts.roles import CREW, SUPERVISOR, has_role
@@ -160,7 +161,7 @@ def remove_inspection(request, pk):
         return redirect("fleet:battery", pk=inspection.battery_id)
     return render(request, "readings/remove.html", {
         "form": form, "battery": inspection.battery, "what": "reading",
-        "summary": f"{inspection.get_situation_display()} reading taken {site_time.local(inspection.taken_at, inspection):%d %b %Y %H:%M %Z}",
+        "summary": f"{inspection.get_situation_display()} reading taken {_site_moment(inspection.taken_at, inspection)}",
         "back": reverse("readings:inspection", args=[inspection.pk]),
     })
 
@@ -183,7 +184,7 @@ def remove_top_up(request, pk):
         return redirect("fleet:battery", pk=top_up.battery_id)
     return render(request, "readings/remove.html", {
         "form": form, "battery": top_up.battery, "what": "water top-up",
-        "summary": f"{top_up.volume_entered or f'{top_up.volume_ml} mL'} on {site_time.local(top_up.done_at, top_up):%d %b %Y %H:%M %Z}",
+        "summary": f"{top_up.volume_entered or f'{top_up.volume_ml} mL'} on {_site_moment(top_up.done_at, top_up)}",
         "back": reverse("fleet:battery", args=[top_up.battery_id]),
     })
 
@@ -273,3 +274,8 @@ def import_notes(request, import_id):
     response = FileResponse(default_storage.open(job.notes_file.name, "rb"), content_type="text/csv; charset=utf-8",
                             as_attachment=True, filename=f"import-notes-{job.pk}.csv")
     return response
+
+
+def _site_moment(moment, obj):
+    local = site_time.local(moment, obj)
+    return f"{words.moment(local)} {local.tzname()}"

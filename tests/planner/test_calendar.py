@@ -101,6 +101,38 @@ def test_a_plan_with_a_long_reason_gives_a_valid_calendar(site):
     assert p["DTEND"] == "20260331T000000Z"
     assert p["SUMMARY"] == "Equalizing charge: TW-007 (2 days overdue)"
     assert "spread 0\\,031" in p["DESCRIPTION"]
+    # whole sentences, dates in the one style: a capital, the date in words, a full stop
+    assert p["DESCRIPTION"].startswith("Site time Mon 30 Mar 22:00–01:00 BST (Europe/London). Urgent high-spread")
+    assert p["DESCRIPTION"].endswith("last on 21 Mar 2026.")
+
+
+def test_one_day_overdue_is_said_in_whole_words(site):
+    start = dt.datetime(2026, 3, 30, 22, 0)
+    task = solver.PlannedTask(
+        battery_id=7, serial="TW-007", kind="water", room_id=1, day=start.date(), start=start,
+        end=start + dt.timedelta(minutes=15), due_day=start.date(), days_overdue=1, severity=0,
+        reason="watering every 1 day, last on 2026-03-28",
+    )
+    plan = solver.Plan(site_id=site.pk, start_date=start.date(), days=7, tasks=(task,), unplaced=(),
+                       lower_bound_overdue_days=1, proven_optimal=True, method="test")
+    (event,) = check_calendar(ical.calendar(site, plan, {7: "TW-007"}, dt.datetime(2026, 3, 30, 8, 0, tzinfo=dt.UTC))
+                              .encode())
+    assert props(event)["SUMMARY"] == "Water: TW-007 (1 day overdue)"
+
+
+def test_a_findings_whole_summary_reaches_the_calendar(warehouse, client, supervisor, now):
+    from fleetcare.care.models import Finding
+
+    summary = ("Spread 31 points after charging: cells 4, 9 and 17 lag the median of the others by more than the "
+               "limit of 20 points plus the hydrometer's resolution on two readings in a row")
+    assert len(summary) > 100  # the length the calendar once cut at
+    Finding.objects.create(battery=warehouse["trays"][0], kind="high_spread", severity=2, opened_at=now,
+                           last_seen_at=now, summary=summary)
+    client.force_login(supervisor)
+    events = check_calendar(client.get(reverse("planner:plan_ics", args=["tw"])).content)
+    descriptions = [props(e)["DESCRIPTION"].replace("\\,", ",") for e in events]
+    assert any(summary + "." in d for d in descriptions)
+    assert not any("…" in d for d in descriptions)
 
 
 def test_a_supervisor_downloads_the_sites_plan(warehouse, client, supervisor):

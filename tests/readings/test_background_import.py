@@ -49,7 +49,7 @@ def test_a_dry_run_upload_says_what_is_new_and_what_is_already_stored(crew_clien
     page = crew_client.get(response["Location"]).content.decode()
     assert "2 rows" not in page
     assert "48 rows; 1 new reading (24 cell readings) would be stored; 1 already stored. Nothing was stored." in page
-    assert "TW-001 at 2026-11-02 06:00 (just charged) is already stored." in page
+    assert "TW-001 at 2 Nov 2026 06:00 (just charged) is already stored." in page
     assert Inspection.objects.count() == 1
 
 

@@ -66,7 +66,7 @@ def test_each_kind_of_bad_value_is_reported(battery, crew, change, message):
 
 def test_the_wrong_number_of_cells_for_the_profile_is_reported(battery, crew):
     report = run(HEADER + inspection_rows(cells=20), crew)
-    assert report.errors == [(2, "TW-001 at 2026-11-02 06:00 (just charged): 20 cells read; the profile has 24 (give all of them, or one for a pilot-cell reading).")]
+    assert report.errors == [(2, "TW-001 at 2 Nov 2026 06:00 (just charged): 20 cells read; the profile has 24 (give all of them, or one for a pilot-cell reading).")]
 
 
 def test_importing_the_same_file_twice_stores_it_once(battery, crew):

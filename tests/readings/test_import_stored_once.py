@@ -74,7 +74,7 @@ def test_a_reading_stored_by_the_tablet_is_recognised_by_its_battery_minute_and_
     rows += "".join(f"TW-001,2026-11-02T06:00,before_charge,{n},1.200,25,,ok\n" for n in range(1, 25))
     report = import_readings(HEADER + rows, user=crew, batteries=Battery.objects.all())
     assert (report.inspections_created, report.inspections_already_stored) == (1, 1)
-    assert [note.message for note in report.already] == ["TW-001 at 2026-11-02 06:00 (just charged) is already stored."]
+    assert [note.message for note in report.already] == ["TW-001 at 2 Nov 2026 06:00 (just charged) is already stored."]
     assert Inspection.objects.count() == 2
 
 

@@ -75,7 +75,7 @@ def test_the_date_rule(battery, when, expected):
 def test_without_a_service_date_the_earliest_is_2000(battery):
     battery.in_service_date = None
     assert validation.date_problem(dt.datetime(1999, 12, 31, 12, tzinfo=dt.timezone.utc), battery, NOW) == \
-        "Taken at is before 01 Jan 2000. Check the date."
+        "Taken at is before 1 Jan 2000. Check the date."
 
 
 def form_post(points, **extra):

@@ -4,6 +4,7 @@ from datetime import datetime
 from django import template
 from django.utils import timezone
 
+from fleetcare import words
 from fleetcare.accounts.roles import SUPERVISOR, has_role
 from fleetcare.care import selectors
 from fleetcare.fleet import site_time, site_units
@@ -31,8 +32,9 @@ def _show(value, battery):
         except ValueError:
             return value
         if timezone.is_naive(moment):
-            return moment.strftime("%d %b %Y %H:%M")
-        return site_time.local(moment, battery).strftime("%d %b %Y %H:%M %Z")
+            return words.moment(moment)
+        local = site_time.local(moment, battery)
+        return f"{words.moment(local)} {local.tzname()}"
     if value is None:
         return "–"
     if value is True:

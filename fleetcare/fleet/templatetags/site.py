@@ -1,8 +1,8 @@
 """Times, temperatures and water amounts in a template, each in the site of the object it belongs to.
 
 {% load site %}
-{{ inspection.taken_at|site_time:inspection|date:"j M Y H:i" }}     the site's clock
-{% site_when inspection.taken_at battery "j M Y H:i" %}             the same, then the zone: '1 Nov 2026 01:30 CST'
+{{ inspection.taken_at|site_time:inspection|moment }}                the site's clock
+{% site_when inspection.taken_at battery %}                         the same, then the zone: '1 Nov 2026 01:30 CST'
 {{ inspection.temp_c|site_temp:battery }}                          '77.0 °F' or '25.0 °C' ('–' when unknown)
 {{ top_up.volume_ml|site_volume:battery }}                         '12.3 US fl oz' or '0.36 L'
 {% temp_unit battery %} {% volume_unit battery %}                  the unit alone, for column headings
@@ -10,8 +10,8 @@
 import datetime as dt
 
 from django import template
-from django.utils import dateformat
 
+from fleetcare import words
 from fleetcare.fleet import site_time as clock
 from fleetcare.fleet import site_units
 
@@ -35,13 +35,13 @@ class _SiteMoment(dt.datetime):
 
 
 @register.simple_tag
-def site_when(moment, obj, fmt="j M Y H:i"):
-    """The moment on the site's clock in a date-filter format, then the zone's abbreviation: '1 Nov 2026 01:30 CST'.
+def site_when(moment, obj):
+    """The moment on the site's clock in the one date style, then the zone's abbreviation: '1 Nov 2026 01:30 CST'.
     (Django's own "T" leaves the abbreviation blank inside the repeated hour, the one time it matters most.)"""
     if not isinstance(moment, dt.datetime):
         return ""
     local = clock.local(moment, obj)
-    return f"{dateformat.format(local, fmt)} {local.tzname()}"
+    return f"{words.moment(local)} {local.tzname()}"
 
 
 @register.filter

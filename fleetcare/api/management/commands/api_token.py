@@ -2,6 +2,7 @@
 from django.contrib.auth import get_user_model
 from django.core.management.base import BaseCommand, CommandError
 
+from fleetcare import words
 from fleetcare.api.models import ApiToken
 from fleetcare.api.tokens import create_token, revoke_token
 
@@ -42,4 +43,4 @@ class Command(BaseCommand):
                 raise CommandError("No live token matches.")
             for token in tokens:
                 revoke_token(token)
-            self.stdout.write(f"Revoked {len(tokens)} token(s) of {user.username}.")
+            self.stdout.write(f"Revoked {words.count(len(tokens), 'token')} of {user.username}.")

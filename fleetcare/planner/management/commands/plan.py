@@ -3,6 +3,7 @@ import json
 from django.core.management.base import BaseCommand, CommandError
 from django.utils import timezone
 
+from fleetcare import words
 from fleetcare.planner import solver
 from fleetcare.fleet.models import Site
 from fleetcare.planner import inputs as planner_inputs
@@ -42,7 +43,7 @@ class Command(BaseCommand):
             data["limit_violations"] = [str(v) for v in violations]
             self.stdout.write(_json_dumps(data))
             return
-        self.stdout.write(f"{found.name}: {days} days from {entry.today}; {plan.method}")
+        self.stdout.write(f"{found.name}: {words.count(days, 'day')} from {words.day(entry.today)}; {plan.method}")
         self.stdout.write(f"Days late, all batteries together: {plan.total_overdue_days} ({_how_few(plan)})")
         for task in plan.tasks:
             late = f"  {task.days_overdue} d late" if task.days_overdue else ""

@@ -1,6 +1,7 @@
 from django.contrib.auth import get_user_model
 from django.core.management.base import BaseCommand, CommandError
 
+from fleetcare import words
 from fleetcare.fleet.access import visible_batteries
 from fleetcare.readings.csv_io import COLUMNS, OPTIONAL_COLUMNS, import_readings
 
@@ -36,7 +37,7 @@ class Command(BaseCommand):
         for line, message in report.errors:
             self.stderr.write(f"line {line}: {message}")
         if report.problem_count > len(report.problems):
-            self.stderr.write(f"… {report.problem_count - len(report.problems):,} more problem(s)"
+            self.stderr.write(f"… {words.count(report.problem_count - len(report.problems), 'more problem', 'more problems')}"
                               f"{' in ' + notes if notes else ' (pass --notes FILE for all of them)'}.")
         for note in report.checks:
             self.stdout.write(f"line {note.line}: {note.message}")
@@ -44,13 +45,13 @@ class Command(BaseCommand):
             self.stdout.write(f"Temperatures read as {unit}.")
         if report.problem_count and not report.imported:
             if dry_run and good_rows_only:
-                self.stdout.write(f"Check: {report.inspections_created} good reading(s) would be stored.")
-            raise CommandError(f"Nothing imported: {report.problem_count} problem(s). Fix them, or pass --good-rows-only.")
+                self.stdout.write(f"Check: {words.count(report.inspections_created, 'good reading')} would be stored.")
+            raise CommandError(f"Nothing imported: {words.count(report.problem_count, 'problem')}. Fix them, or pass --good-rows-only.")
         if dry_run:
-            self.stdout.write(f"Check passed: {report.rows_read} rows, {report.inspections_created} new reading(s), "
+            self.stdout.write(f"Check passed: {words.count(report.rows_read, 'row')}, {words.count(report.inspections_created, 'new reading')}, "
                               f"{report.inspections_already_stored} already stored. Nothing stored.")
             return
         self.stdout.write(self.style.SUCCESS(
-            f"Stored {report.inspections_created} inspection(s), {report.cells_created} cell reading(s); "
+            f"Stored {words.count(report.inspections_created, 'inspection')}, {words.count(report.cells_created, 'cell reading')}; "
             f"{report.inspections_already_stored} already stored."
         ))
