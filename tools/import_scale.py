@@ -121,11 +121,12 @@ def child_copy(path):
                 next_id += 1
                 inspections.write(
                     f"{keys[key]}\t{ids[serial]}\t{taken}+00\t{user.pk}\t{situation}\tall\t{temp}\tf\t\\N\tImported from CSV\t"
-                    f"{uuid.uuid4()}\t1.280\t1.270\t1.289\t0.019\t1\t\\N\t93.3\tsg\tt\t\\N\t\t{taken}+00\t\\N\t\\N\n")
+                    f"{uuid.uuid4()}\t1.280\t1.270\t1.289\t0.019\t1\t\\N\t93.3\tsg\tt\t\\N\t\t{taken}+00\t\\N\t\\N\t"
+                    f"import\t\n")
             cells.write(f"{keys[key]}\t{position}\t{sg}\t{sg}\t{temp}\t\\N\t{level}\n")
     columns = ("id, battery_id, taken_at, taken_by_id, situation, scope, temp_c, hydrometer_compensated, hours_since_charge, "
                "notes, client_uuid, sg_mean, sg_min, sg_max, sg_spread, lowest_position, volts_total, soc_percent, soc_basis, "
-               "is_current, supersedes_id, revision_reason, recorded_at, deleted_at, deleted_by_id")
+               "is_current, supersedes_id, revision_reason, recorded_at, deleted_at, deleted_by_id, chosen_via, client_digest")
     inspections.seek(0)
     cells.seek(0)
     started = time.perf_counter()
@@ -143,10 +144,20 @@ def clean():
     from django.db import connection
 
     with connection.cursor() as cursor:
+        # Each battery's kept state points at its latest readings: forget it first, rebuild it after.
+        cursor.execute("DELETE FROM readings_batterystate WHERE battery_id IN (SELECT id FROM fleet_battery "
+                       "WHERE serial LIKE 'SCALE-%%')")
         cursor.execute("DELETE FROM readings_cellreading WHERE inspection_id IN (SELECT id FROM readings_inspection "
                        "WHERE battery_id IN (SELECT id FROM fleet_battery WHERE serial LIKE 'SCALE-%%'))")
         cursor.execute("DELETE FROM readings_inspection WHERE battery_id IN (SELECT id FROM fleet_battery WHERE serial LIKE 'SCALE-%%')")
         cursor.execute("DELETE FROM django_tasks_database_dbtaskresult")
+    from django.db import transaction
+
+    from fleetcare.fleet.models import Battery
+    from fleetcare.readings import state
+
+    with transaction.atomic():
+        state.rebuild(list(Battery.objects.filter(serial__startswith="SCALE-").values_list("pk", flat=True)))
     connection.close()
     with connection.cursor() as cursor:
         cursor.execute("VACUUM ANALYZE readings_inspection")
