@@ -95,7 +95,7 @@ def batteries_to_label(site, serials=None):
 def labels_for(batteries, base):
     return [
         Label(serial=b.serial, profile=profile_line(b.profile), site=b.site.name,
-              url=base + label_path(b.site.code, b.serial))
+              url=base + label_path(b.site.code, b.serial), sealed=b.profile.reads_by_block)
         for b in batteries
     ]
 

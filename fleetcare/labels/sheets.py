@@ -19,8 +19,10 @@ from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.ttfonts import TTFont
 from reportlab.pdfgen import canvas
 
-# Short on purpose: a label has room for one line. The full cautions are on the entry screens.
+# Short on purpose: a label has room for one line. The full cautions (templates/partials/cautions.html) are on
+# the entry screens; these say the same in brief, the sealed one without acid or watering.
 CAUTION = "Acid burns: face shield, gloves. Charging gives off explosive hydrogen: no flames or sparks."
+SEALED_CAUTION = "Sealed: never add water or open the valves. Overcharging gives off explosive hydrogen: no flames or sparks."
 
 # Bitstream Vera, shipped inside reportlab: embedded, so every printer shows the same letters.
 _FONTS = Path(reportlab.__file__).parent / "fonts"
@@ -39,6 +41,7 @@ class Label:
     profile: str  # "24 cells · 48 V · 775 Ah"
     site: str
     url: str  # what the QR code holds
+    sealed: bool = False
 
 
 @dataclass(frozen=True)
@@ -125,7 +128,7 @@ def draw_label(pdf, label, x, y, width, height):
             pdf.drawString(text_x, top, line)
             top -= size * 1.25
 
-    caution = simpleSplit(CAUTION, BOLD, 6.5, text_w)
+    caution = simpleSplit(SEALED_CAUTION if label.sealed else CAUTION, BOLD, 6.5, text_w)
     line_y = y + pad + (len(caution) - 1) * 6.5 * 1.2
     for line in caution:
         pdf.setFont(BOLD, 6.5)

@@ -119,6 +119,15 @@ def test_a_label_shows_the_serial_profile_site_and_caution_as_text(site, fleet):
         assert words in text
 
 
+@needs_poppler
+def test_a_sealed_batterys_label_has_the_sealed_caution(sealed_battery):
+    text = subprocess.run(["pdftotext", "-", "-"], capture_output=True, check=True,
+                          input=selectors.sheet_pdf(sealed_battery.site, ["TR-P01"], "single", BASE)).stdout.decode()
+    text = " ".join(text.split())
+    assert "never add water" in text and "hydrogen" in text
+    assert "Acid" not in text and "face shield" not in text
+
+
 def test_a_retired_or_unknown_battery_gets_no_label_and_says_why(site, fleet, other_battery):
     with pytest.raises(selectors.LabelError, match="TW-GONE was retired"):
         selectors.sheet_pdf(site, ["TW-001", "TW-GONE"], "a4", BASE)

@@ -46,8 +46,8 @@ class Command(BaseCommand):
         self.stdout.write(f"{found.name}: {words.count(days, 'day')} from {words.day(entry.today)}; {plan.method}")
         self.stdout.write(f"Days late, all batteries together: {plan.total_overdue_days} ({_how_few(plan)})")
         for task in plan.tasks:
-            late = f"  {task.days_overdue} d late" if task.days_overdue else ""
-            self.stdout.write(f"{task.start:%a %d %b %H:%M}-{task.end:%H:%M}  {task.kind:<9} {task.serial}{late}")
+            late = f"  {words.count(task.days_overdue, 'day')} late" if task.days_overdue else ""
+            self.stdout.write(f"{words.weekday_time(task.start)}-{task.end:%H:%M}  {task.kind:<9} {task.serial}{late}")
         for missing in plan.unplaced:
             self.stdout.write(f"NOT PLANNED  {missing.kind:<9} {missing.serial}: {missing.reason}")
         for v in violations:
