@@ -4,6 +4,7 @@ Two ways in: the web app's session (unsafe methods need the CSRF token, as forms
 tokens for other programs (`Authorization: Bearer fc_...`, see fleetcare/api/tokens.py).
 """
 from django.conf import settings
+from django.core.exceptions import RequestDataTooBig
 from django.http import HttpRequest
 from ninja import NinjaAPI, Query, Schema, Status
 from ninja.errors import AuthorizationError, HttpError, ValidationError
@@ -91,6 +92,15 @@ def _invalid(request, exc):
     detail = services.NOT_SAVED if request.method not in SAFE_METHODS else (
         "The request's parameters are not valid: fix the ones listed and ask again.")
     return api.create_response(request, {"detail": detail, "errors": errors}, status=422)
+
+
+@api.exception_handler(RequestDataTooBig)
+def _too_big(request, exc):
+    limit_mb = settings.DATA_UPLOAD_MAX_MEMORY_SIZE / 1024 / 1024
+    return api.create_response(request, {
+        "detail": f"Nothing was saved: the request's body is larger than the {limit_mb:.1f} MB accepted.",
+        "errors": {"__all__": ["The body is too large."]},
+    }, status=400)
 
 
 class BatteryFilter(Schema):

@@ -16,5 +16,6 @@ def test_a_3_mb_json_body_is_refused(token_client, battery):
     body = json.dumps({"client_uuid": "7d0c75df-ee2c-598c-a699-05ec7275e038", "done_at": "2026-11-30T08:00",
                        "volume": "4.8", "notes": "x" * 3_000_000})
     response = token_client.post(f"/api/batteries/{battery.pk}/top-ups", data=body, content_type="application/json")
-    assert 400 <= response.status_code < 500
+    assert response.status_code == 400
+    assert response.json()["detail"] == "Nothing was saved: the request's body is larger than the 2.5 MB accepted."
     assert WaterTopUp.objects.count() == 0
