@@ -294,12 +294,17 @@ def test_crafted_api_submissions_get_a_4xx_and_store_nothing(world, data):
                 cells[int(index)][field] = value
         else:
             body[key] = value
-    raw = data.draw(st.sampled_from(["json", "json", "json", "latin-1", "not json", "empty"]), label="raw")
+    raw = data.draw(st.sampled_from(["json", "json", "json", "latin-1", "not json", "empty", "3 MB", "deep"]),
+                    label="raw")
     content = {"json": as_json(body).encode(), "latin-1": as_json(body).encode() + b"\xff\xfe caf\xe9",
-               "not json": b"{'situation': charged", "empty": b""}[raw]
+               "not json": b"{'situation': charged", "empty": b"",
+               "3 MB": as_json({**body, "notes": "x" * 3_000_000}).encode(),
+               "deep": b"[" * 100_000 + b"]" * 100_000}[raw]
+    content_type = data.draw(st.sampled_from(["application/json", "application/json", "text/plain",
+                                              "application/x-www-form-urlencoded"]), label="content type")
     battery_id = data.draw(st.sampled_from([str(battery.pk), "0", "-1", HUGE[:30], "x"]), label="battery_id")
     before = stored_rows()
-    response = client.post(f"/api/batteries/{battery_id}/{kind}", content, content_type="application/json")
+    response = client.post(f"/api/batteries/{battery_id}/{kind}", content, content_type=content_type)
     assert response.status_code < 500, response.content[:300]
     if response.status_code >= 400:
         assert response["Content-Type"].startswith("application/json")
