@@ -6,12 +6,14 @@ from decimal import Decimal
 
 import pytest
 from django.core.management import call_command
+from django.urls import reverse
 from django.utils import timezone
 
 from fleetcare.care.detection import detect_for_batteries
 from fleetcare.care.models import Finding
-from fleetcare.fleet.models import Battery, Site
+from fleetcare.fleet.models import Battery, BatteryProfile, Site
 from fleetcare.readings.models import Inspection
+from fleetcare.readings.services import CellEntry, record_inspection
 from tests.care import noisy_fleet
 from tests.dashboard.conftest import read
 from tests.dashboard.test_home import figure
@@ -79,7 +81,28 @@ def test_a_cell_far_behind_is_drawn_at_its_distance_from_the_middle_cell_and_mar
     # Default settings: 20 points (common practice, field notes) plus the hydrometer's 5 once; 20 twice running.
     assert guides(fig) == (25, 20, 2)
     assert "Cells behind the others after charge" in fig["layout"]["title"]["text"]
-    assert Inspection.objects.filter(battery=calm).get().sg_spread == Decimal("0.020")
+    reading = Inspection.objects.filter(battery=calm).get()
+    assert reading.sg_spread == Decimal("0.020")
+    # The reading's own page gives both: the plain spread, named as highest minus lowest, and the rule's measure.
+    page = admin_client_all.get(reverse("readings:inspection", args=[reading.pk])).content.decode()
+    assert "Spread (highest − lowest)" in page and '<div class="figure-big" id="spread">0.020</div>' in page
+    assert '<div class="figure-big" id="behind">20 points</div>' in page
+
+
+def test_a_half_point_behind_is_shown_as_one_on_the_chart_and_the_reading(admin_client_all, supervisor, now, site):
+    tray = BatteryProfile.objects.create(
+        name="18 V 9-cell tray", technology="flooded", application="traction", nominal_voltage=18, monoblocks=1,
+        cells_per_block=9, capacity_ah=Decimal("400"), full_charge_sg=Decimal("1.290"), discharged_sg=Decimal("1.140"))
+    battery = Battery.objects.create(serial="TW-NINE", profile=tray, site=site, in_service_date=dt.date(2024, 1, 1))
+    # Cell 1's eight others: four at 1.285, four at 1.290, so their median is halfway, 1.2875: 37.5 points behind.
+    cells = [CellEntry(position=1, sg=Decimal("1.250"))] + [
+        CellEntry(position=p, sg=Decimal("1.285" if p <= 5 else "1.290")) for p in range(2, 10)]
+    reading, _ = record_inspection(battery=battery, user=supervisor, taken_at=now - dt.timedelta(hours=2),
+                                   situation="charged", cells=cells, temp_c=Decimal(25))
+    assert reading.sg_behind_median == Decimal("0.0375")
+    assert chart(admin_client_all)["data"][0]["y"] == [37.5]
+    page = admin_client_all.get(reverse("readings:inspection", args=[reading.pk])).content.decode()
+    assert '<div class="figure-big" id="behind">37.5 points</div>' in page
 
 
 def test_the_chart_agrees_with_the_findings_on_a_generated_noisy_fleet(admin_client_all, crew):

@@ -181,9 +181,24 @@ def _readings(start, profile, crew):
                     FROM readings_cellreading GROUP BY inspection_id) AS s ON s.inspection_id = p.id
         """, params)
         inspections = cursor.rowcount
+        cursor.execute(BEHIND_MEDIAN_SQL)
         cursor.execute("SELECT setval(pg_get_serial_sequence('readings_inspection', 'id'), (SELECT max(id) FROM readings_inspection))")
         cursor.execute("DROP TABLE bench_plan")
     return inspections, cells
+
+
+# The spread rule's measure (summarise: chemistry.furthest_below_median_of_others_sg) in SQL: the furthest-behind
+# cell is the lowest, and the others' median is the median of the cells without it.
+BEHIND_MEDIAN_SQL = """
+    UPDATE readings_inspection i SET sg_behind_median = round((s.middle - s.lowest)::numeric, 4)
+      FROM (SELECT inspection_id, min(sg_corrected) AS lowest,
+                   percentile_cont(0.5) WITHIN GROUP (ORDER BY sg_corrected) FILTER (WHERE rn > 1) AS middle
+              FROM (SELECT inspection_id, sg_corrected,
+                           row_number() OVER (PARTITION BY inspection_id ORDER BY sg_corrected, position) AS rn
+                      FROM readings_cellreading WHERE sg_corrected IS NOT NULL) AS c
+             GROUP BY inspection_id HAVING count(*) > 1) AS s
+     WHERE i.id = s.inspection_id AND i.scope = 'all'
+"""
 
 
 def _top_ups(start, crew):
@@ -203,7 +218,8 @@ def verify_sample(count=300, seed=7):
     """Recompute the summary of a sample of stored inspections with the Python code; return disagreements."""
     ids = list(Inspection.objects.values_list("id", flat=True).order_by("id"))
     sample = random.Random(seed).sample(ids, min(count, len(ids)))
-    fields = ("sg_mean", "sg_min", "sg_max", "sg_spread", "lowest_position", "soc_percent", "soc_basis")
+    fields = ("sg_mean", "sg_min", "sg_max", "sg_spread", "sg_behind_median", "lowest_position", "soc_percent",
+              "soc_basis")
     mismatches = []
     stored = Inspection.objects.filter(id__in=sample).select_related("battery__profile")
     cells_by = {}

@@ -33,6 +33,16 @@ def points(sg):
 
 
 @register.filter
+def sg_points(difference):
+    """An SG difference in points (0.001): 0.025 -> '25', 0.0325 -> '32.5' (a median of two cells ends in a half);
+    None -> an en dash."""
+    if difference is None or difference == "":
+        return "–"
+    value = round(float(difference) * 1000, 1)
+    return f"{value:.0f}" if value == int(value) else f"{value:.1f}"
+
+
+@register.filter
 def pct(value):
     if value is None or value == "":
         return "–"
