@@ -22,3 +22,13 @@ def sign_in(page, username, password=PASSWORD):
     page.fill("input[name=password]", password)
     page.get_by_role("button", name="Sign in").click()
     page.wait_for_url(re.compile(r"^(?!.*/accounts/login/)"))
+
+
+def outbox_count(page):
+    """How many entries the tablet holds in its outbox (IndexedDB), waiting to be sent."""
+    return page.evaluate("""() => new Promise(resolve => {
+        const open = indexedDB.open("fleetcare-offline", 1);
+        open.onupgradeneeded = () => open.result.createObjectStore("outbox", {keyPath: "client_uuid"});
+        open.onsuccess = () => open.result.transaction("outbox").objectStore("outbox").count().onsuccess =
+            event => resolve(event.target.result);
+    })""")

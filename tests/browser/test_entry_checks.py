@@ -8,7 +8,7 @@ import pytest
 from django.test import Client
 
 from fleetcare.readings.models import Inspection, WaterTopUp
-from tests.browser.pages import screenshot
+from tests.browser.pages import outbox_count, screenshot
 
 pytestmark = pytest.mark.browser
 
@@ -134,13 +134,7 @@ def test_crew_screens_open_offline_and_a_bad_entry_is_refused_before_it_is_queue
     page.get_by_role("button", name="Save top-up").click()
     page.locator("#fc-check-refused").wait_for()
     assert "Done at is in the future" in page.inner_text("#top-up-form")
-    kept = page.evaluate("""() => new Promise(resolve => {
-        const open = indexedDB.open("fleetcare-offline", 1);
-        open.onupgradeneeded = () => open.result.createObjectStore("outbox", {keyPath: "client_uuid"});
-        open.onsuccess = () => open.result.transaction("outbox").objectStore("outbox").count().onsuccess =
-            event => resolve(event.target.result);
-    })""")
-    assert kept == 0
+    assert outbox_count(page) == 0
 
     page.fill("input[name=done_at]", page.evaluate("() => new Date(Date.now() - new Date().getTimezoneOffset() * 60000)"
                                                    ".toISOString().slice(0, 16)"))

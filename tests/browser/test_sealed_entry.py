@@ -5,6 +5,7 @@ from django.test import Client
 
 from fleetcare.readings import validation
 from fleetcare.readings.models import Inspection
+from tests.browser.pages import outbox_count
 
 pytestmark = pytest.mark.browser
 
@@ -29,12 +30,6 @@ def test_a_sealed_reading_offline_refuses_just_equalized_before_it_is_queued(tab
     tablet.click("#save-inspection")
     tablet.locator("#fc-check-refused").wait_for()
     assert validation.SEALED_NOT_EQUALIZED in tablet.inner_text("#inspection-form")
-    kept = tablet.evaluate("""() => new Promise(resolve => {
-        const open = indexedDB.open("fleetcare-offline", 1);
-        open.onupgradeneeded = () => open.result.createObjectStore("outbox", {keyPath: "client_uuid"});
-        open.onsuccess = () => open.result.transaction("outbox").objectStore("outbox").count().onsuccess =
-            event => resolve(event.target.result);
-    })""")
-    assert kept == 0
+    assert outbox_count(tablet) == 0
     tablet.context.set_offline(False)
     assert not Inspection.objects.exists()

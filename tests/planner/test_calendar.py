@@ -85,18 +85,25 @@ def test_text_is_escaped():
     assert ical.escape("a,b;c\\d\ne") == "a\\,b\\;c\\\\d\\ne"
 
 
-def test_a_plan_with_a_long_reason_gives_a_valid_calendar(site):
-    start = dt.datetime(2026, 3, 30, 22, 0)  # the night the clocks have just gone forward in London
+def one_task_event(site, kind, hours, days_overdue, reason):
+    """The calendar event of a plan with one task of TW-007, from 22:00 on 30 Mar 2026 (the night the clocks have
+    just gone forward in London)."""
+    start = dt.datetime(2026, 3, 30, 22, 0)
     task = solver.PlannedTask(
-        battery_id=7, serial="TW-007", kind="equalize", room_id=1, day=start.date(), start=start,
-        end=start + dt.timedelta(hours=3), due_day=start.date(), days_overdue=2, severity=3,
-        reason="urgent high-spread finding: spread 0,031 after charge; equalizing every 7 days, last on 2026-03-21",
+        battery_id=7, serial="TW-007", kind=kind, room_id=1, day=start.date(), start=start,
+        end=start + dt.timedelta(hours=hours), due_day=start.date(), days_overdue=days_overdue, severity=0,
+        reason=reason,
     )
     plan = solver.Plan(site_id=site.pk, start_date=start.date(), days=7, tasks=(task,), unplaced=(),
-                         lower_bound_overdue_days=2, proven_optimal=True, method="test")
+                       lower_bound_overdue_days=days_overdue, proven_optimal=True, method="test")
     text = ical.calendar(site, plan, {7: "TW-007"}, dt.datetime(2026, 3, 30, 8, 0, tzinfo=dt.UTC))
     (event,) = check_calendar(text.encode())
-    p = props(event)
+    return props(event)
+
+
+def test_a_plan_with_a_long_reason_gives_a_valid_calendar(site):
+    p = one_task_event(site, "equalize", 3, 2, "urgent high-spread finding: spread 0,031 after charge; "
+                                              "equalizing every 7 days, last on 2026-03-21")
     assert p["DTSTART"] == "20260330T210000Z"  # 22:00 BST = 21:00 UTC
     assert p["DTEND"] == "20260331T000000Z"
     assert p["SUMMARY"] == "Equalizing charge: TW-007 (2 days overdue)"
@@ -107,17 +114,9 @@ def test_a_plan_with_a_long_reason_gives_a_valid_calendar(site):
 
 
 def test_one_day_overdue_is_said_in_whole_words(site):
-    start = dt.datetime(2026, 3, 30, 22, 0)
-    task = solver.PlannedTask(
-        battery_id=7, serial="TW-007", kind="water", room_id=1, day=start.date(), start=start,
-        end=start + dt.timedelta(minutes=15), due_day=start.date(), days_overdue=1, severity=0,
-        reason="watering every 1 day, last on 2026-03-28",
-    )
-    plan = solver.Plan(site_id=site.pk, start_date=start.date(), days=7, tasks=(task,), unplaced=(),
-                       lower_bound_overdue_days=1, proven_optimal=True, method="test")
-    (event,) = check_calendar(ical.calendar(site, plan, {7: "TW-007"}, dt.datetime(2026, 3, 30, 8, 0, tzinfo=dt.UTC))
-                              .encode())
-    assert props(event)["SUMMARY"] == "Water: TW-007 (1 day overdue)"
+    p = one_task_event(site, "water", 0.25, 1, "watering every 1 day, last on 2026-03-28")
+    assert p["SUMMARY"] == "Water: TW-007 (1 day overdue)"
+    assert p["DESCRIPTION"].endswith("Watering every 1 day\\, last on 28 Mar 2026.")  # commas escaped (RFC 5545)
 
 
 def test_a_findings_whole_summary_reaches_the_calendar(warehouse, client, supervisor, now):
