@@ -20,7 +20,7 @@ COLUMNS = (
     ("Fitted to", "fitted"),
     ("Latest reading", "latest"),
     ("State of charge", "soc"),
-    ("Spread (points)", "spread"),
+    ("Spread, highest − lowest (points)", "spread"),
 )
 
 
