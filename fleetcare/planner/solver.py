@@ -924,7 +924,7 @@ def _why_unplaced(grid: _Grid, need: _Need, load: _Load) -> str:
     reason = grid.never_fits(need) if need.kind == EQUALIZE else None
     if reason:
         return reason
-    return "no free slot before the horizon ends: " + _blocked_summary(grid, need, load, grid.days)
+    return "no room in the planned days: " + _blocked_summary(grid, need, load, grid.days)
 
 
 def _blocked_summary(grid: _Grid, need: _Need, load: _Load, before_day: int) -> str:
@@ -932,15 +932,15 @@ def _blocked_summary(grid: _Grid, need: _Need, load: _Load, before_day: int) -> 
     counts = defaultdict(int)
     for slot in grid.slots_from(need, need.release, before_day):
         counts[load.blocker(need, slot)] += 1
-    words = {
+    blockers = {
         "chargers": f"equalize-capable chargers in {room.label} busy",
         "airflow": f"ventilation in {room.label} at its limit",
         "spares": "no spare battery left to cover the truck",
     }
-    parts = [f"{words[k]} in {counts[k]} slot{'s' if counts[k] != 1 else ''}" for k in words if counts[k]]
+    parts = [f"{blockers[k]} in {count(counts[k], 'shift')}" for k in blockers if counts[k]]
     if counts[None]:
-        parts.append(f"{counts[None]} free slot{'s' if counts[None] != 1 else ''} left unused by the heuristic")
-    return ", ".join(parts) or "no slot long enough"
+        parts.append(f"{count(counts[None], 'shift')} left free by the quick order")
+    return ", ".join(parts) or "no shift window long enough"
 
 
 def _equalize_start(grid: _Grid, slot: int) -> datetime:
@@ -1007,7 +1007,7 @@ def _water_by_day(grid: _Grid, first: list[_Need], capacity: int | None, repeats
     if capacity == 0:
         why = "no watering capacity: the crew can do 0 waterings a day"
     else:
-        why = f"no free slot before the horizon ends: the crew's {capacity} waterings a day are all planned"
+        why = f"no room in the planned days: the crew's {capacity} waterings a day are all planned"
     unplaced = [(n, why) for n in waiting]
     return _Outcome(placed, unplaced, 1, f"{QUICK_ORDER}, day by day" + (", repeats added as placed" if repeats else ""))
 

@@ -135,7 +135,7 @@ def test_it_says_which_limit_made_a_charge_late():
     plan = plan_care(site([battery("A"), battery("B")], rooms=[room(chargers=1)]))
     late = [t for t in plan.tasks if t.days_overdue]
     assert len(late) == 1
-    assert "1 day late: equalize-capable chargers in room A busy in 1 slot" in late[0].reason
+    assert "1 day late: equalize-capable chargers in room A busy in 1 shift" in late[0].reason
 
 
 def test_it_equalizes_a_severe_finding_first():
