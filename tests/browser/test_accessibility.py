@@ -89,7 +89,17 @@ def check_here(page, role, name, problems):
         screenshot(page, f"axe-{role}-{name}")
 
 
-def test_the_crews_pages_pass_axe(tablet, crew, history, site, tmp_path):
+def send_empty(page, button, fill=None):
+    """Send the page's form with nothing filled in (or only `fill`: {label: text}), so it shows its messages
+    (our script's or the server's)."""
+    for label, text in (fill or {}).items():
+        page.get_by_label(label).fill(text)
+    page.get_by_role("button", name=button).click()
+    page.wait_for_load_state("load")
+    page.locator(".invalid-feedback:visible, .errorlist, .alert-danger").first.wait_for()
+
+
+def test_the_crews_pages_pass_axe(tablet, crew, history, sealed_battery, site, tmp_path):
     sign_in(tablet, "crew1")
     check_pages(tablet, "crew", [
         reverse("dashboard:home"),
@@ -101,10 +111,14 @@ def test_the_crews_pages_pass_axe(tablet, crew, history, site, tmp_path):
         reverse("readings:import"),
         reverse("care:findings"),
         reverse("care:finding", args=[a_finding(history).pk]),
-        reverse("readings:top_up", args=[history.pk]),
+        reverse("care:finding", args=[a_finding(sealed_battery).pk]),
+        reverse("labels:battery", args=[site.code, history.serial]),
         reverse("planner:equalizing", args=[history.pk]),
+        reverse("readings:top_up", args=[history.pk]),
     ])
     problems = {}
+    send_empty(tablet, "Save top-up")
+    check_here(tablet, "crew", "water form with messages", problems)
     upload = tmp_path / "readings.csv"
     upload.write_text("serial,taken_at,situation,cell,sg,temp,volts,level\n"
                       + "".join(f"TW-001,2026-10-01T08:00,charged,{n},1.280,25,,ok\n" for n in range(1, 25))
@@ -125,6 +139,8 @@ def test_the_crews_pages_pass_axe(tablet, crew, history, site, tmp_path):
     tablet.wait_for_load_state("load")
     assert tablet.locator("#equalizing-readings tbody tr").count() == 2
     check_here(tablet, "crew", "equalizing running", problems)
+    send_empty(tablet, "Save reading", {"Specific gravity (265 = 1.265)": "9.999", "Electrolyte temperature (°C)": "30"})
+    check_here(tablet, "crew", "equalizing reading with messages", problems)
     assert problems == {}, json.dumps(problems, indent=1)
 
 
@@ -141,9 +157,7 @@ def test_the_supervisors_pages_pass_axe(tablet, supervisor, history, site):
         reverse("labels:print"),
         reverse("budget:capacity_tests"),
     ])
-    tablet.get_by_role("button", name="Save test").click()  # nothing filled in: the server's messages
-    tablet.wait_for_load_state("load")
-    assert tablet.locator(".invalid-feedback, .errorlist, .alert-danger").count() > 0
+    send_empty(tablet, "Save test")
     problems = {}
     check_here(tablet, "supervisor", "capacity form with messages", problems)
     assert problems == {}, json.dumps(problems, indent=1)
