@@ -78,6 +78,7 @@ MIDDLEWARE = [
     "fleetcare.accounts.middleware.ContentSecurityPolicyMiddleware",
     "fleetcare.accounts.middleware.PrivateResponsesMiddleware",
     "fleetcare.accounts.middleware.KnownDeviceMiddleware",
+    "fleetcare.accounts.middleware.RefuseNulInAddressMiddleware",
 ]
 
 ROOT_URLCONF = "fleetcare.urls"

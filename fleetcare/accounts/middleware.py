@@ -1,6 +1,7 @@
 import zoneinfo
 
 from django.conf import settings
+from django.http import HttpResponseBadRequest, JsonResponse
 from django.utils import timezone
 from django.utils.cache import patch_cache_control
 
@@ -75,3 +76,23 @@ class KnownDeviceMiddleware:
                 secure=settings.SESSION_COOKIE_SECURE, httponly=True, samesite="Lax",
             )
         return response
+
+
+class RefuseNulInAddressMiddleware:
+    """An address or query holding a NUL character is refused before any view sees it.
+
+    No address of ours holds one, and PostgreSQL cannot compare text with it (a lookup would fail with a 500).
+    Form fields are not checked here: their forms refuse a NUL beside the field.
+    """
+
+    MESSAGE = "The address holds a character that no address here contains (a NUL). Check the link and try again."
+
+    def __init__(self, get_response):
+        self.get_response = get_response
+
+    def __call__(self, request):
+        if "\x00" in request.path or any("\x00" in text for key, values in request.GET.lists() for text in [key, *values]):
+            if request.path.startswith("/api/"):
+                return JsonResponse({"detail": self.MESSAGE, "errors": {}}, status=400)
+            return HttpResponseBadRequest(self.MESSAGE, content_type="text/plain; charset=utf-8")
+        return self.get_response(request)
