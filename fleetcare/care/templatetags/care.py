@@ -1,5 +1,5 @@
 """{% battery_findings battery %} and {% inspection_findings inspection %}: the findings panel, with its own data."""
-from datetime import datetime
+from datetime import date, datetime
 
 from django import template
 from django.utils import timezone
@@ -8,6 +8,7 @@ from fleetcare import words
 from fleetcare.accounts.roles import SUPERVISOR, has_role
 from fleetcare.care import selectors
 from fleetcare.fleet import site_time, site_units
+from fleetcare.readings.models import Inspection
 
 register = template.Library()
 
@@ -35,6 +36,11 @@ def _show(value, battery):
             return words.moment(moment)
         local = site_time.local(moment, battery)
         return f"{words.moment(local)} {local.tzname()}"
+    if isinstance(value, str) and len(value) == 10 and value[4] == "-" and value[7] == "-":
+        try:
+            return words.day(date.fromisoformat(value))
+        except ValueError:
+            return value
     if value is None:
         return "–"
     if value is True:
@@ -64,6 +70,8 @@ def reading_lines(reading, battery):
         elif key == "volume_ml":
             amount = site_units.volume_shown(value, battery)
             lines.append(("water added (whole battery)", f"{amount} {site_units.volume_label(battery)}"))
+        elif key == "situation" and value in Inspection.Situation.values:
+            lines.append(("situation", Inspection.Situation(value).label.lower()))
         elif key in ("temp_c", "temperature_c"):
             lines.append(("temperature", f"{site_units.temp_shown(value, battery)} {site_units.temp_label(battery)}"))
         else:
