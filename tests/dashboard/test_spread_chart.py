@@ -11,6 +11,7 @@ from django.utils import timezone
 
 from fleetcare.care.detection import detect_for_batteries
 from fleetcare.care.models import Finding
+from fleetcare.care.models import Policy as CarePolicy
 from fleetcare.fleet.models import Battery, BatteryProfile, Site
 from fleetcare.readings.models import Inspection
 from fleetcare.readings.services import CellEntry, record_inspection
@@ -126,3 +127,26 @@ def test_the_chart_agrees_with_the_findings_on_the_demo(admin_client_all, db):
     for site in Site.objects.all():
         if chart(admin_client_all, site) is not None:
             check_the_chart_agrees_with_the_findings(admin_client_all, site)
+
+
+def test_the_lines_follow_the_sites_own_setting_and_name_the_batteries_where_settings_differ(
+    admin_client_all, battery, other_battery, supervisor, now, other_site
+):
+    CarePolicy.objects.create(site=other_site, equalize_spread_sg=Decimal("0.030"), spread_readings_in_a_row=3,
+                              note="site rule")
+    for b in (battery, other_battery):
+        read(b, supervisor, now - dt.timedelta(days=1), "charged", weak=(9, "1.262"))  # 28 points behind
+        detect_for_batteries(Battery.objects.filter(pk=b.pk), now=now)
+    # At its own site's 30 points (plus 5 once), the other site's battery is under its line and has no finding.
+    assert list(Finding.objects.active().filter(kind="high_spread").values_list("battery__serial", flat=True)) == [
+        battery.serial]
+    fig = chart(admin_client_all, other_site)
+    assert guides(fig) == (35, 30, 3)
+    assert [t["name"] for t in fig["data"]] == [other_battery.serial]
+    lines = {a["text"]: a["y"] for a in chart(admin_client_all)["layout"]["annotations"]}
+    assert lines == {
+        f"over 25 points once: equalizing due ({battery.serial})": 25,
+        f"over 20 points on 2 charges in a row, same cell: equalizing due ({battery.serial})": 20,
+        f"over 35 points once: equalizing due ({other_battery.serial})": 35,
+        f"over 30 points on 3 charges in a row, same cell: equalizing due ({other_battery.serial})": 30,
+    }
