@@ -3,6 +3,7 @@ from decimal import Decimal
 from django import forms
 from django.utils import timezone
 
+from fleetcare import words
 from fleetcare.budget.models import BudgetAssumptions, CapacityTest, ProfileBudget
 from fleetcare.chemistry import capacity
 from fleetcare.fleet import site_time
@@ -74,9 +75,9 @@ class CapacityTestForm(forms.Form):
         battery, tested_on = data.get("battery"), data.get("tested_on")
         if battery and tested_on and tested_on > site_time.today_at(battery):  # the battery's site clock, not the user's
             self.add_error("tested_on", f"A test cannot be dated in the future: it is "
-                                        f"{site_time.today_at(battery):%d %b %Y} at {battery.site.name}.")
+                                        f"{words.day(site_time.today_at(battery))} at {battery.site.name}.")
         elif battery and tested_on and tested_on < battery.in_service_date:
-            self.add_error("tested_on", f"{battery} went into service on {battery.in_service_date:%Y-%m-%d}.")
+            self.add_error("tested_on", f"{battery} went into service on {words.day(battery.in_service_date)}.")
         if data.get("rate") == CapacityTest.Rate.CURRENT and not data.get("current_a"):
             self.add_error("current_a", "Give the current the test ran at.")
         if data.get("rate") == CapacityTest.Rate.RATED:

@@ -9,6 +9,7 @@ from django.template import Context, Template
 from django.urls import reverse
 from openpyxl import load_workbook
 
+from fleetcare import words
 from fleetcare.budget import forecast, selectors
 from fleetcare.budget.models import BudgetAssumptions, CapacityTest
 from fleetcare.budget.templatetags.budget import can_see_budget
@@ -287,7 +288,7 @@ def test_a_test_is_dated_by_the_batterys_site_clock_not_the_users(client, django
     url = reverse("budget:capacity_tests")
     response = client.post(url, capacity_form(behind, tested_on=east_today.isoformat(), hours_to_end="4"))
     assert response.status_code == 200
-    assert f"A test cannot be dated in the future: it is {site_time.today_at(west):%d %b %Y} at Pago Pago depot." \
+    assert f"A test cannot be dated in the future: it is {words.day(site_time.today_at(west))} at Pago Pago depot." \
         in response.content.decode()
     assert not CapacityTest.objects.exists()
     response = client.post(url, capacity_form(ahead, tested_on=east_today.isoformat(), hours_to_end="4"))

@@ -4,6 +4,7 @@ from decimal import Decimal
 
 import pytest
 
+from fleetcare import words
 from fleetcare.budget import forecast as fc
 
 TODAY = date(2026, 12, 2)
@@ -149,7 +150,7 @@ def test_a_falling_average_sg_says_when_to_equalize_and_test_not_when_to_replace
     result = fc.forecast_battery(tray(post_charge=points), TODAY)
     sg = next(e for e in result.evidence if e.kind == fc.SG_MEAN)
     assert not sg.dated and result.decided_by.kind != fc.SG_MEAN
-    assert f"at the limit about {start + timedelta(days=175):%d %b %Y}: equalize and test" in sg.detail
+    assert f"at the limit about {words.day(start + timedelta(days=175))}: equalize and test" in sg.detail
 
 
 def test_a_low_average_sg_calls_for_equalize_and_test_before_any_replacement():
