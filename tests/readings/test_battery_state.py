@@ -145,3 +145,21 @@ def test_an_import_that_fails_leaves_the_state_as_it_was(battery, supervisor):
     report = import_readings(io.StringIO(text), user=supervisor, batteries=Battery.objects.all())
     assert not report.imported
     assert state.stored([battery.pk]) == before
+
+
+def test_a_fleet_from_before_the_state_table_gets_its_state_after_migrating(battery, other_battery, supervisor):
+    from fleetcare.readings.apps import fill_missing_state
+
+    rng = random.Random(7)
+    for _ in range(3):
+        record(rng, battery, supervisor)
+    top_up(rng, battery, supervisor)
+    expected = state.computed([battery.pk])[battery.pk]
+    BatteryState.objects.all().delete()  # as the table was when it was first created
+
+    fill_missing_state(sender=None)
+
+    kept = BatteryState.objects.get(battery=battery)
+    assert {name: getattr(kept, name) for name in expected} == expected
+    assert not BatteryState.objects.filter(battery=other_battery).exists()  # no history, nothing to keep
+    assert state.differences() == {}
