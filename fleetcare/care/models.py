@@ -56,7 +56,7 @@ class Finding(models.Model):
     battery = models.ForeignKey(Battery, on_delete=models.CASCADE, related_name="findings")
     kind = models.CharField(max_length=24, choices=Kind.choices)
     state = models.CharField(max_length=12, choices=State.choices, default=State.OPEN)
-    severity = models.PositiveSmallIntegerField(choices=Severity.choices, default=Severity.WARNING)
+    severity = models.PositiveSmallIntegerField("how urgent", choices=Severity.choices, default=Severity.WARNING)
     positions = models.JSONField(default=list, blank=True, help_text="Cell or block numbers concerned.")
     persistent = models.BooleanField(
         default=False, help_text="Seen on two or more consecutive post-charge inspections."
