@@ -1,7 +1,8 @@
 """Crafted input on every form, every API operation and the CSV import: an answer with a message, never a 500,
 and nothing stored when the answer is a refusal.
 
-The forms are not listed by hand: each page is fetched as a signed-in administrator (or anonymously for the
+Every address of the site also takes crafted values in its variable parts (ids out of range, NUL, 3,000
+characters). The forms are not listed by hand: each page is fetched as a signed-in administrator (or anonymously for the
 sign-in page), its POST forms are read from the HTML, and hypothesis fills their fields with a mix of the page's
 own values (so later checks are reached) and crafted ones: absurd dates (year 1, 9999, 2099, offsets, local
 times that do not exist), crafted numbers (5,000 digits, NaN, inf, booleans, unicode digits), huge and empty
@@ -378,3 +379,42 @@ def test_crafted_csv_files_get_a_report_and_a_refused_file_stores_nothing(world,
         assert Inspection.objects.count() == readings_before
     elif not good_rows_only and "Nothing was imported" in page:
         assert Inspection.objects.count() == readings_before
+
+
+# --- every address, with crafted values in its variable parts ------------------------------------------------------
+
+CRAFTED_PARTS = {
+    "int": ["0", "9223372036854775808", "9" * 30],
+    "str": ["a%00b", "x" * 3000, "%C3%A9t%C3%A9", "..%2F..%2Fetc"],
+    "uuid": ["00000000-0000-0000-0000-000000000000", "ffffffff-ffff-ffff-ffff-ffffffffffff"],
+}
+CRAFTED_PARTS["slug"] = CRAFTED_PARTS["path"] = CRAFTED_PARTS["str"]
+
+
+def every_route():
+    from django.urls import URLPattern, URLResolver, get_resolver
+
+    def walk(patterns, prefix):
+        for p in patterns:
+            if isinstance(p, URLResolver):
+                if "admin" not in str(p.pattern):
+                    yield from walk(p.url_patterns, prefix + str(p.pattern))
+            elif isinstance(p, URLPattern):
+                yield prefix + str(p.pattern)
+
+    return sorted({route for route in walk(get_resolver().url_patterns, "") if "<" in route})
+
+
+PLACEHOLDER = re.compile(r"<(?:(\w+):)?\w+>")
+
+
+@pytest.mark.parametrize("route", every_route())
+def test_crafted_parts_of_every_address_get_an_answer(world, route):
+    """Each variable part in turn takes each crafted value (the others their kind's first), by GET and POST."""
+    kinds = [kind or "str" for kind in PLACEHOLDER.findall(route)]
+    for index, kind in enumerate(kinds):
+        for value in CRAFTED_PARTS[kind]:
+            chosen = [value if n == index else CRAFTED_PARTS[k][0] for n, k in enumerate(kinds)]
+            path = "/" + PLACEHOLDER.sub(lambda _match, parts=iter(chosen): next(parts), route)
+            for method in (world["client"].get, world["client"].post):
+                assert method(path).status_code < 500, path[:80]
