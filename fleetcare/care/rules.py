@@ -8,7 +8,7 @@ from datetime import datetime, timedelta
 
 from fleetcare import chemistry, words
 from fleetcare.care import cycles, wording
-from fleetcare.fleet import site_units
+from fleetcare.fleet import life, site_units
 from fleetcare.planner import due
 from fleetcare.readings.services import is_rested
 
@@ -762,7 +762,7 @@ def ageing(data):
     days = (data.now.date() - data.battery.in_service_date).days
     years = days / 365.25
     count = charge_count(data)
-    past_life = years > float(profile.design_life_years)
+    past_life = life.is_past_design_life(data.battery.in_service_date, profile.design_life_years, data.now.date())
     past_cycles = count.whole > profile.design_cycles
     if not (past_life or past_cycles):
         return None

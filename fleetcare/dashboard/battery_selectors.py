@@ -10,7 +10,7 @@ from django.utils import timezone
 
 from fleetcare import charts
 from fleetcare.care.models import Finding
-from fleetcare.fleet import site_time, site_units
+from fleetcare.fleet import life, site_time, site_units
 from fleetcare.fleet.models import Battery, BatteryProfile, Fitting
 from fleetcare.planner import overdue
 from fleetcare.readings.models import BatteryState, CellReading, Inspection, WaterTopUp
@@ -63,19 +63,11 @@ def with_latest_reading(batteries):
     )
 
 
-def design_life_days(years):
-    return round(float(years) * 365.25)
-
-
-def is_past_design_life(in_service_date, design_life_years, today):
-    return in_service_date + dt.timedelta(days=design_life_days(design_life_years)) <= today
-
-
 def past_design_life_q(today):
     """Batteries whose profile's design life has run out since they went into service (one query for the profiles)."""
     q = Q(pk__in=[])
     for profile_id, years in BatteryProfile.objects.values_list("pk", "design_life_years"):
-        q |= Q(profile_id=profile_id, in_service_date__lte=today - dt.timedelta(days=design_life_days(years)))
+        q |= Q(profile_id=profile_id, in_service_date__lte=today - dt.timedelta(days=life.design_life_days(years)))
     return q
 
 

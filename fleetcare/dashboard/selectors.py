@@ -25,7 +25,7 @@ from fleetcare.care.models import Policy as CarePolicy
 from fleetcare.care.policy import BY_NAME as CARE_THRESHOLDS
 from fleetcare.care.rules import spread_guides
 from fleetcare.dashboard import battery_selectors as fleet
-from fleetcare.fleet import site_time, site_units
+from fleetcare.fleet import life, site_time, site_units
 from fleetcare.fleet.models import Battery, Fitting
 from fleetcare.planner import overdue
 from fleetcare.readings import selectors as reading_selectors
@@ -121,7 +121,7 @@ def _battery_rows(batteries, now, today, sites):
     for r in rows:
         flooded = r["profile__technology"] == "flooded"
         r["soc_band"] = fleet.soc_band(r["latest_soc"])
-        r["past_life"] = fleet.is_past_design_life(r["in_service_date"], r["profile__design_life_years"], today)
+        r["past_life"] = life.is_past_design_life(r["in_service_date"], r["profile__design_life_years"], today)
         r["cells"] = r["profile__monoblocks"] * r["profile__cells_per_block"]
         r["waterable"] = flooded and r["profile__watering_allowed"]
     return rows
