@@ -141,8 +141,9 @@ def box_with_outliers(series, title, y_title, x_title=None, height=380):
     return fig
 
 
-def reference_line(fig, y, label):
-    """A dashed horizontal guide across the plot with its meaning written beside it."""
+def reference_line(fig, y, label, above=False):
+    """A dashed horizontal guide across the plot with its meaning written beside it (below the line, or above it
+    where two guides lie close together)."""
     layout = fig["layout"]
     layout.setdefault("shapes", []).append(
         {
@@ -153,7 +154,7 @@ def reference_line(fig, y, label):
     layout.setdefault("annotations", []).append(
         {
             "text": label, "showarrow": False, "xref": "x domain", "x": 1, "xanchor": "right",
-            "yref": "y", "y": y, "yanchor": "top", "bgcolor": "rgba(255,255,255,0.85)",
+            "yref": "y", "y": y, "yanchor": "bottom" if above else "top", "bgcolor": "rgba(255,255,255,0.85)",
         }
     )
     return fig

@@ -496,15 +496,16 @@ def _spread_chart(rows, now, sites, policies):
     fig = charts.line(
         [(names[pk], *series[pk]) for pk in serial if pk in series],
         "Cells behind the others after charge"
-        f"<br><sup>each battery's furthest-behind cell, below the middle reading of its other cells; corrected SG, "
-        f"last {SPREAD_WEEKS} weeks"
+        f"<br><sup>the cell furthest below the median of the other cells, corrected SG, last {SPREAD_WEEKS} weeks"
         f"{f'; {more} more batteries with equalizing due are on the findings list' if more > 0 else ''}</sup>",
-        "Behind the other cells (points of SG)",
+        "Points of SG behind",
         x_title="Each battery's site time",
         height=380,
     )
-    for y, label in _spread_guide_lines(shown, policies):
-        charts.reference_line(fig, y, label)
+    lines = _spread_guide_lines(shown, policies)
+    highest = max((y for y, _label in lines), default=None)
+    for y, label in lines:
+        charts.reference_line(fig, y, label, above=y == highest)
     return fig
 
 
