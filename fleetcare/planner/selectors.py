@@ -457,3 +457,9 @@ def equalizing_record(battery):
     charges = list(EqualizingCharge.objects.filter(battery=battery).select_related("by").prefetch_related("readings")[:6])
     running = next((c for c in charges if c.ended_at is None), None)
     return {"running": running, "past": [c for c in charges if c is not running][:5]}
+
+
+def site_takes_water(site):
+    """Whether any battery of the site in use is ever watered (a site of sealed blocks only has no water to log)."""
+    return Battery.objects.filter(site=site, profile__watering_allowed=True).exclude(
+        status=Battery.Status.RETIRED).exists()

@@ -50,6 +50,7 @@ def today(request, code):
         response = render(request, "planner/today.html", {
             "site": site, "day": day, "supervisor": has_role(request.user, SUPERVISOR),
             "other_sites": [s for s in visible_sites(request.user).order_by("name") if s.pk != site.pk],
+            "takes_water": selectors.site_takes_water(site),
         })
     response.set_cookie(LAST_SITE_COOKIE, site.code, max_age=365 * 24 * 3600, samesite="Lax",
                         secure=request.is_secure(), httponly=True)

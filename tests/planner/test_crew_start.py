@@ -68,3 +68,11 @@ def test_a_screen_opened_by_search_shows_the_battery_large(crew_client, battery)
     html = crew_client.get(response["Location"]).content.decode()
     assert 'id="chosen-battery"' in html and "forklift FL-01" in html and "24 cells · 48 V · 775 Ah" in html
     assert 'id="chosen-battery"' not in crew_client.get(reverse("readings:inspect", args=[battery.pk])).content.decode()
+
+
+def test_a_site_of_sealed_blocks_offers_no_water_to_log(crew_client, battery, sealed_battery, care_site, site):
+    sealed_page = crew_client.get(f"/planner/{care_site.code}/today/").content.decode()
+    button = 'btn-lg" href="/readings/find/?then=water"'  # the page's own button (the menu keeps its link)
+    assert "Log a reading" in sealed_page and button not in sealed_page
+    flooded_page = crew_client.get(f"/planner/{site.code}/today/").content.decode()
+    assert button in flooded_page

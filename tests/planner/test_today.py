@@ -145,7 +145,7 @@ def test_todays_list_takes_a_fixed_number_of_queries(warehouse, traction_profile
     assert counts == QUERIES_FOR_TODAY
 
 
-QUERIES_FOR_TODAY = 21
+QUERIES_FOR_TODAY = 22
 
 
 def test_a_supervisor_also_gets_the_week_plan_and_crew_does_not(warehouse, client, crew, supervisor):
