@@ -44,10 +44,10 @@ from decimal import ROUND_HALF_UP, Decimal
 
 from fleetcare import words
 from fleetcare.care import cycles, wording
+from fleetcare.fleet.life import DAYS_PER_YEAR, design_life_days
 
 CENT = Decimal("0.01")
 MIN_RENEWAL = timedelta(days=30)
-DAYS_PER_YEAR = 365.25
 AGE, CYCLES, CAPACITY, SG_MEAN, SPREAD, CELLS = "age", "cycles", "capacity", "sg_mean", "spread", "cells"
 EVIDENCE_LABELS = {
     AGE: "Age against design life",
@@ -211,7 +211,7 @@ def fiscal_year_of(day, start_month=1):
 
 
 def add_years(day, years):
-    return day + timedelta(days=round(years * DAYS_PER_YEAR))
+    return day + timedelta(days=design_life_days(years))  # the design-life rule's own day count
 
 
 def horizon_end(today, years):
