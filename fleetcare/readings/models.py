@@ -249,6 +249,7 @@ class BatteryState(models.Model):
     post_charge_inspection = models.ForeignKey(Inspection, on_delete=models.SET_NULL, null=True, related_name="+",
                                                help_text="The latest current reading after a charge.")
     post_charge_at = models.DateTimeField(null=True)
+    first_post_charge_at = models.DateTimeField(null=True, help_text="The earliest current reading after a charge.")
     charge_count = models.PositiveIntegerField(default=0, help_text="Current readings after a charge, ever.")
     watered_at = models.DateTimeField(null=True, help_text="The latest current water top-up.")
 

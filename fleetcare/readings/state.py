@@ -9,7 +9,7 @@ the second computes from what the first committed.
 """
 from dataclasses import dataclass
 
-from django.db.models import Count, IntegerField, Max, OuterRef, Q, Subquery
+from django.db.models import Count, IntegerField, Max, Min, OuterRef, Q, Subquery
 from django.db.models.functions import Coalesce
 
 from fleetcare.fleet.models import Battery
@@ -77,6 +77,10 @@ def _computed(ids):
         counted = (Inspection.objects.current().filter(where, battery=OuterRef("pk")).order_by()
                    .values("battery").annotate(n=Count("pk")).values("n"))
         annotations[name] = Coalesce(Subquery(counted, output_field=IntegerField()), 0)
+    annotations["first_post_charge_at"] = Subquery(
+        Inspection.objects.current().filter(situation__in=POST_CHARGE, battery=OuterRef("pk")).order_by()
+        .values("battery").annotate(first=Min("taken_at")).values("first")
+    )
     annotations["watered_at"] = Subquery(
         WaterTopUp.objects.current().filter(battery=OuterRef("pk")).order_by().values("battery")
         .annotate(last=Max("done_at")).values("last")
@@ -87,7 +91,7 @@ def _computed(ids):
     inspections = {r["pk"]: r for r in Inspection.objects.filter(pk__in=wanted).values("pk", *copied)}
     out = {}
     for row in rows:
-        values = {name: row[name] for name in COUNTS} | {"watered_at": row["watered_at"]}
+        values = {name: row[name] for name in (*COUNTS, "first_post_charge_at", "watered_at")}
         for kind in KINDS:
             found = inspections.get(row[f"{kind.name}_inspection_id"])
             values[f"{kind.name}_inspection_id"] = found["pk"] if found else None
@@ -143,6 +147,9 @@ def absorb_inspection(inspection):
     if inspection.situation in POST_CHARGE:
         state.charge_count += 1
         changed.add("charge_count")
+        if state.first_post_charge_at is None or inspection.taken_at < state.first_post_charge_at:
+            state.first_post_charge_at = inspection.taken_at
+            changed.add("first_post_charge_at")
     if changed:
         state.save(update_fields=sorted(changed))
 

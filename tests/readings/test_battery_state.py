@@ -3,8 +3,10 @@ import datetime as dt
 import io
 import random
 from decimal import Decimal
+from importlib import import_module
 
 import pytest
+from django.apps import apps
 from django.core.management import call_command
 
 from fleetcare.fleet.models import Battery
@@ -87,7 +89,7 @@ def test_the_kept_state_equals_the_rebuild_after_any_sequence_of_writes(battery,
         assert state.differences([b.pk for b in batteries]) == {}, f"after step {step}: {action.__name__}"
     # The history really was varied: both batteries kept readings, some were corrected and removed.
     assert Inspection.objects.filter(is_current=False).exists() or Inspection.objects.filter(deleted_at__isnull=False).exists()
-    assert BatteryState.objects.filter(charge_count__gt=0).exists()
+    assert BatteryState.objects.filter(charge_count__gt=0, first_post_charge_at__isnull=False).exists()
 
 
 def test_the_state_names_the_latest_reading_of_each_kind(battery, supervisor):
@@ -111,11 +113,16 @@ def test_the_state_names_the_latest_reading_of_each_kind(battery, supervisor):
     assert kept.sg_spread == kept.post_charge_sg_spread == Decimal("0.020")
     assert kept.equalized_at == equalized.taken_at
     assert kept.charge_count == 2
+    assert kept.first_post_charge_at == equalized.taken_at and kept.post_charge_at == charged.taken_at
 
     services.remove_inspection(charged, user=supervisor, reason="wrong battery")
     kept.refresh_from_db()
     assert kept.soc_inspection == equalized and kept.charge_count == 1
     assert kept.latest_inspection == before
+
+    services.remove_inspection(equalized, user=supervisor, reason="wrong battery")
+    kept.refresh_from_db()
+    assert kept.charge_count == 0 and kept.first_post_charge_at is None
 
 
 def test_the_rebuild_command_finds_and_mends_a_state_that_drifted(battery, other_battery, supervisor):
@@ -162,4 +169,20 @@ def test_a_fleet_from_before_the_state_table_gets_its_state_after_migrating(batt
     kept = BatteryState.objects.get(battery=battery)
     assert {name: getattr(kept, name) for name in expected} == expected
     assert not BatteryState.objects.filter(battery=other_battery).exists()  # no history, nothing to keep
+    assert state.differences() == {}
+
+
+def test_state_rows_from_before_the_earliest_charge_was_kept_get_it_when_migrating(battery, other_battery, supervisor):
+    fill = import_module("fleetcare.readings.migrations.0013_first_post_charge_at").fill
+    rng = random.Random(5)
+    for _ in range(8):
+        record(rng, battery, supervisor)
+    record(rng, other_battery, supervisor)
+    expected = state.stored([battery.pk, other_battery.pk])
+    BatteryState.objects.update(first_post_charge_at=None)  # as the rows were before the field existed
+
+    fill(apps, schema_editor=None)
+
+    assert state.stored([battery.pk, other_battery.pk]) == expected
+    assert expected[battery.pk]["first_post_charge_at"] is not None
     assert state.differences() == {}
