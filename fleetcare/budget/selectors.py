@@ -1,13 +1,14 @@
 """Reads that feed the budget: the facts for every battery in a fixed number of queries, then the budget.
 
-Queries, whatever the fleet size: batteries (with profile, site and profile budget settings),
-capacity tests, post-charge readings in the trend window, logged charge counts, depth of discharge
-before charging, weak-cell findings; then the policy rows (budget and findings) and the assumptions row.
+Queries, whatever the fleet size: batteries (with profile, site, profile budget settings and the kept state,
+which holds the logged charge count and the first logged charge), capacity tests, post-charge readings in the
+trend window, depth of discharge before charging, weak-cell findings; then the policy rows (budget and findings)
+and the assumptions row.
 """
 from collections import defaultdict
 from datetime import datetime, time, timedelta
 
-from django.db.models import Avg, Count, Min
+from django.db.models import Avg, Count
 from django.utils import timezone
 
 from fleetcare import charts
@@ -59,7 +60,8 @@ DEFAULT_RULES = forecast.Rules()
 
 def battery_facts(batteries, today, rules=DEFAULT_RULES):
     """ServiceHistory for every battery in `batteries` that is not retired, oldest serial first."""
-    batteries = batteries.active().select_related("profile", "site", "profile__budget_settings").order_by("serial")
+    batteries = (batteries.active().select_related("profile", "site", "profile__budget_settings", "state")
+                 .order_by("serial"))
     rows = list(batteries)
     ids = batteries.values("pk")
 
@@ -79,10 +81,6 @@ def battery_facts(batteries, today, rules=DEFAULT_RULES):
             taken_on=taken_at.date(), sg_mean=_float(mean), sg_spread=_float(spread), lowest_position=lowest,
             sg_min=_float(low),
         ))
-    logged = {
-        row["battery_id"]: row
-        for row in post_charge.order_by().values("battery_id").annotate(n=Count("pk"), first=Min("taken_at"))
-    }
     weak = _weak_findings(batteries)
     depths = _measured_depths(ids, today, rules)
 
@@ -93,7 +91,7 @@ def battery_facts(batteries, today, rules=DEFAULT_RULES):
         price = settings.unit_price if settings is not None else None
         depth = settings.typical_depth_percent if settings is not None else None
         installation = settings.installation_cost if settings is not None else None
-        log = logged.get(b.pk)
+        kept = getattr(b, "state", None)  # no row: no readings yet
         found = weak.get(b.pk, {"cells": set(), "block": False, "because": ""})
         facts.append(forecast.ServiceHistory(
             battery_id=b.pk, serial=b.serial, site_code=b.site.code, site_name=b.site.name,
@@ -104,8 +102,8 @@ def battery_facts(batteries, today, rules=DEFAULT_RULES):
             weight_kg=profile.weight_kg, cell_count=profile.cell_count,
             traction_tray=profile.application == BatteryProfile.Application.TRACTION and profile.is_flooded,
             full_charge_sg=_float(profile.full_charge_sg),
-            logged_charges=log["n"] if log else 0,
-            first_logged_charge=log["first"].date() if log else None,
+            logged_charges=kept.charge_count if kept else 0,
+            first_logged_charge=kept.first_post_charge_at.date() if kept and kept.first_post_charge_at else None,
             capacity_tests=tuple(tests[b.pk]), post_charge=tuple(points[b.pk]),
             weak_cells=tuple(sorted(found["cells"])), failing_because=found["because"], weak_block=found["block"],
             measured_depth_percent=depths.get(b.pk), typical_depth_percent=_float(depth), installation=installation,

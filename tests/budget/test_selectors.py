@@ -8,9 +8,11 @@ from fleetcare.budget.models import CapacityTest, ProfileBudget
 from fleetcare.budget.services import record_rated_capacity_test
 from fleetcare.care.models import Finding
 from fleetcare.fleet.models import Battery
+from fleetcare.readings.models import Inspection
+from fleetcare.readings.services import remove_inspection
 from tests.budget.conftest import post_charge_readings
 
-QUERIES = 6  # batteries, capacity tests, post-charge readings, charge counts, depth before charge, findings
+QUERIES = 5  # batteries with their kept state, capacity tests, post-charge readings, depth before charge, findings
 
 
 def add_batteries(site, profile, user, count, start):
@@ -59,3 +61,16 @@ def test_a_cleared_finding_is_not_counted(battery):
                            last_seen_at=now, cleared_at=now)
     budget, _ = selectors.replacement_budget(Battery.objects.all())
     assert budget.forecasts[0].cell_option == () and budget.forecasts[0].facts.weak_cells == ()
+
+
+def test_the_logged_charges_and_the_first_follow_backfilled_and_removed_readings(battery, other_battery, supervisor):
+    today = timezone.localdate()
+    post_charge_readings(battery, supervisor, (9, 2))
+    post_charge_readings(battery, supervisor, (30, 40))  # typed in late, from the paper log
+    oldest = Inspection.objects.get(battery=battery, taken_at__lt=timezone.now() - dt.timedelta(days=35))
+    remove_inspection(oldest, user=supervisor, reason="another battery's sheet")
+    facts = {f.battery_id: f for f in selectors.battery_facts(Battery.objects.all(), today)}
+    thirty_days_ago = Inspection.objects.current().filter(battery=battery).earliest("taken_at").taken_at
+    assert facts[battery.pk].logged_charges == 3
+    assert facts[battery.pk].first_logged_charge == thirty_days_ago.date()
+    assert (facts[other_battery.pk].logged_charges, facts[other_battery.pk].first_logged_charge) == (0, None)
