@@ -10,7 +10,7 @@ from collections import defaultdict
 from datetime import timedelta
 
 from django.db import connection, transaction
-from django.db.models import Count, Exists, F, Max, Min, OuterRef, Subquery
+from django.db.models import Count, Exists, F, Max, Min, OuterRef
 from django.db.models.expressions import Window
 from django.db.models.functions import RowNumber
 from django.utils import timezone
@@ -88,12 +88,42 @@ def _with_cells(rows):
     return [rules.Reading(*row, cells=tuple(cells[row[0]])) for row in rows]
 
 
+# Read with the batteries from their kept state (fleetcare.readings.state): no query over each battery's history.
+KEPT = {
+    "kept_last_charge_at": F("state__post_charge_at"),
+    "kept_first_charge_at": F("state__first_post_charge_at"),
+    "kept_charges": F("state__charge_count"),
+    "kept_last_top_up_at": F("state__watered_at"),
+}
+
+
+def _charges_and_last_top_up(battery_list, data, ids, now):
+    """Post-charge readings logged (first, last, how many) and the last top-up, as of `now`.
+
+    The kept state covers all history. Readings later than the present are refused, so it answers for `now`
+    whenever nothing it holds is later than `now`. Only a pass run for an earlier moment than a battery's
+    latest charge or top-up (tests and replays of a past day) counts from history up to `now` instead:
+    two queries more, still fixed whatever the fleet size."""
+    if not any(t is not None and t > now for b in battery_list for t in (b.kept_last_charge_at, b.kept_last_top_up_at)):
+        for b in battery_list:
+            d = data[b.pk]
+            d.last_charge_at, d.first_charge_at = b.kept_last_charge_at, b.kept_first_charge_at
+            d.charges_logged, d.last_top_up_at = b.kept_charges or 0, b.kept_last_top_up_at
+        return
+    stats = (Inspection.objects.current().post_charge().filter(battery_id__in=ids, taken_at__lte=now)
+             .order_by().values("battery_id").annotate(last=Max("taken_at"), first=Min("taken_at"), n=Count("*")))
+    for row in stats:
+        d = data[row["battery_id"]]
+        d.last_charge_at, d.first_charge_at, d.charges_logged = row["last"], row["first"], row["n"]
+    top_ups = (WaterTopUp.objects.current().filter(battery_id__in=ids, done_at__lte=now)
+               .order_by().values("battery_id").annotate(last=Max("done_at")))
+    for row in top_ups:
+        data[row["battery_id"]].last_top_up_at = row["last"]
+
+
 def load(batteries, now):
     """ReadingHistory for every battery in the queryset, in a fixed number of queries."""
-    last_top_up = (WaterTopUp.objects.current().filter(battery_id=OuterRef("pk"), done_at__lte=now)
-                   .order_by("-done_at").values("done_at")[:1])
-    battery_list = list(batteries.select_related("profile", "site").annotate(last_top_up_at=Subquery(last_top_up))
-                        .order_by("pk"))
+    battery_list = list(batteries.select_related("profile", "site").annotate(**KEPT).order_by("pk"))
     if not battery_list:
         return []
     ids = _battery_ids(batteries)
@@ -130,12 +160,7 @@ def load(batteries, now):
         reading = rules.Reading(*row)
         data[reading.battery_id].recent.append(reading)
 
-    stats = (Inspection.objects.current().post_charge().filter(battery_id__in=ids, taken_at__lte=now)
-             .order_by().values("battery_id").annotate(last=Max("taken_at"), first=Min("taken_at"), n=Count("*")))
-    for row in stats:
-        data[row["battery_id"]].last_charge_at = row["last"]
-        data[row["battery_id"]].first_charge_at = row["first"]
-        data[row["battery_id"]].charges_logged = row["n"]
+    _charges_and_last_top_up(battery_list, data, ids, now)
 
     # Only "low" reports matter, and only while no later reading of that cell says OK: start from the
     # (rare, partially indexed) low reports instead of ranking every cell reading in the history.
@@ -163,8 +188,6 @@ def load(batteries, now):
     top_ups = WaterTopUp.objects.current().filter(battery_id__in=ids, done_at__lte=now)
     for top_up in top_ups.filter(done_at__gte=since).order_by("-done_at"):
         data[top_up.battery_id].top_ups.append(top_up)
-    for b in battery_list:
-        data[b.pk].last_top_up_at = b.last_top_up_at
 
     planning = list(PlanningPolicy.objects.select_related("site", "profile"))
     window_start = now - timedelta(days=due.CHARGE_WINDOW_DAYS)

@@ -7,7 +7,7 @@ import pytest
 from django.db import connection
 from django.test.utils import CaptureQueriesContext
 
-from fleetcare.care.detection import detect_fleet
+from fleetcare.care.detection import detect_fleet, load
 from fleetcare.care.models import Finding
 from fleetcare.fleet.models import Battery, Fitting, Vehicle
 from tests.care.helpers import inspect, sgs, water
@@ -73,3 +73,26 @@ def test_a_fleet_four_times_larger_takes_the_same_number_of_queries(site, care_s
     assert large_rerun == small_rerun
     # reads are fixed; only SQLite's parameter limit splits the first run's INSERT of new findings
     assert large_first - insert_batches(len(large)) == small_first - insert_batches(len(small))
+
+
+def test_a_pass_for_an_earlier_moment_counts_only_what_was_logged_by_then(battery, crew, now):
+    for days in (30, 20, 10):
+        inspect(battery, crew, now - days * DAY)
+    inspect(battery, crew, now - 5 * DAY, situation="before_charge", scope="pilot", cells={1: Decimal("1.160")})
+    water(battery, crew, now - 25 * DAY, 9000)
+    water(battery, crew, now - 15 * DAY, 9000)
+
+    [today] = load(Battery.objects.filter(pk=battery.pk), now)
+    assert (today.charges_logged, today.first_charge_at, today.last_charge_at) == (3, now - 30 * DAY, now - 10 * DAY)
+    assert today.last_top_up_at == now - 15 * DAY
+
+    [back_then] = load(Battery.objects.filter(pk=battery.pk), now - 18 * DAY)
+    assert (back_then.charges_logged, back_then.first_charge_at, back_then.last_charge_at) == (2, now - 30 * DAY,
+                                                                                                 now - 20 * DAY)
+    assert back_then.last_top_up_at == now - 25 * DAY
+
+
+def test_a_battery_with_no_readings_has_no_charges_logged(battery, now):
+    [history] = load(Battery.objects.filter(pk=battery.pk), now)
+    assert (history.charges_logged, history.first_charge_at, history.last_charge_at, history.last_top_up_at) == (
+        0, None, None, None)
