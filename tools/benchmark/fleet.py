@@ -1,4 +1,4 @@
-"""A synthetic fleet on PostgreSQL: three years of weekly all-cell and daily pilot-cell readings per battery.
+"""A synthetic fleet on PostgreSQL: years of weekly all-cell and daily pilot-cell readings per battery (three by default).
 
 The few hundred fleet rows go through the ORM; the millions of reading rows are made by PostgreSQL
 itself (generate_series), with the summary fields computed by SQL expressions equal to
@@ -27,7 +27,7 @@ from fleetcare.readings import state
 from fleetcare.readings.models import CellReading, Inspection
 from fleetcare.readings.services import CellEntry, build_cells, summarise
 
-DAYS = 3 * 365
+DAYS = 3 * 365  # the default history; build(days=...) makes another length
 CELLS = 24
 BATTERIES_PER_SITE = 100
 PASSWORD = "bench-only-password-7"
@@ -42,8 +42,8 @@ TABLES = [
 class Fleet:
     """What a generated fleet consists of, for the measurements."""
 
-    def __init__(self, size, sites, profile, supervisor, crew, manager, batteries, inspections, cells):
-        self.size, self.sites, self.profile = size, sites, profile
+    def __init__(self, size, sites, profile, supervisor, crew, manager, batteries, inspections, cells, days=DAYS):
+        self.size, self.sites, self.profile, self.days = size, sites, profile, days
         self.supervisor, self.crew, self.manager = supervisor, crew, manager
         self.batteries, self.inspections, self.cells = batteries, inspections, cells
 
@@ -56,8 +56,8 @@ def reset():
         cursor.execute(f"TRUNCATE {', '.join(tables)} RESTART IDENTITY CASCADE")
 
 
-def build(size, user_model):
-    """Generate a fleet of `size` 24-cell batteries with DAYS days of readings up to yesterday."""
+def build(size, user_model, days=DAYS):
+    """Generate a fleet of `size` 24-cell batteries with `days` days of readings up to yesterday."""
     reset()
     rng = random.Random(size)
     groups = ensure_groups()
@@ -71,7 +71,10 @@ def build(size, user_model):
         monoblocks=1, cells_per_block=CELLS, capacity_ah=775, full_charge_sg=Decimal("1.290"),
         discharged_sg=Decimal("1.140"), unit_price=Decimal("7800"), weight_kg=Decimal("1350"),
     )
-    start = (timezone.now() - dt.timedelta(days=DAYS)).replace(hour=0, minute=0, second=0, microsecond=0)
+    start = (timezone.now() - dt.timedelta(days=days)).replace(hour=0, minute=0, second=0, microsecond=0)
+    # Ages and wear are counted from DAYS before today whatever the history's length, so fleets with
+    # one, three or six years of history look the same today and differ only in how much lies behind.
+    recent_start = (timezone.now() - dt.timedelta(days=DAYS)).replace(hour=0, minute=0, second=0, microsecond=0)
     sites, rooms = [], []
     for n in range(math.ceil(size / BATTERIES_PER_SITE)):
         site = Site.objects.create(name=f"Bench warehouse {n + 1}", code=f"bench-{n + 1}", timezone="UTC",
@@ -84,7 +87,7 @@ def build(size, user_model):
     batteries = Battery.objects.bulk_create([
         Battery(serial=f"B{n + 1:05d}", profile=profile, site=sites[n // BATTERIES_PER_SITE],
                 charging_room=rooms[n // BATTERIES_PER_SITE],
-                in_service_date=(start - dt.timedelta(days=rng.randint(0, 700))).date(),
+                in_service_date=(recent_start - dt.timedelta(days=rng.randint(0, 700))).date(),
                 status=Battery.Status.SPARE if n % 10 == 9 else Battery.Status.IN_SERVICE)
         for n in range(size)
     ])
@@ -94,22 +97,24 @@ def build(size, user_model):
     ])
     in_service = [b for b in batteries if b.status == Battery.Status.IN_SERVICE]
     Fitting.objects.bulk_create([Fitting(battery=b, vehicle=v, fitted_at=start) for b, v in zip(in_service, vehicles)])
-    inspections, cells = _readings(start, profile, users[CREW])
-    _top_ups(start, users[CREW])
-    state.rebuild()
+    inspections, cells = _readings(start, profile, users[CREW], days)
+    _top_ups(start, users[CREW], days)
+    with transaction.atomic():  # the rebuild locks the battery rows it recomputes
+        state.rebuild()
     # A steady-state database, not a freshly loaded one: set hint bits and the visibility map, refresh
     # statistics (VACUUM cannot run inside a transaction, as in a test: there only ANALYZE).
     command = "ANALYZE" if connection.in_atomic_block else "VACUUM ANALYZE"
     with connection.cursor() as cursor:
         for table in ("readings_inspection", "readings_cellreading", "readings_watertopup", "readings_batterystate", "fleet_battery", "fleet_fitting"):
             cursor.execute(f"{command} {table}")
-    return Fleet(size, sites, profile, users[SUPERVISOR], users[CREW], users[MANAGER], batteries, inspections, cells)
+    return Fleet(size, sites, profile, users[SUPERVISOR], users[CREW], users[MANAGER], batteries, inspections, cells,
+                 days)
 
 
-def _readings(start, profile, crew):
+def _readings(start, profile, crew, days):
     """Weekly all-cell readings after charge, daily pilot-cell readings before charge, all in SQL."""
     params = {
-        "start": start, "days": DAYS, "cells": CELLS, "crew": crew.pk, "weak_every": WEAK_EVERY,
+        "start": start, "days": days, "shift": days - DAYS, "cells": CELLS, "crew": crew.pk, "weak_every": WEAK_EVERY,
         "ref": profile.sg_reference_temp_c, "coef": profile.sg_coefficient_per_c,
         "full": profile.full_charge_sg, "empty": profile.discharged_sg, "chosen_via": Inspection.ChosenVia.UNKNOWN.value,
     }
@@ -138,10 +143,10 @@ def _readings(start, profile, crew):
             FROM (
                 SELECT p.id, c.position, p.temp,
                        least(1.320, greatest(1.100, round((
-                           %(full)s - 0.00002 * p.d
+                           %(full)s - 0.00002 * (p.d - %(shift)s)
                            + (((p.k * 31 + c.position * 17) %% 9) - 4) * 0.001
                            + (random() - 0.5) * 0.004
-                           - CASE WHEN p.k %% %(weak_every)s = 0 AND c.position = 9 THEN 0.00005 * p.d ELSE 0 END
+                           - CASE WHEN p.k %% %(weak_every)s = 0 AND c.position = 9 THEN 0.00005 * greatest(0, p.d - %(shift)s) ELSE 0 END
                            - CASE WHEN p.scope = 'pilot'
                                   THEN (%(full)s - %(empty)s) * (0.25 + 0.5 * ((p.k * 13 + p.d * 7) %% 100) / 100.0)
                                   ELSE 0 END
@@ -201,7 +206,7 @@ BEHIND_MEDIAN_SQL = """
 """
 
 
-def _top_ups(start, crew):
+def _top_ups(start, crew, days):
     """Weekly water after charge, about 150 mL a cell."""
     with connection.cursor() as cursor:
         cursor.execute("""
@@ -211,7 +216,7 @@ def _top_ups(start, crew):
                    (3600 + (b.id * 37 + w * 11) %% 600)::numeric(8, 1), '', false, 'distilled', '',
                    md5('bench-water-' || b.id || '-' || w)::uuid, now(), NULL, ''
             FROM fleet_battery b CROSS JOIN generate_series(0, %(weeks)s - 1) AS w
-        """, {"start": start, "crew": crew.pk, "weeks": DAYS // 7})
+        """, {"start": start, "crew": crew.pk, "weeks": days // 7})
 
 
 def verify_sample(count=300, seed=7):

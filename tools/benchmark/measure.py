@@ -196,6 +196,34 @@ def site_plan(fleet, repeat):
     return {"ms": median_ms(get, max(1, repeat // 2)), "queries": query_count(get), "path": path}
 
 
+def battery_list(fleet, repeat):
+    """The supervisor's battery list, first page, every site."""
+    get = page(fleet.supervisor, reverse("fleet:batteries"))
+    return {"ms": median_ms(get, repeat), "queries": query_count(get)}
+
+
+def today(fleet, repeat):
+    """A site's work for today, as the crew opens it."""
+    path = reverse("planner:today", args=[fleet.sites[0].code])
+    get = page(fleet.crew, path)
+    return {"ms": median_ms(get, repeat), "queries": query_count(get), "path": path}
+
+
+def api_status(fleet, repeat):
+    """The API's status of one battery (what a tablet asks before a reading)."""
+    battery = Battery.objects.order_by("serial").first()
+    path = f"/api/batteries/{battery.pk}/status"
+    get = page(fleet.crew, path)
+    return {"ms": median_ms(get, repeat), "queries": query_count(get), "path": path}
+
+
+def budget_page(fleet, repeat):
+    """The manager's replacement budget page."""
+    path = reverse("budget:home")
+    get = page(fleet.manager, path)
+    return {"ms": median_ms(get, max(1, repeat // 2)), "queries": query_count(get), "path": path}
+
+
 def budget_export(fleet, repeat):
     """The manager's replacement budget as XLSX."""
     path = reverse("budget:export_xlsx")
@@ -237,6 +265,7 @@ def csv_import(fleet, batteries=100, readings_each=20, first_minute=1):
         cursor.execute("SELECT coalesce(max(id), 0) + 1000000 FROM readings_inspection")
         next_id = cursor.fetchone()[0]
     ids = {}
+    chosen_via = Inspection.ChosenVia.UNKNOWN.value
     for serial, taken, situation, position, sg, temp, _, level in rows:
         key = (serial, taken)
         if key not in ids:
@@ -245,14 +274,15 @@ def csv_import(fleet, batteries=100, readings_each=20, first_minute=1):
             battery = by_serial[serial]
             inspections_csv.write(
                 f"{ids[key]}\t{battery.pk}\t{taken}\t{fleet.crew.pk}\t{situation}\tall\t{temp}\tf\t\\N\tImported from CSV\t"
-                f"{uuid.uuid4()}\t1.280\t1.270\t1.294\t0.024\t1\t\\N\t93.3\tsg\tt\t\\N\t\t{taken}\t\\N\t\\N\n"
+                f"{uuid.uuid4()}\t1.280\t1.270\t1.294\t0.024\t1\t\\N\t93.3\tsg\tt\t\\N\t\t{taken}\t\\N\t\\N\t{chosen_via}\t\t0.0120\n"
             )
         corrected = (Decimal(sg) + Decimal("0.0007") * (Decimal(temp) - 25)).quantize(Decimal("0.001"))
         cells_csv.write(f"{ids[key]}\t{position}\t{sg}\t{corrected}\t\\N\t\\N\t{level}\n")
     inspection_columns = (
         "id, battery_id, taken_at, taken_by_id, situation, scope, temp_c, hydrometer_compensated, hours_since_charge, "
         "notes, client_uuid, sg_mean, sg_min, sg_max, sg_spread, lowest_position, volts_total, soc_percent, soc_basis, "
-        "is_current, supersedes_id, revision_reason, recorded_at, deleted_at, deleted_by_id, chosen_via"
+        "is_current, supersedes_id, revision_reason, recorded_at, deleted_at, deleted_by_id, chosen_via, client_digest, "
+        "sg_behind_median"
     )
 
     first_id = min(ids.values())

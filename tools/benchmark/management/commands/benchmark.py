@@ -1,11 +1,15 @@
-"""python manage.py benchmark [--batteries 100 1000] [--json FILE]: FleetCare at fleet scale, beside references.
+"""python manage.py benchmark [--fleets 10000x1 1000x3 1000x6] [--json FILE]: FleetCare at fleet scale, beside references.
 
-Runs only on PostgreSQL, in a database of its own (fc_bench by default) that it drops and creates
-again, so the database named by DATABASE_URL is never touched. See docs/benchmarks.md.
+Each fleet (batteries x years of history) is generated on PostgreSQL in a database of its own
+(fc_bench_<batteries>x<years> by default), which is dropped and created again, so the database named
+by DATABASE_URL is never touched. The pages and commands are then timed in rounds that visit every
+fleet in turn, so the history-doubling pair (1,000 batteries with three and with six years) is
+measured side by side rather than minutes apart. See docs/benchmarks.md.
 """
 import json
 import os
 import platform
+import statistics
 import time
 import traceback
 
@@ -20,50 +24,82 @@ from django.utils import timezone
 from tools.benchmark import fleet as fleet_data
 from tools.benchmark import measure
 
-DASHBOARD_TARGET_MS = 300
-DASHBOARD_TARGET_RATIO = 2.0
-IMPORT_TARGET_RATIO = 0.30
+# The targets, as the work asks for them (docs/benchmarks.md).
+OVERVIEW_TARGET_MS = 300  # at the largest fleet
+OVERVIEW_TARGET_RATIO = 1.5  # of the hand-written SQL reference
+HISTORY_GROWTH_TARGET = 1.15  # time with twice the history / time with the history
+BUDGET_TARGET_MS = {1000: 1000, 10000: 5000}  # budget page and XLSX, by fleet size
+FINDINGS_TARGET_MS = {10000: 2000}
+IMPORT_TARGET_RATIO = 0.50  # of committed COPY (measured at 1 M rows by tools/import_scale.py)
+
+PAGES = ("dashboard", "battery_list", "battery_record", "today", "api_status", "site_plan", "findings_pass",
+         "budget_page", "budget_export")
+
+
+def fleet_spec(text):
+    try:
+        batteries, years = (int(part) for part in text.lower().split("x"))
+    except ValueError:
+        raise CommandError(f"a fleet is written batteries x years, for example 1000x3, not {text!r}") from None
+    if batteries < 1 or years < 1:
+        raise CommandError(f"a fleet needs at least one battery and one year: {text!r}")
+    return batteries, years
 
 
 class Command(BaseCommand):
-    help = "Generate synthetic fleets on PostgreSQL and time the dashboard, battery record, findings, plan, budget and CSV import."
+    help = ("Generate synthetic fleets on PostgreSQL and time the overview, battery list and record, today's work, "
+            "API status, week plan, findings pass, budget page and export and the CSV import.")
 
     def add_arguments(self, parser):
-        parser.add_argument("--batteries", nargs="+", type=int, default=[100, 1000], help="Fleet sizes (default 100 1000).")
+        parser.add_argument("--fleets", nargs="+", type=fleet_spec, default=[(10000, 1), (1000, 3), (1000, 6)],
+                            help="Fleets as batteries x years of history (default 10000x1 1000x3 1000x6).")
         parser.add_argument("--json", dest="json_path", help="Also write the results as JSON to this file.")
-        parser.add_argument("--repeat", type=int, default=7, help="Timed runs per page; the median is reported (default 7).")
-        parser.add_argument("--database", default="fc_bench", help="Database to drop, create and fill (default fc_bench).")
-        parser.add_argument("--keep", action="store_true", help="Leave the benchmark database in place afterwards.")
+        parser.add_argument("--repeat", type=int, default=7, help="Timed runs per page and round; the median counts (default 7).")
+        parser.add_argument("--rounds", type=int, default=2, help="Rounds over all fleets; the median of the rounds counts (default 2).")
+        parser.add_argument("--database", default="fc_bench", help="Prefix of the databases to drop, create and fill (default fc_bench).")
+        parser.add_argument("--keep", action="store_true", help="Leave the benchmark databases in place afterwards.")
         parser.add_argument("--verify", type=int, default=300, help="Inspections whose SQL summary is rechecked in Python.")
+        parser.add_argument("--skip-import", action="store_true", help="Leave out the CSV import measurement.")
 
-    def handle(self, *args, batteries, json_path, repeat, database, keep, verify, **options):
+    def handle(self, *args, fleets, json_path, repeat, rounds, database, keep, verify, skip_import, **options):
         if connection.vendor != "postgresql":
             raise CommandError(
                 "The benchmark runs on PostgreSQL only (its fleet is generated with PostgreSQL SQL and measured against "
-                "COPY). Set DATABASE_URL=postgres://... ; it works in its own database, --database (default fc_bench)."
+                "COPY). Set DATABASE_URL=postgres://... ; it works in databases of its own, --database (default fc_bench)."
             )
         original = connection.settings_dict["NAME"]
-        if database == original:
-            raise CommandError(f"--database {database} is the configured database; choose another name, it is dropped.")
-        self._recreate(database)
+        names = {spec: f"{database}_{spec[0]}x{spec[1]}" for spec in fleets}
+        if original in names.values():
+            raise CommandError(f"{original} is the configured database; choose another --database prefix, it is dropped.")
         results = {
             "date": timezone.now().isoformat(timespec="seconds"),
             "machine": {"cpus": os.cpu_count(), "platform": platform.platform(), "python": platform.python_version()},
-            "database": database, "repeat": repeat, "sizes": {},
+            "repeat": repeat, "rounds": rounds, "fleets": {},
         }
+        built = {}
         try:
-            self._use(database)
-            call_command("migrate", verbosity=0, interactive=False)
-            with connection.cursor() as cursor:
-                cursor.execute("SHOW server_version")
-                results["machine"]["postgresql"] = cursor.fetchone()[0]
             with override_settings(DEBUG=False):
-                for size in batteries:
-                    results["sizes"][str(size)] = self._one_size(size, repeat, verify)
+                for spec in fleets:
+                    built[spec] = self._build(spec, names[spec], verify, results)
+                timings = {spec: {part: [] for part in PAGES} for spec in fleets}
+                for round_number in range(1, rounds + 1):
+                    for spec in fleets:
+                        self.stderr.write(f"== round {round_number}: {spec[0]} batteries x {spec[1]} years")
+                        self._use(names[spec])
+                        self._measure(built[spec], repeat, timings[spec])
+                for spec in fleets:
+                    out = results["fleets"][label(spec)]
+                    for part, runs in timings[spec].items():
+                        out[part] = combine(runs)
+                    if not skip_import:
+                        self._use(names[spec])
+                        self.stderr.write(f"== CSV import into {spec[0]} batteries x {spec[1]} years")
+                        out["csv_import"] = attempt(lambda: measure.csv_import(built[spec]))
         finally:
             self._use(original)
             if not keep:
-                self._drop(database)
+                for name in names.values():
+                    self._drop(name)
         results["targets"] = targets(results)
         self.stdout.write(table(results))
         if json_path:
@@ -73,31 +109,29 @@ class Command(BaseCommand):
         else:
             self.stdout.write(json.dumps(results, indent=2, default=str))
 
-    def _one_size(self, size, repeat, verify):
-        self.stderr.write(f"== {size} batteries: generating three years of readings")
+    def _build(self, spec, name, verify, results):
+        batteries, years = spec
+        self._recreate(name)
+        self._use(name)
+        call_command("migrate", verbosity=0, interactive=False)
+        with connection.cursor() as cursor:
+            cursor.execute("SHOW server_version")
+            results["machine"]["postgresql"] = cursor.fetchone()[0]
+        self.stderr.write(f"== {batteries} batteries: generating {years} year(s) of readings in {name}")
         started = time.perf_counter()
-        fleet = fleet_data.build(size, get_user_model())
-        result = {
-            "batteries": size, "inspections": fleet.inspections, "cell_readings": fleet.cells,
-            "generate_s": round(time.perf_counter() - started, 1),
-        }
+        fleet = fleet_data.build(batteries, get_user_model(), days=365 * years)
         checked, mismatches = fleet_data.verify_sample(verify)
-        result["summary_check"] = {"checked": checked, "mismatches": len(mismatches), "examples": mismatches[:5]}
-        parts = [
-            ("dashboard", lambda: measure.dashboard(fleet, repeat)),
-            ("battery_record", lambda: measure.battery_record(fleet, repeat)),
-            ("findings_pass", lambda: measure.findings_pass(fleet, repeat)),
-            ("site_plan", lambda: measure.site_plan(fleet, repeat)),
-            ("budget_export", lambda: measure.budget_export(fleet, repeat)),
-            ("csv_import", lambda: measure.csv_import(fleet)),
-        ]
-        for name, run in parts:
-            self.stderr.write(f"   {name}")
-            try:
-                result[name] = rounded(run())
-            except Exception as exc:  # a broken feature is reported, and the other parts still run
-                result[name] = {"error": f"{type(exc).__name__}: {exc}", "trace": traceback.format_exc(limit=4)}
-        return result
+        results["fleets"][label(spec)] = {
+            "batteries": batteries, "years": years, "database": name, "inspections": fleet.inspections,
+            "cell_readings": fleet.cells, "generate_s": round(time.perf_counter() - started, 1),
+            "summary_check": {"checked": checked, "mismatches": len(mismatches), "examples": mismatches[:5]},
+        }
+        return fleet
+
+    def _measure(self, fleet, repeat, into):
+        for part in PAGES:
+            self.stderr.write(f"   {part}")
+            into[part].append(attempt(lambda: getattr(measure, part)(fleet, repeat)))
 
     def _admin(self):
         params = connection.get_connection_params()
@@ -130,55 +164,102 @@ class Command(BaseCommand):
         connection.settings_dict["NAME"] = name
 
 
+def label(spec):
+    return f"{spec[0]}x{spec[1]}"
+
+
+def attempt(run):
+    """A part's figures, or its error: a broken feature is reported, and the other parts still run."""
+    try:
+        return rounded(run())
+    except Exception as exc:
+        return {"error": f"{type(exc).__name__}: {exc}", "trace": traceback.format_exc(limit=4)}
+
+
+def combine(runs):
+    """One part's rounds as one figure: the median of the rounds' medians (each round is a median of runs)."""
+    good = [r for r in runs if "error" not in r]
+    if not good:
+        return runs[-1] if runs else {"error": "not measured"}
+    out = dict(good[-1])
+    out["rounds_ms"] = [r["ms"] for r in good]
+    out["ms"] = round(statistics.median(out["rounds_ms"]), 1)
+    if all("reference_ms" in r for r in good):
+        out["reference_rounds_ms"] = [r["reference_ms"] for r in good]
+        out["reference_ms"] = round(statistics.median(out["reference_rounds_ms"]), 1)
+    return out
+
+
 def rounded(values):
     return {k: (round(v, 3) if k.endswith("ratio") else round(v, 1)) if isinstance(v, float) else v for k, v in values.items()}
 
 
 def targets(results):
-    """The issue's targets, judged on the largest fleet measured (and across sizes for query counts)."""
-    sizes = results["sizes"]
-    if not sizes:
-        return {}
-    largest = sizes[max(sizes, key=int)]
+    """Each target of docs/benchmarks.md judged on the fleets measured: {name: (met, what was measured)}."""
+    fleets = results["fleets"]
     verdict = {}
+    if not fleets:
+        return verdict
+    largest_label = max(fleets, key=lambda k: (fleets[k]["batteries"], -fleets[k]["years"]))
+    largest = fleets[largest_label]
     dash = largest.get("dashboard", {})
     if "ms" in dash:
-        verdict["dashboard_under_300_ms"] = dash["ms"] < DASHBOARD_TARGET_MS
-        verdict["dashboard_within_2x_sql"] = dash["ms"] <= DASHBOARD_TARGET_RATIO * dash["reference_ms"]
-    imp = largest.get("csv_import", {})
-    if "ratio" in imp:
-        verdict["import_at_least_30pct_of_copy"] = imp["ratio"] >= IMPORT_TARGET_RATIO
-    for part in ("dashboard", "battery_record", "findings_pass", "site_plan", "budget_export"):
-        counts = {s: r.get(part, {}).get("queries") for s, r in sizes.items()}
-        if len(counts) > 1 and all(c is not None for c in counts.values()):
-            verdict[f"{part}_queries_constant"] = len(set(counts.values())) == 1
+        verdict[f"overview at {largest['batteries']:,} batteries within {OVERVIEW_TARGET_MS} ms"] = (
+            dash["ms"] <= OVERVIEW_TARGET_MS, f"{dash['ms']:.0f} ms")
+        verdict[f"overview within {OVERVIEW_TARGET_RATIO}x its SQL reference"] = (
+            dash["ms"] <= OVERVIEW_TARGET_RATIO * dash["reference_ms"],
+            f"{dash['ms'] / dash['reference_ms']:.2f}x ({dash['reference_ms']:.0f} ms of SQL)")
+    for short_label, short in fleets.items():
+        for long_label, long in fleets.items():
+            if long["batteries"] != short["batteries"] or long["years"] != 2 * short["years"]:
+                continue
+            for part in PAGES:
+                a, b = short.get(part, {}), long.get(part, {})
+                if "ms" in a and "ms" in b:
+                    name = f"{part}: {short_label} -> {long_label} history"
+                    verdict[name + f" within {HISTORY_GROWTH_TARGET}x"] = (
+                        b["ms"] <= HISTORY_GROWTH_TARGET * a["ms"], f"{a['ms']:.0f} -> {b['ms']:.0f} ms ({b['ms'] / a['ms']:.2f}x)")
+                    verdict[name + " same queries"] = (a["queries"] == b["queries"], f"{a['queries']} -> {b['queries']}")
+    for fleet_label, fleet in fleets.items():
+        size, years = fleet["batteries"], fleet["years"]
+        limit = BUDGET_TARGET_MS.get(size)
+        if limit is not None and (size != 1000 or years == 3):
+            for part in ("budget_page", "budget_export"):
+                if "ms" in fleet.get(part, {}):
+                    verdict[f"{part} at {fleet_label} within {limit} ms"] = (fleet[part]["ms"] <= limit, f"{fleet[part]['ms']:.0f} ms")
+        limit = FINDINGS_TARGET_MS.get(size)
+        if limit is not None and "ms" in fleet.get("findings_pass", {}):
+            verdict[f"findings_pass at {fleet_label} within {limit} ms"] = (
+                fleet["findings_pass"]["ms"] <= limit, f"{fleet['findings_pass']['ms']:.0f} ms")
     return verdict
 
 
 def table(results):
     lines = [f"FleetCare benchmark {results['date']} · {results['machine'].get('cpus')} CPUs · PostgreSQL "
-             f"{results['machine'].get('postgresql', '?')} · median of {results['repeat']}"]
-    head = f"{'batteries':>9}  {'part':<15} {'ms':>9} {'queries':>8}  reference"
+             f"{results['machine'].get('postgresql', '?')} · median of {results['rounds']} rounds of "
+             f"{results['repeat']} runs (heavy parts {max(1, results['repeat'] // 2)})"]
+    head = f"{'fleet':>9}  {'part':<15} {'ms':>9} {'queries':>8}  rounds / reference"
     lines += [head, "-" * len(head)]
-    for size, r in results["sizes"].items():
-        lines.append(f"{size:>9}  {'data':<15} {r['inspections']:,} inspections, {r['cell_readings']:,} cell readings, "
+    for name, r in results["fleets"].items():
+        lines.append(f"{name:>9}  {'data':<15} {r['inspections']:,} inspections, {r['cell_readings']:,} cell readings, "
                      f"generated in {r['generate_s']} s; summary check {r['summary_check']['mismatches']} wrong of "
                      f"{r['summary_check']['checked']}")
-        for part in ("dashboard", "battery_record", "findings_pass", "site_plan", "budget_export"):
+        for part in PAGES:
             v = r.get(part, {})
             if "error" in v:
-                lines.append(f"{size:>9}  {part:<15} {'ERROR':>9}           {v['error']}")
-            else:
-                ref = f"SQL {v['reference_ms']} ms ({v['ms'] / v['reference_ms']:.1f}x)" if "reference_ms" in v else ""
-                lines.append(f"{size:>9}  {part:<15} {v['ms']:>9} {v['queries']:>8}  {ref}")
+                lines.append(f"{name:>9}  {part:<15} {'ERROR':>9}           {v['error']}")
+            elif "ms" in v:
+                ref = f"; SQL {v['reference_ms']} ms ({v['ms'] / v['reference_ms']:.2f}x)" if "reference_ms" in v else ""
+                lines.append(f"{name:>9}  {part:<15} {v['ms']:>9} {v['queries']:>8}  {v.get('rounds_ms')}{ref}")
         v = r.get("csv_import", {})
         if "ratio" in v:
-            lines.append(f"{size:>9}  {'csv_import':<15} {v['import_cells_per_s']:>9,.0f} cells/s on {v['cells']:,} cells;"
+            lines.append(f"{name:>9}  {'csv_import':<15} {v['import_cells_per_s']:>9,.0f} cells/s on {v['cells']:,} cells;"
                          f" COPY (committed) {v['copy_cells_per_s']:,.0f} cells/s; import = {v['ratio'] * 100:.0f} % of COPY")
             lines.append(f"{'':>9}  {'':<15} of {v['import_ms']:,.0f} ms: parse+check+store {v['parse_and_store_ms']:,.0f} ms,"
-                         f" commit {v['commit_ms']:,.0f} ms (so far {v['without_findings_ratio'] * 100:.0f} % of COPY),"
-                         f" findings pass {v['findings_ms']:,.0f} ms")
-        else:
-            lines.append(f"{size:>9}  {'csv_import':<15} {v}")
-    lines.append("targets: " + ", ".join(f"{k}={'met' if ok else 'MISSED'}" for k, ok in results.get("targets", {}).items()))
+                         f" commit {v['commit_ms']:,.0f} ms, after commit {v['findings_ms']:,.0f} ms")
+        elif v:
+            lines.append(f"{name:>9}  {'csv_import':<15} {v}")
+    lines.append("targets:")
+    for name, (ok, measured) in results.get("targets", {}).items():
+        lines.append(f"  {'met   ' if ok else 'MISSED'}  {name}: {measured}")
     return "\n".join(lines)
