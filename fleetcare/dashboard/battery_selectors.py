@@ -244,15 +244,19 @@ def battery_record(battery, *, page=None, months=CHART_MONTHS, now=None):
     watered = list((top_ups if since is None else top_ups.filter(done_at__gte=month_start)).only("done_at", "volume_ml"))
     table = Paginator(current.select_related("taken_by").order_by("-taken_at", "-pk"), RECORD_PAGE_SIZE).get_page(page)
     kept = BatteryState.objects.filter(battery=battery).select_related("latest_inspection").first()
+    rows = list(table.object_list)
+    recent_top_ups = list(top_ups.select_related("done_by").order_by("-done_at")[:RECENT_TOP_UPS])
+    for row in [*rows, *recent_top_ups] + ([kept.latest_inspection] if kept and kept.latest_inspection else []):
+        row.battery = battery  # the page shows their times on the battery's site clock: no query per row
     return {
         "battery": battery,
         "profile": battery.profile,
-        "inspections": list(table.object_list),
+        "inspections": rows,
         "readings_page": table,
         "inspection_count": table.paginator.count,
         "latest": kept and kept.latest_inspection,
         "fittings": list(Fitting.objects.filter(battery=battery).select_related("vehicle")),
-        "top_ups": list(top_ups.select_related("done_by", "battery__profile").order_by("-done_at")[:RECENT_TOP_UPS]),
+        "top_ups": recent_top_ups,
         "chart_months": months,
         "chart_spans": CHART_SPANS,
         "charted_count": len(charted),
