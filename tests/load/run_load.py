@@ -15,6 +15,11 @@ loads 50 batteries and 50 crew logins, starts gunicorn (2 workers by default) on
    "server" stops and starts the PostgreSQL cluster (pg_ctlcluster), which every user of it notices.
    A tablet whose submission fails keeps it and resends it later with the same UUID.
 
+With --import-rows N, a CSV file of N cell rows (for 100 batteries of another site) is uploaded through
+the import page first, the background worker (`manage.py db_worker`, started here) imports it, and the
+steady phase starts once the worker has begun: the tablets work while the import runs. The import must
+end stored in full (all its inspections, none twice), and the report says how much of the phase it overlapped.
+
 Afterwards it checks that the stored inspections are exactly the distinct UUIDs the tablets had
 confirmed, each with all 24 cells, no UUID twice and none the tablets never sent; that the steady
 phase had no errors; and prints p50/p95/p99 latency. Every loop is bounded in count and in time;
@@ -268,6 +273,100 @@ def admin_sql(database_url, sql):
         conn.close()
 
 
+BULK_BATTERIES = 100
+BULK_USER = "bulk-office"
+
+
+def create_bulk_site(profile):
+    """A second site whose 100 batteries receive the big import, and a login allowed to import for it."""
+    from django.contrib.auth import get_user_model
+
+    from fleetcare.accounts.roles import SUPERVISOR, ensure_groups
+    from fleetcare.fleet.models import Battery, Site
+
+    site = Site.objects.create(name="Bulk import depot", code="bulk", timezone="UTC")
+    user = get_user_model().objects.create_user(BULK_USER, password=PASSWORD)
+    user.groups.add(ensure_groups()[SUPERVISOR])
+    site.members.add(user)
+    Battery.objects.bulk_create([Battery(serial=f"BULK-{n:03d}", profile=profile, site=site,
+                                         in_service_date=dt.date(2015, 1, 1)) for n in range(BULK_BATTERIES)])
+
+
+def write_import_file(path, rows):
+    """`rows` cell rows: 24-cell readings after charge, each bulk battery read in turn, an hour apart from 2016 on."""
+    start = dt.datetime(2016, 1, 1)
+    with open(path, "w", newline="") as out:
+        out.write("serial,taken_at,situation,cell,sg,temp,volts,level\n")
+        for i in range(rows // CELLS):
+            serial = f"BULK-{i % BULK_BATTERIES:03d}"
+            taken = (start + dt.timedelta(hours=i // BULK_BATTERIES)).strftime("%Y-%m-%dT%H:%M")
+            out.write("".join(f"{serial},{taken},charged,{n},{1.270 + (i + n) % 20 / 1000:.3f},{25 + i % 7},,ok\n"
+                              for n in range(1, CELLS + 1)))
+    return rows // CELLS
+
+
+class BulkImport:
+    """Uploads the file through the import page as the bulk site's supervisor and follows its progress."""
+
+    def __init__(self, base, path):
+        self.base, self.path = base, path
+        self.jar = http.cookiejar.CookieJar()
+        self.opener = urllib.request.build_opener(urllib.request.HTTPCookieProcessor(self.jar), NoRedirect)
+        self.progress_url = None
+        self.log = []
+
+    def _open(self, req):
+        try:
+            with self.opener.open(req, timeout=120) as response:
+                return response.status, response.read().decode("utf-8", "replace"), response.headers
+        except urllib.error.HTTPError as exc:
+            return exc.code, exc.read().decode("utf-8", "replace"), exc.headers
+
+    def upload(self):
+        status, page, _ = self._open(urllib.request.Request(self.base + "/accounts/login/"))
+        token = CSRF_INPUT.search(page).group(1)
+        self._open(urllib.request.Request(self.base + "/accounts/login/", data=urllib.parse.urlencode({
+            "csrfmiddlewaretoken": token, "username": BULK_USER, "password": PASSWORD, "next": "/"}).encode()))
+        status, page, _ = self._open(urllib.request.Request(self.base + "/readings/import/"))
+        token = CSRF_INPUT.search(page).group(1)
+        boundary = uuid.uuid4().hex
+        body = b"".join([
+            f"--{boundary}\r\nContent-Disposition: form-data; name=\"csrfmiddlewaretoken\"\r\n\r\n{token}\r\n".encode(),
+            f"--{boundary}\r\nContent-Disposition: form-data; name=\"file\"; filename=\"bulk.csv\"\r\n"
+            "Content-Type: text/csv\r\n\r\n".encode(),
+            Path(self.path).read_bytes(), f"\r\n--{boundary}--\r\n".encode(),
+        ])
+        started = time.perf_counter()
+        status, _, headers = self._open(urllib.request.Request(
+            self.base + "/readings/import/", data=body, headers={
+                "Content-Type": f"multipart/form-data; boundary={boundary}", "Referer": self.base + "/readings/import/"}))
+        location = headers.get("Location") or ""
+        if status != 302 or "/readings/import/" not in location:
+            raise SystemExit(f"the upload was not accepted: {status} {location}")
+        self.upload_s = round(time.perf_counter() - started, 1)
+        self.progress_url = urllib.parse.urljoin(self.base, location) + "progress/"
+
+    def progress(self):
+        status, text, _ = self._open(urllib.request.Request(self.progress_url))
+        return json.loads(text) if status == 200 else {"state": f"HTTP {status}"}
+
+    def wait(self, until_running=False, seconds=900):
+        """Poll every second until the worker has begun (until_running) or the import has finished."""
+        deadline = time.monotonic() + seconds
+        while time.monotonic() < deadline:
+            now = self.progress()
+            if now.get("finished") or (until_running and now.get("rows_checked", 0) > 0):
+                return now
+            time.sleep(1)
+        return self.progress()
+
+
+def start_worker(env):
+    command = [sys.executable, str(ROOT / "manage.py"), "db_worker", "--no-reload", "--interval", "1"]
+    log = open(ROOT / "test-artifacts" / "load-worker.log", "w")
+    return subprocess.Popen(command, cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT, start_new_session=True)
+
+
 def create_world(tablets):
     """One warehouse, one 24-cell battery and one crew login per tablet; returns [(username, battery pk)]."""
     from decimal import Decimal
@@ -295,6 +394,7 @@ def create_world(tablets):
         battery = Battery.objects.create(serial=f"LT-{n:03d}", profile=profile, site=site, charging_room=room,
                                          in_service_date=dt.date(2025, 1, 1))
         world.append((user.username, battery.pk))
+    create_bulk_site(profile)
     return world
 
 
@@ -435,6 +535,20 @@ def run_phase(name, tablets, seconds, think_s, outage=None, drain_s=60):
     }
 
 
+def check_bulk(site_code="bulk"):
+    """The imported readings: how many inspections, whether any is there twice, whether each has all its cells."""
+    from django.db import connection
+    from django.db.models import Count
+
+    from fleetcare.readings.models import Inspection
+
+    connection.close()
+    rows = Inspection.objects.filter(battery__site__code=site_code).values("battery_id", "taken_at").annotate(
+        n=Count("id", distinct=True), cells=Count("cells"))
+    return {"inspections": sum(r["n"] for r in rows), "twice": sum(1 for r in rows if r["n"] > 1),
+            "incomplete": sum(1 for r in rows if r["cells"] != CELLS * r["n"])}
+
+
 def check_store(tablets, site_code="load"):
     """Stored inspections equal the distinct UUIDs the tablets had confirmed; each has all its cells."""
     from django.db import connection
@@ -476,6 +590,8 @@ def main():
     parser.add_argument("--outage", choices=["none", "database", "server"], default="none")
     parser.add_argument("--outage-seconds", type=float, default=8)
     parser.add_argument("--outage-phase-seconds", type=float, default=40)
+    parser.add_argument("--import-rows", type=int, default=0,
+                        help="Cell rows of a CSV import the background worker runs during the steady phase (0: none).")
     parser.add_argument("--json", dest="json_path")
     args = parser.parse_args()
     if not 1 <= args.tablets <= 200 or not 1 <= args.seconds <= 600 or not 1 <= args.outage_seconds <= 19:
@@ -501,6 +617,7 @@ def main():
     env = dict(os.environ, DATABASE_URL=database_url, DEBUG="0", ALLOWED_HOSTS=HOST, LOG_LEVEL="ERROR",
                SECRET_KEY=os.environ.get("SECRET_KEY", "load-test-only-" + uuid.uuid4().hex))
     server = start_gunicorn(port, args.workers, args.threads, env)
+    worker = start_worker(env) if args.import_rows else None
     base = f"http://{HOST}:{port}"
     rng = random.Random(2026)
     tablets = [Tablet(base, username, pk, None, random.Random(rng.random()), args.via) for username, pk in world]
@@ -508,7 +625,24 @@ def main():
                "tablets": args.tablets, "via": args.via, "gunicorn": f"{args.workers} workers x {args.threads} threads", "phases": []}
     try:
         results["sign_in"] = sign_in_all(tablets)
+        bulk = None
+        if args.import_rows:
+            path = ROOT / "test-artifacts" / "load-import.csv"
+            readings = write_import_file(path, args.import_rows)
+            bulk = BulkImport(base, path)
+            bulk.upload()
+            began = bulk.wait(until_running=True)
+            results["import"] = {"rows": args.import_rows, "inspections": readings, "upload_s": bulk.upload_s,
+                                 "at_phase_start": began}
+        phase_started = time.monotonic()
         steady = run_phase("steady", tablets, args.seconds, args.think, drain_s=30)
+        if bulk is not None:
+            results["import"]["at_phase_end"] = bulk.progress()
+            results["import"]["ran_through_the_whole_phase"] = not results["import"]["at_phase_end"].get("finished")
+            done = bulk.wait()
+            results["import"]["finished"] = done
+            results["import"]["seen_finished_after_phase_start_s"] = round(time.monotonic() - phase_started, 1)
+            results["import"]["stored"] = check_bulk()
         steady["store"] = check_store(tablets)
         results["phases"].append(steady)
         if args.outage != "none":
@@ -519,6 +653,8 @@ def main():
             results["phases"].append(phase)
     finally:
         stop_gunicorn(server)
+        if worker is not None:
+            stop_gunicorn(worker)
         if args.outage == "server" and not Outage._ready():  # never leave PostgreSQL down
             version = sorted(os.listdir("/etc/postgresql"))[0]
             subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", "start"], check=False, timeout=60)
@@ -534,6 +670,13 @@ def main():
 
 def verdict(results):
     failures = []
+    imported = results.get("import")
+    if imported:
+        finished, stored = imported.get("finished", {}), imported.get("stored", {})
+        if finished.get("state") != "done":
+            failures.append(f"the background import ended {finished.get('state')!r}, not done")
+        if stored.get("inspections") != imported["inspections"] or stored.get("twice") or stored.get("incomplete"):
+            failures.append(f"the background import stored {stored}, expected {imported['inspections']} inspections")
     if results.get("sign_in", {}).get("signed_in") != results["tablets"]:
         failures.append(f"only {results.get('sign_in', {}).get('signed_in')} of {results['tablets']} tablets signed in")
     for phase in results["phases"]:
