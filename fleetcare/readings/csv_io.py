@@ -669,7 +669,9 @@ def store_readings(readings, user):
         summarise(inspection, sorted(reading.cells, key=lambda cell: cell.position))
         inspections.append(inspection)
     _insert_inspections(inspections)
-    return _insert_cells(zip(inspections, readings))
+    cells = _insert_cells(zip(inspections, readings))
+    state.absorb_inspections(inspections)
+    return cells
 
 
 class _PendingInspection:
@@ -709,7 +711,6 @@ def import_readings(source, *, user, batteries, good_rows_only=False, dry_run=Fa
             return report
         report.imported = True
         ids = sorted(battery_ids)
-        state.refresh(ids)
         if ids:
             transaction.on_commit(lambda: signals.inspections_imported.send(Inspection, battery_ids=ids))
     return report

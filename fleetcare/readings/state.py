@@ -1,8 +1,9 @@
 """Each battery's current state (BatteryState), kept in step with its history by the writes in services.py and
 csv_io.py, in their own transaction, so pages read one row per battery instead of the battery's whole history.
 
-A new reading or top-up is folded into the row (`absorb_inspection`, `absorb_top_up`): constant work whatever the
-history. A correction, a removal or a bulk import recomputes the rows it touched from history (`refresh`), and
+A new reading or top-up is folded into the row (`absorb_inspection`, `absorb_top_up`; a CSV import's chunk with
+`absorb_inspections`): constant work whatever the history. A correction or a removal recomputes the rows it
+touched from history (`refresh`), and
 `manage.py rebuild_battery_state` recomputes every row. The battery rows are locked first (FOR NO KEY UPDATE,
 which does not block readings being stored for them), so two writers of one battery's state take turns and
 the second computes from what the first committed.
@@ -135,6 +136,32 @@ def absorb_inspection(inspection):
     if state is None:
         refresh([inspection.battery_id])
         return
+    changed = _fold(state, inspection)
+    if changed:
+        state.save(update_fields=sorted(changed))
+
+
+def absorb_inspections(inspections):
+    """Fold newly stored, current inspections of any batteries into their rows (a CSV import's chunk): one lock,
+    one read and one write for the batch, whatever the batteries' history. A battery without a row yet gets one
+    computed from history, which already holds these inspections."""
+    inspections = list(inspections)
+    ids = sorted({inspection.battery_id for inspection in inspections})
+    if not ids:
+        return
+    lock(ids)
+    states = {state.battery_id: state for state in BatteryState.objects.filter(battery_id__in=ids)}
+    changed = set()
+    for inspection in inspections:
+        if inspection.battery_id in states:
+            changed |= _fold(states[inspection.battery_id], inspection)
+    if changed:
+        BatteryState.objects.bulk_update(list(states.values()), sorted(changed), batch_size=CHUNK)
+    refresh([pk for pk in ids if pk not in states])
+
+
+def _fold(state, inspection):
+    """Fold one inspection into a battery's row in hand; returns the names of the fields it changed."""
     changed = set()
     for kind in KINDS:
         if kind.matches(inspection) and _later(inspection, state, kind):
@@ -150,8 +177,7 @@ def absorb_inspection(inspection):
         if state.first_post_charge_at is None or inspection.taken_at < state.first_post_charge_at:
             state.first_post_charge_at = inspection.taken_at
             changed.add("first_post_charge_at")
-    if changed:
-        state.save(update_fields=sorted(changed))
+    return changed
 
 
 def absorb_top_up(top_up):

@@ -65,13 +65,15 @@ def remove_top_up(rng, battery, user):
 
 
 def csv_import(rng, battery, user):
+    """A file for this battery and, half the time, every other one too (a chunk spans batteries)."""
     day = START + dt.timedelta(days=rng.randint(0, 8), minutes=rng.randint(0, 59))
     text = "serial,taken_at,situation,cell,sg,temp,volts,level\n"
     for reading in range(rng.randint(1, 3)):
         taken = (day + dt.timedelta(hours=reading)).strftime("%Y-%m-%dT%H:%M")
         situation = rng.choice(["charged", "equalized", "rested", "before_charge"])
-        text += "".join(f"{battery.serial},{taken},{situation},{c.position},{c.sg},25,,ok\n"
-                        for c in cells(rng, battery.profile.cell_count))
+        for each in [battery] + (list(Battery.objects.exclude(pk=battery.pk)) if rng.random() < 0.5 else []):
+            text += "".join(f"{each.serial},{taken},{situation},{c.position},{c.sg},25,,ok\n"
+                            for c in cells(rng, each.profile.cell_count))
     report = import_readings(io.StringIO(text), user=user, batteries=Battery.objects.all())
     assert report.imported, report.errors
 
