@@ -10,6 +10,7 @@ from django.urls import reverse
 from fleetcare.care.models import Finding
 from fleetcare.dashboard import selectors
 from fleetcare.fleet.models import Battery, Fitting, Vehicle
+from fleetcare.readings import services
 from fleetcare.readings.models import Inspection
 from tests.dashboard.conftest import read, water
 
@@ -129,7 +130,7 @@ def test_it_counts_overdue_equalizing_and_watering_by_the_planners_default_seven
 def test_an_equalizing_older_than_seven_days_or_a_deleted_one_does_not_count(super_client, battery, supervisor, now):
     read(battery, supervisor, now - dt.timedelta(days=8), "equalized")
     recent = read(battery, supervisor, now - dt.timedelta(days=1), "equalized")
-    Inspection.objects.filter(pk=recent.pk).update(deleted_at=now)
+    services.remove_inspection(recent, user=supervisor, reason="taken on the wrong battery")
     assert counts(super_client.get(HOME).context, "Care", "Equalizing overdue")[-1] == 1
 
 
