@@ -76,11 +76,18 @@ def _latest_all_cells(battery_ids, depth, now, situations=None):
     return list(ranked.order_by("battery_id", "-taken_at", "-pk").values_list(*rules.Reading.FIELDS))
 
 
-def _with_cells(rows):
-    """Readings with their cells (one more query), in the order of the rows."""
+def _with_cells(rows, per_battery=None):
+    """Readings with their cells (one more query), in the order of the rows (newest first per battery); with
+    per_battery, only each battery's first that many readings get their cells."""
     cells = defaultdict(list)
+    wanted, seen = [], defaultdict(int)
+    battery_at = rules.Reading.FIELDS.index("battery_id")
+    for row in rows:
+        seen[row[battery_at]] += 1
+        if per_battery is None or seen[row[battery_at]] <= per_battery:
+            wanted.append(row[0])
     for inspection_id, *values in (
-        CellReading.objects.filter(inspection_id__in=[row[0] for row in rows])
+        CellReading.objects.filter(inspection_id__in=wanted)
         .order_by("inspection_id", "position")
         .values_list("inspection_id", *rules.Cell.FIELDS)
     ):
@@ -128,9 +135,12 @@ def load(batteries, now):
         return []
     ids = _battery_ids(batteries)
     policies = list(Policy.objects.select_related("site", "profile"))
-    data = {
-        b.pk: rules.ReadingHistory(battery=b, policy=care_policy.resolve(b, policies), now=now) for b in battery_list
-    }
+    resolved = {}  # batteries of one profile at one site share their thresholds: resolved once
+    for b in battery_list:
+        if (b.site_id, b.profile_id) not in resolved:
+            resolved[b.site_id, b.profile_id] = care_policy.resolve(b, policies)
+    data = {b.pk: rules.ReadingHistory(battery=b, policy=resolved[b.site_id, b.profile_id], now=now)
+            for b in battery_list}
     depth = max(2, max(int(d.policy.sulfation_inspections) for d in data.values()))
     lookback_days = max(
         [MIN_LOOKBACK_DAYS] + [int(getattr(d.policy, name)) for d in data.values()
@@ -138,8 +148,11 @@ def load(batteries, now):
     )
     since = now - timedelta(days=lookback_days + 1)
 
+    # The cell rules (weak cell, spread) read the cells of the latest few post-charge readings; sulfation reads
+    # only the summaries of the older ones, so their cells are not loaded.
+    cell_depth = max(2, max(int(d.policy.spread_readings_in_a_row) for d in data.values()))
     post_charge = _latest_all_cells(list(data), depth, now, situations=Inspection.POST_CHARGE)
-    for reading in _with_cells(post_charge):
+    for reading in _with_cells(post_charge, per_battery=cell_depth):
         data[reading.battery_id].post_charge.append(reading)
 
     if any(b.profile.reads_by_block and b.profile.monoblocks > 1 for b in battery_list):
@@ -185,14 +198,19 @@ def load(batteries, now):
     for row in levels:
         data[row["battery"]].latest_levels[row["position"]] = (row["level"], row["taken_at"])
 
-    top_ups = WaterTopUp.objects.current().filter(battery_id__in=ids, done_at__lte=now)
-    for top_up in top_ups.filter(done_at__gte=since).order_by("-done_at"):
+    top_ups = WaterTopUp.objects.current().filter(battery_id__in=ids, done_at__lte=now, done_at__gte=since)
+    for row in top_ups.order_by("-done_at").values_list(*rules.TopUp.FIELDS):
+        top_up = rules.TopUp(*row)
         data[top_up.battery_id].top_ups.append(top_up)
 
     planning = list(PlanningPolicy.objects.select_related("site", "profile"))
+    planned = {}
     window_start = now - timedelta(days=due.CHARGE_WINDOW_DAYS)
     for d in data.values():
-        d.planning = planning_policy.resolve(d.battery.site_id, d.battery.profile_id, planning)
+        key = (d.battery.site_id, d.battery.profile_id)
+        if key not in planned:
+            planned[key] = planning_policy.resolve(*key, planning)
+        d.planning = planned[key]
         zone = d.site.tzinfo
         d.charge_dates = [r.taken_at.astimezone(zone).date() for r in d.recent
                           if r.situation in Inspection.POST_CHARGE and r.taken_at >= window_start]

