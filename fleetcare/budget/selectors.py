@@ -74,13 +74,13 @@ def battery_facts(batteries, today, rules=DEFAULT_RULES):
     points = defaultdict(list)
     window = post_charge.filter(scope=Inspection.Scope.ALL_CELLS,
                                 taken_at__gte=_start_of(today - timedelta(days=rules.trend_window_days)))
+    point = forecast.PostCharge
     for battery_id, taken_at, mean, spread, lowest, low in window.order_by("taken_at").values_list(
         "battery_id", "taken_at", "sg_mean", "sg_spread", "lowest_position", "sg_min"
     ):
-        points[battery_id].append(forecast.PostCharge(
-            taken_on=taken_at.date(), sg_mean=_float(mean), sg_spread=_float(spread), lowest_position=lowest,
-            sg_min=_float(low),
-        ))
+        points[battery_id].append(point(taken_at.date(), None if mean is None else float(mean),
+                                        None if spread is None else float(spread), lowest,
+                                        None if low is None else float(low)))
     weak = _weak_findings(batteries)
     depths = _measured_depths(ids, today, rules)
 

@@ -59,7 +59,8 @@ class Inspection(models.Model):
     POST_CHARGE = (Situation.JUST_CHARGED, Situation.JUST_EQUALIZED)
     SHOWS_STATE_OF_CHARGE = (Situation.JUST_CHARGED, Situation.JUST_EQUALIZED, Situation.RESTED)
 
-    battery = models.ForeignKey(Battery, on_delete=models.PROTECT, related_name="inspections")
+    # No index of its own: the index on (battery, taken_at) below serves every look-up by battery.
+    battery = models.ForeignKey(Battery, on_delete=models.PROTECT, related_name="inspections", db_index=False)
     taken_at = models.DateTimeField(db_index=True)
     taken_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="inspections")
     situation = models.CharField(max_length=16, choices=Situation.choices)
@@ -147,7 +148,8 @@ class CellReading(models.Model):
         OK = "ok", "OK"
         LOW = "low", "Low"
 
-    inspection = models.ForeignKey(Inspection, on_delete=models.CASCADE, related_name="cells")
+    # No index of its own: the unique (inspection, position) constraint's index serves every look-up by inspection.
+    inspection = models.ForeignKey(Inspection, on_delete=models.CASCADE, related_name="cells", db_index=False)
     position = models.PositiveSmallIntegerField(help_text="Cell number, or block number for sealed blocks.")
     sg = models.DecimalField("observed SG", max_digits=5, decimal_places=3, null=True, blank=True)
     sg_corrected = models.DecimalField("corrected SG", max_digits=5, decimal_places=3, null=True, blank=True)
