@@ -231,8 +231,11 @@ def _soc_chart(rows, sites):
         return None
     bands = list(fleet.SOC_BAND_LABELS)
     stacks = []
+    by_site = defaultdict(Counter)
+    for r in rows:
+        by_site[r["site_id"]][r["soc_band"]] += 1
     for site in sites:
-        per_band = Counter(r["soc_band"] for r in rows if r["site_id"] == site.pk)
+        per_band = by_site.get(site.pk)
         if per_band:
             stacks.append((site.name, [per_band[b] for b in bands], None))
     return charts.stacked_bars(
@@ -339,6 +342,7 @@ def _water_boxes(members, by_battery, edges, unit_site=None):
     months = range(len(edges) - 1)
     month_days = [edges[i].date() for i in months]
     in_use = (Battery.Status.IN_SERVICE, Battery.Status.CHARGING)
+    shown = site_units.cell_water_shown_at(unit_site) if unit_site else None
     per_battery = []
     for r in members:
         sums = by_battery.get(r["pk"], {})
@@ -352,7 +356,7 @@ def _water_boxes(members, by_battery, edges, unit_site=None):
             if total is None and not (working and r["in_service_date"] <= month_days[i]):
                 continue
             ml = float(total or 0) / r["cells"]
-            value = float(site_units.cell_water_shown(ml, unit_site)) if unit_site else round(ml, 1)
+            value = float(shown(ml)) if unit_site else round(ml, 1)
             values.append(value)
             per_site[r["site_id"]].append((value, r["serial"]))
         groups.append((month, values))

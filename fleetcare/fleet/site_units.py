@@ -10,6 +10,7 @@ from fleetcare import chemistry
 from fleetcare.fleet.site_time import site_of
 
 TEMP_STEP = Decimal("0.1")
+TENTH, WHOLE = Decimal("0.1"), Decimal("1")
 
 
 def _site(obj):
@@ -106,8 +107,15 @@ def cell_water_label(obj):
 
 def cell_water_shown(ml, obj):
     """A per-cell amount in mL as shown per cell: whole mL, or US fl oz to 0.1 (Decimal); None stays None."""
-    if ml is None:
-        return None
+    return cell_water_shown_at(obj)(ml)
+
+
+def cell_water_shown_at(obj):
+    """cell_water_shown for one site, as a function of the amount (a chart converts thousands of amounts)."""
     if uses_us_fl_oz(obj):
-        return Decimal(str(chemistry.litres_to_us_fl_oz(float(ml) / 1000.0))).quantize(Decimal("0.1"))
-    return Decimal(str(float(ml))).quantize(Decimal("1"))
+        def shown(ml):
+            return None if ml is None else Decimal(str(chemistry.litres_to_us_fl_oz(float(ml) / 1000.0))).quantize(TENTH)
+    else:
+        def shown(ml):
+            return None if ml is None else Decimal(str(float(ml))).quantize(WHOLE)
+    return shown
