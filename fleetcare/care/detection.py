@@ -314,12 +314,12 @@ def detect_for_batteries(batteries, now=None, answer=True):
     )
 
 
-def detect_fleet(now=None, site=None):
-    """The whole fleet (or one site) on demand."""
+def detect_fleet(now=None, site=None, answer=True):
+    """The whole fleet (or one site) on demand; returns its active findings (None with answer=False)."""
     batteries = Battery.objects.all()
     if site is not None:
         batteries = batteries.filter(site=site)
-    return detect_for_batteries(batteries, now=now)
+    return detect_for_batteries(batteries, now=now, answer=answer)
 
 
 # --- Detection on save ---------------------------------------------------------------------------

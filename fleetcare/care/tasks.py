@@ -6,6 +6,7 @@ from django_tasks import task
 
 from fleetcare.fleet.access import visible_batteries
 from fleetcare.care import detection
+from fleetcare.care.models import Finding
 from fleetcare.fleet.models import Battery
 
 log = logging.getLogger(__name__)
@@ -23,7 +24,8 @@ def check_sites(user_id: int, site_code: str = "") -> int:
     batteries = visible_batteries(get_user_model().objects.get(pk=user_id))
     if site_code:
         batteries = batteries.filter(site__code=site_code)
-    return len(detection.detect_for_batteries(batteries))
+    detection.detect_for_batteries(batteries, answer=False)
+    return Finding.objects.active().filter(battery__in=batteries).count()
 
 
 def after_import(sender, battery_ids, **kwargs):

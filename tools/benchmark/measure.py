@@ -178,13 +178,14 @@ def battery_record(fleet, repeat):
 
 def findings_pass(fleet, repeat):
     """The whole-fleet findings pass: fleetcare.care.detection.detect_fleet, as it runs day after day: one pass
-    is stored first (untimed), so the timed passes refresh the findings it opened rather than open them all anew."""
+    is stored first (untimed), so the timed passes refresh the findings it opened rather than open them all anew.
+    Stored, not listed (answer=False), as the worker's "check now" and the findings command run it."""
     now = timezone.now()
-    detect_fleet(now=now)
+    detect_fleet(now=now, answer=False)
 
     def run():
         with transaction.atomic():
-            result = detect_fleet(now=now)
+            result = detect_fleet(now=now, answer=False)
             transaction.set_rollback(True)  # every repeat starts from the same state
         return result
 

@@ -41,7 +41,7 @@ class Command(BaseCommand):
             if site_obj is None:
                 raise CommandError(f"No site with code {site!r}.")
         if not no_check:
-            detection.detect_fleet(site=site_obj)
+            detection.detect_fleet(site=site_obj, answer=False)
         findings = Finding.objects.active().select_related("battery", "battery__site", "battery__profile")
         if site_obj is not None:
             findings = findings.filter(battery__site=site_obj)
