@@ -653,8 +653,10 @@ def _stored_uuids(client_uuids):
 # --- Step 5: store ---------------------------------------------------------------------------------
 
 
-def store_readings(readings, user):
-    """Write these readings (inspections with their summaries, and their cells); returns the cells written."""
+def store_readings(readings, user, folding=None):
+    """Write these readings (inspections with their summaries, and their cells); returns the cells written.
+    Their batteries' kept state is brought up to date now, or by `folding` (a state.Folding) when the caller
+    writes it at the end of a bulk import."""
     postgres = connection.vendor == "postgresql"
     inspections = []
     for reading in readings:
@@ -670,7 +672,10 @@ def store_readings(readings, user):
         inspections.append(inspection)
     _insert_inspections(inspections)
     cells = _insert_cells(zip(inspections, readings))
-    state.absorb_inspections(inspections)
+    if folding is None:
+        state.absorb_inspections(inspections)
+    else:
+        folding.add(inspections)
     return cells
 
 
@@ -703,13 +708,14 @@ def import_readings(source, *, user, batteries, good_rows_only=False, dry_run=Fa
         if connection.vendor == "postgresql":
             with connection.cursor() as cursor:
                 cursor.execute("SELECT pg_advisory_xact_lock(%s)", [IMPORT_LOCK_KEY])
-        battery_ids = set()
-        _run(source, checker, report, (user, battery_ids, good_rows_only), progress, rows_per_chunk)
+        battery_ids, folding = set(), state.Folding()
+        _run(source, checker, report, (user, battery_ids, good_rows_only, folding), progress, rows_per_chunk)
         if report.problem_count and not good_rows_only:
             transaction.set_rollback(True)
             report.inspections_created = report.cells_created = 0
             return report
         report.imported = True
+        folding.write()
         ids = sorted(battery_ids)
         if ids:
             transaction.on_commit(lambda: signals.inspections_imported.send(Inspection, battery_ids=ids))
@@ -717,7 +723,7 @@ def import_readings(source, *, user, batteries, good_rows_only=False, dry_run=Fa
 
 
 def _run(source, checker, report, store, progress, rows_per_chunk):
-    """Read, check and (when store is (user, battery_ids, good_rows_only)) write the file chunk by chunk."""
+    """Read, check and (when store is (user, battery_ids, good_rows_only, folding)) write the file chunk by chunk."""
     rows = _counted(read_rows(source, report), report)
     try:
         for chunk in chunks(group_rows(rows), rows_per_chunk or CHUNK_ROWS):
@@ -733,8 +739,8 @@ def _run(source, checker, report, store, progress, rows_per_chunk):
                     new.append(reading)
             writing = store is not None and (store[2] or not report.problem_count)
             if writing and new:
-                user, battery_ids, _ = store
-                report.cells_created += store_readings(new, user)
+                user, battery_ids, _, folding = store
+                report.cells_created += store_readings(new, user, folding)
                 battery_ids.update(reading.battery.pk for reading in new)
             elif store is None:
                 report.cells_created += sum(len(reading.cells) for reading in new)

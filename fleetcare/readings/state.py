@@ -1,8 +1,8 @@
 """Each battery's current state (BatteryState), kept in step with its history by the writes in services.py and
 csv_io.py, in their own transaction, so pages read one row per battery instead of the battery's whole history.
 
-A new reading or top-up is folded into the row (`absorb_inspection`, `absorb_top_up`; a CSV import's chunk with
-`absorb_inspections`): constant work whatever the history. A correction or a removal recomputes the rows it
+A new reading or top-up is folded into the row (`absorb_inspection`, `absorb_top_up`; a CSV import's readings
+through a `Folding`, written once at its end): constant work whatever the history. A correction or a removal recomputes the rows it
 touched from history (`refresh`), and
 `manage.py rebuild_battery_state` recomputes every row. The battery rows are locked first (FOR NO KEY UPDATE,
 which does not block readings being stored for them), so two writers of one battery's state take turns and
@@ -142,22 +142,67 @@ def absorb_inspection(inspection):
 
 
 def absorb_inspections(inspections):
-    """Fold newly stored, current inspections of any batteries into their rows (a CSV import's chunk): one lock,
-    one read and one write for the batch, whatever the batteries' history. A battery without a row yet gets one
-    computed from history, which already holds these inspections."""
-    inspections = list(inspections)
-    ids = sorted({inspection.battery_id for inspection in inspections})
-    if not ids:
-        return
-    lock(ids)
-    states = {state.battery_id: state for state in BatteryState.objects.filter(battery_id__in=ids)}
+    """Fold newly stored, current inspections of any batteries into their rows, at once."""
+    folding = Folding()
+    folding.add(inspections)
+    folding.write()
+
+
+class Folding:
+    """The kept state of a bulk write (a CSV import): each chunk's inspections are folded into a summary per
+    battery in memory (`add`: no query, memory bounded by the batteries, not the rows), and `write` locks the
+    batteries once at the end, reads their rows and merges the summaries in: the work does not grow with the
+    batteries' history, and the battery rows are locked only for the last moments of the import, not while it
+    reads the file. A battery without a row yet gets one computed from history, which holds the new rows."""
+
+    def __init__(self):
+        self.deltas = {}
+
+    def add(self, inspections):
+        for inspection in inspections:
+            delta = self.deltas.get(inspection.battery_id)
+            if delta is None:
+                delta = self.deltas[inspection.battery_id] = BatteryState(battery_id=inspection.battery_id, **EMPTY)
+            _fold(delta, inspection)
+
+    def write(self):
+        ids = sorted(self.deltas)
+        if not ids:
+            return
+        lock(ids)
+        states = {state.battery_id: state for state in BatteryState.objects.filter(battery_id__in=ids)}
+        for battery_id, state in states.items():
+            changed = _merge(state, self.deltas[battery_id])
+            if changed:
+                state.save(update_fields=sorted(changed))
+        refresh([pk for pk in ids if pk not in states])
+        self.deltas = {}
+
+
+def _merge(state, delta):
+    """Fold a summary of new inspections (a BatteryState of only them) into a battery's row; returns the fields
+    changed. The same rule as _fold: the later (time, id) wins each kind, counts add up, the earliest charge stays."""
     changed = set()
-    for inspection in inspections:
-        if inspection.battery_id in states:
-            changed |= _fold(states[inspection.battery_id], inspection)
-    if changed:
-        BatteryState.objects.bulk_update(list(states.values()), sorted(changed), batch_size=CHUNK)
-    refresh([pk for pk in ids if pk not in states])
+    for kind in KINDS:
+        at, pk = getattr(delta, f"{kind.name}_at"), getattr(delta, f"{kind.name}_inspection_id")
+        if at is None:
+            continue
+        now_at, now_pk = getattr(state, f"{kind.name}_at"), getattr(state, f"{kind.name}_inspection_id")
+        if now_at is None or (at, pk) > (now_at, now_pk or 0):
+            setattr(state, f"{kind.name}_inspection_id", pk)
+            setattr(state, f"{kind.name}_at", at)
+            changed |= {f"{kind.name}_inspection", f"{kind.name}_at"}
+            for _source, target in kind.copies:
+                setattr(state, target, getattr(delta, target))
+                changed.add(target)
+    if delta.charge_count:
+        state.charge_count += delta.charge_count
+        changed.add("charge_count")
+    first = delta.first_post_charge_at
+    if first is not None and (state.first_post_charge_at is None or first < state.first_post_charge_at):
+        state.first_post_charge_at = first
+        changed.add("first_post_charge_at")
+    return changed
 
 
 def _fold(state, inspection):

@@ -79,11 +79,11 @@ def test_a_failed_import_shows_its_error_and_stores_nothing(crew_client, battery
     real_store = csv_io.store_readings
     calls = []
 
-    def store_then_fail(readings, user):
+    def store_then_fail(readings, user, folding=None):
         calls.append(len(readings))
         if len(calls) == 2:
             raise OSError("disk full")
-        return real_store(readings, user)
+        return real_store(readings, user, folding)
 
     monkeypatch.setattr(csv_io, "store_readings", store_then_fail)
     monkeypatch.setattr(csv_io, "CHUNK_ROWS", 24)
