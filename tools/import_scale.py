@@ -176,6 +176,25 @@ def run_clean():
     subprocess.run([sys.executable, __file__, "--clean"], check=True)
 
 
+def create_database_if_missing(url):
+    import urllib.parse
+
+    import psycopg2
+
+    parts = urllib.parse.urlparse(url)
+    name = parts.path.lstrip("/")
+    conn = psycopg2.connect(host=parts.hostname, port=parts.port or 5432, user=parts.username or "postgres",
+                            password=parts.password, dbname="postgres")
+    conn.autocommit = True
+    try:
+        with conn.cursor() as cursor:
+            cursor.execute("SELECT 1 FROM pg_database WHERE datname = %s", [name])
+            if cursor.fetchone() is None:
+                cursor.execute(f'CREATE DATABASE "{name}"')
+    finally:
+        conn.close()
+
+
 def main():
     parser = argparse.ArgumentParser()
     parser.add_argument("--import", dest="import_file")
@@ -192,6 +211,7 @@ def main():
         return clean()
     if "postgres" not in os.environ.get("DATABASE_URL", ""):
         raise SystemExit("Set DATABASE_URL to a scratch PostgreSQL database.")
+    create_database_if_missing(os.environ["DATABASE_URL"])
     setup_django()
     build_fleet()
     from django.db import connection
