@@ -616,10 +616,14 @@ def find_already_stored(readings):
     if connection.vendor == "postgresql":
         with connection.cursor() as cursor:
             cursor.execute(
+                # LATERAL ... LIMIT 1: one probe of the (battery, taken_at) index per reading. As EXISTS, PostgreSQL
+                # chose a hash join over every stored reading for a chunk of a few hundred, which grew with history.
                 f"""SELECT k.i - 1 FROM unnest(%s::bigint[], %s::timestamptz[], %s::text[]) WITH ORDINALITY AS k(b, t, s, i)
-                    WHERE EXISTS (SELECT 1 FROM {Inspection._meta.db_table} r
-                                  WHERE r.battery_id = k.b AND r.taken_at >= k.t AND r.taken_at < k.t + interval '1 minute'
-                                    AND r.situation = k.s AND r.is_current AND r.deleted_at IS NULL)""",
+                    CROSS JOIN LATERAL (
+                        SELECT 1 FROM {Inspection._meta.db_table} r
+                         WHERE r.battery_id = k.b AND r.taken_at >= k.t AND r.taken_at < k.t + interval '1 minute'
+                           AND r.situation = k.s AND r.is_current AND r.deleted_at IS NULL
+                         LIMIT 1) AS stored""",
                 [[r.battery.pk for r in readings], [r.key[1] for r in readings], [r.situation for r in readings]],
             )
             found.update(row[0] for row in cursor.fetchall())
