@@ -124,11 +124,6 @@ def rebuild(battery_ids=None):
     return len(ids)
 
 
-def _later(inspection, state, kind):
-    at, pk = getattr(state, f"{kind.name}_at"), getattr(state, f"{kind.name}_inspection_id")
-    return at is None or (inspection.taken_at, inspection.pk) > (at, pk or 0)
-
-
 def absorb_inspection(inspection):
     """Fold a newly stored, current inspection into its battery's row."""
     lock([inspection.battery_id])
@@ -181,47 +176,50 @@ class Folding:
 
 def _merge(state, delta):
     """Fold a summary of new inspections (a BatteryState of only them) into a battery's row; returns the fields
-    changed. The same rule as _fold: the later (time, id) wins each kind, counts add up, the earliest charge stays."""
+    changed."""
     changed = set()
     for kind in KINDS:
-        at, pk = getattr(delta, f"{kind.name}_at"), getattr(delta, f"{kind.name}_inspection_id")
-        if at is None:
-            continue
-        now_at, now_pk = getattr(state, f"{kind.name}_at"), getattr(state, f"{kind.name}_inspection_id")
-        if now_at is None or (at, pk) > (now_at, now_pk or 0):
-            setattr(state, f"{kind.name}_inspection_id", pk)
-            setattr(state, f"{kind.name}_at", at)
-            changed |= {f"{kind.name}_inspection", f"{kind.name}_at"}
-            for _source, target in kind.copies:
-                setattr(state, target, getattr(delta, target))
-                changed.add(target)
-    if delta.charge_count:
-        state.charge_count += delta.charge_count
-        changed.add("charge_count")
-    first = delta.first_post_charge_at
-    if first is not None and (state.first_post_charge_at is None or first < state.first_post_charge_at):
-        state.first_post_charge_at = first
-        changed.add("first_post_charge_at")
-    return changed
+        at = getattr(delta, f"{kind.name}_at")
+        if at is not None:
+            changed |= _offer(state, kind, at, getattr(delta, f"{kind.name}_inspection_id"),
+                              {target: getattr(delta, target) for _source, target in kind.copies})
+    return changed | _add_charges(state, delta.charge_count, delta.first_post_charge_at)
 
 
 def _fold(state, inspection):
     """Fold one inspection into a battery's row in hand; returns the names of the fields it changed."""
     changed = set()
     for kind in KINDS:
-        if kind.matches(inspection) and _later(inspection, state, kind):
-            setattr(state, f"{kind.name}_inspection_id", inspection.pk)
-            setattr(state, f"{kind.name}_at", inspection.taken_at)
-            changed |= {f"{kind.name}_inspection", f"{kind.name}_at"}
-            for source, target in kind.copies:
-                setattr(state, target, getattr(inspection, source))
-                changed.add(target)
+        if kind.matches(inspection):
+            changed |= _offer(state, kind, inspection.taken_at, inspection.pk,
+                              {target: getattr(inspection, source) for source, target in kind.copies})
     if inspection.situation in POST_CHARGE:
-        state.charge_count += 1
-        changed.add("charge_count")
-        if state.first_post_charge_at is None or inspection.taken_at < state.first_post_charge_at:
-            state.first_post_charge_at = inspection.taken_at
-            changed.add("first_post_charge_at")
+        changed |= _add_charges(state, 1, inspection.taken_at)
+    return changed
+
+
+def _offer(state, kind, at, pk, copied):
+    """The row's latest reading of `kind` becomes this one (taken `at`, id `pk`, `copied` {state field: value}) if
+    it is later: by time, ties to the later stored. Returns the fields changed."""
+    now_at, now_pk = getattr(state, f"{kind.name}_at"), getattr(state, f"{kind.name}_inspection_id")
+    if now_at is not None and (at, pk) <= (now_at, now_pk or 0):
+        return set()
+    setattr(state, f"{kind.name}_inspection_id", pk)
+    setattr(state, f"{kind.name}_at", at)
+    for target, value in copied.items():
+        setattr(state, target, value)
+    return {f"{kind.name}_inspection", f"{kind.name}_at", *copied}
+
+
+def _add_charges(state, count, first_at):
+    """`count` more charges logged, the earliest at `first_at`: the count adds up, the earliest stays."""
+    if not count:
+        return set()
+    state.charge_count += count
+    changed = {"charge_count"}
+    if first_at is not None and (state.first_post_charge_at is None or first_at < state.first_post_charge_at):
+        state.first_post_charge_at = first_at
+        changed.add("first_post_charge_at")
     return changed
 
 
