@@ -78,9 +78,7 @@ def battery_facts(batteries, today, rules=DEFAULT_RULES):
     for battery_id, taken_at, mean, spread, lowest, low in window.order_by("taken_at").values_list(
         "battery_id", "taken_at", "sg_mean", "sg_spread", "lowest_position", "sg_min"
     ):
-        points[battery_id].append(point(taken_at.date(), None if mean is None else float(mean),
-                                        None if spread is None else float(spread), lowest,
-                                        None if low is None else float(low)))
+        points[battery_id].append(point(taken_at.date(), _float(mean), _float(spread), lowest, _float(low)))
     weak = _weak_findings(batteries)
     depths = _measured_depths(ids, today, rules)
 

@@ -432,7 +432,8 @@ def start_gunicorn(port, workers, threads, env):
     raise SystemExit("gunicorn did not start within 30 s; see test-artifacts/load-gunicorn.log")
 
 
-def stop_gunicorn(process):
+def stop_process(process):
+    """Stop a process started in its own session (gunicorn, the worker) and whatever it started."""
     if process.poll() is None:
         os.killpg(process.pid, signal.SIGTERM)
         try:
@@ -674,9 +675,9 @@ def main():
             phase["store"] = check_store(tablets)
             results["phases"].append(phase)
     finally:
-        stop_gunicorn(server)
+        stop_process(server)
         if worker is not None:
-            stop_gunicorn(worker)
+            stop_process(worker)
         if args.outage == "server" and not Outage._ready():  # never leave PostgreSQL down
             version = sorted(os.listdir("/etc/postgresql"))[0]
             subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", "start"], check=False, timeout=60)

@@ -192,46 +192,41 @@ def findings_pass(fleet, repeat):
     return {"ms": median_ms(run, max(1, repeat // 2)), "queries": query_count(run)}
 
 
+def timed_page(user, path, repeat):
+    """A page's median time over `repeat` runs and its query count, as `user`."""
+    get = page(user, path)
+    return {"ms": median_ms(get, repeat), "queries": query_count(get), "path": path}
+
+
 def site_plan(fleet, repeat):
     """A site's equalizing and watering plan, through the week page that shows it."""
-    path = reverse("planner:plan", args=[fleet.sites[0].code])
-    get = page(fleet.supervisor, path)
-    return {"ms": median_ms(get, max(1, repeat // 2)), "queries": query_count(get), "path": path}
+    return timed_page(fleet.supervisor, reverse("planner:plan", args=[fleet.sites[0].code]), max(1, repeat // 2))
 
 
 def battery_list(fleet, repeat):
     """The supervisor's battery list, first page, every site."""
-    get = page(fleet.supervisor, reverse("fleet:batteries"))
-    return {"ms": median_ms(get, repeat), "queries": query_count(get)}
+    return timed_page(fleet.supervisor, reverse("fleet:batteries"), repeat)
 
 
 def today(fleet, repeat):
     """A site's work for today, as the crew opens it."""
-    path = reverse("planner:today", args=[fleet.sites[0].code])
-    get = page(fleet.crew, path)
-    return {"ms": median_ms(get, repeat), "queries": query_count(get), "path": path}
+    return timed_page(fleet.crew, reverse("planner:today", args=[fleet.sites[0].code]), repeat)
 
 
 def api_status(fleet, repeat):
     """The API's status of one battery (what a tablet asks before a reading)."""
     battery = Battery.objects.order_by("serial").first()
-    path = f"/api/batteries/{battery.pk}/status"
-    get = page(fleet.crew, path)
-    return {"ms": median_ms(get, repeat), "queries": query_count(get), "path": path}
+    return timed_page(fleet.crew, f"/api/batteries/{battery.pk}/status", repeat)
 
 
 def budget_page(fleet, repeat):
     """The manager's replacement budget page."""
-    path = reverse("budget:home")
-    get = page(fleet.manager, path)
-    return {"ms": median_ms(get, max(1, repeat // 2)), "queries": query_count(get), "path": path}
+    return timed_page(fleet.manager, reverse("budget:home"), max(1, repeat // 2))
 
 
 def budget_export(fleet, repeat):
     """The manager's replacement budget as XLSX."""
-    path = reverse("budget:export_xlsx")
-    get = page(fleet.manager, path)
-    return {"ms": median_ms(get, max(1, repeat // 2)), "queries": query_count(get), "path": path}
+    return timed_page(fleet.manager, reverse("budget:export_xlsx"), max(1, repeat // 2))
 
 
 def _import_rows(fleet, batteries, readings_each, minute=0):
