@@ -54,5 +54,15 @@ def furthest_below_median_of_others_sg(sg_by_position):
     """The furthest any cell reads below the median of the other cells (SG), or None for fewer than two cells:
     the one figure that says how far behind a battery's weakest cell is, as the spread rule judges it.
     Source: common practice (field notes, "Measuring well"), as `below_median_of_others_sg`."""
-    below = below_median_of_others_sg(sg_by_position)
-    return max(below.values()) if below else None
+    ordered = sorted(float(sg) for sg in dict(sg_by_position).values() if sg is not None)
+    if len(ordered) < 2:
+        return None
+    # The lowest cell is the furthest behind: leaving it out raises the others' median the most, and its own SG is
+    # the least. So one median answers, where below_median_of_others_sg works out one for every cell.
+    others = ordered[1:]
+    middle = len(others) // 2
+    median = others[middle] if len(others) % 2 else (others[middle - 1] + others[middle]) / 2
+    furthest = round(median - ordered[0], 6)
+    if furthest == 0:  # a level tray: the answer is the first cell's zero, which may be -0.0 after rounding
+        return max(below_median_of_others_sg(sg_by_position).values())
+    return furthest

@@ -8,12 +8,15 @@ asked for. A reading is already stored when its battery has a current reading of
 in the same minute, whatever stored it (tablet, API, demo, an earlier import): the import adds nothing
 for it.
 """
+import contextlib
+import contextvars
 import csv
 import datetime as dt
 import io
 import itertools
 import uuid
 from collections import Counter
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from operator import attrgetter, itemgetter
 from typing import NamedTuple
@@ -31,7 +34,7 @@ from fleetcare.readings import signals, state, validation
 from fleetcare.readings.models import EntryPolicy
 from fleetcare.readings.validation import SG_HIGH, SG_LOW, TEMP_HIGH_C, TEMP_LOW_C
 from fleetcare.readings.models import CellReading, Inspection
-from fleetcare.readings.services import SG_PLACES, _q, corrected_cell_sg, summarise
+from fleetcare.readings.services import SG_PLACES, _q, corrected_cell_sg, summarise_values
 from fleetcare.spreadsheets import CsvWriter, before_inert
 
 COLUMNS = ["serial", "taken_at", "situation", "cell", "sg", "temp", "volts", "level"]
@@ -100,21 +103,14 @@ class CellValues:
     sg_corrected: Decimal | None
     temp_unit: str  # the unit the temperature was read in ("" when there is none)
     copy_tail: str  # the cell row's COPY text after its inspection and position
+    sg_corrected_float: float | None  # what the summary works from (services.summarise_values)
 
 
 class CheckedCell(NamedTuple):
-    """One checked row: its line, cell position and values (what summarise() reads is passed through)."""
+    """One checked row: its line, cell position and values."""
     line: int
     position: int
     values: CellValues
-
-    @property
-    def sg_corrected(self):
-        return self.values.sg_corrected
-
-    @property
-    def volts(self):
-        return self.values.volts
 
 
 @dataclass(frozen=True, slots=True)
@@ -126,15 +122,16 @@ class CheckedReading:
     situation: str
     hours_since_charge: Decimal | None
     cells: tuple
+    client_uuid: uuid.UUID = field(init=False)  # worked out once: the already-stored check and the write use it
+
+    def __post_init__(self):
+        object.__setattr__(self, "client_uuid", uuid.uuid5(
+            IMPORT_NAMESPACE, f"{self.battery.serial}|{self.taken_at.isoformat()}|{self.situation}"))
 
     @property
     def key(self):
         """What makes two readings the same reading: battery, minute and situation."""
         return (self.battery.pk, self.taken_at.replace(second=0, microsecond=0), self.situation)
-
-    @property
-    def client_uuid(self):
-        return uuid.uuid5(IMPORT_NAMESPACE, f"{self.battery.serial}|{self.taken_at.isoformat()}|{self.situation}")
 
     @property
     def scope(self):
@@ -310,6 +307,7 @@ class Checker:
         self.sgs = {}
         self.positions = {}  # cell number as written -> number or None
         self.seen = {}  # reading key -> first line, to find a reading given twice in one file
+        self.situations = {}  # profile pk -> the situations its readings may be taken in
 
     def limits_of(self, battery):
         """The battery's entry limits (validation.limits_for with the settings in force), once per battery."""
@@ -421,7 +419,10 @@ class Checker:
             problems.append(("situation", f"situation “{_shown(row.situation)}” is not one of "
                                           f"{', '.join(Inspection.Situation.values)}."))
         elif battery is not None:
-            refused = validation.situation_problem(situation, validation.situations_for(battery.profile))
+            situations = self.situations.get(battery.profile.pk)
+            if situations is None:
+                situations = self.situations[battery.profile.pk] = validation.situations_for(battery.profile)
+            refused = validation.situation_problem(situation, situations)
             if refused:
                 problems.append(("situation", refused))
         return battery, taken_at, situation, problems
@@ -486,7 +487,7 @@ class Checker:
         corrected = _q(corrected_cell_sg(battery.profile, sg, temp_c, False), SG_PLACES)
         tail = (f"{_copy_text(sg)}\t{_copy_text(corrected)}\t{_copy_text(temp_c, TEMP_PLACES)}\t"
                 f"{_copy_text(volts, VOLTS_PLACES)}\t{level}\n")
-        return CellValues(sg, temp_c, volts, level, corrected, unit, tail)
+        return CellValues(sg, temp_c, volts, level, corrected, unit, tail, None if corrected is None else float(corrected))
 
     def _check_values(self, battery, sg_text, temp_text, volts_text, level_text, unit_text):
         """([(column, message)], (sg, temp °C, volts, level, (unit, source)) or None)."""
@@ -672,7 +673,10 @@ def store_readings(readings, user, folding=None):
         # On PostgreSQL the row goes out through COPY, so a plain record is enough (a model instance costs more).
         inspection = _PendingInspection(battery_id=reading.battery.pk, taken_by_id=user.pk, **fields) if postgres \
             else Inspection(taken_by=user, **fields)
-        summarise(inspection, sorted(reading.cells, key=lambda cell: cell.position))
+        cells = sorted(reading.cells, key=_position_of)
+        summarise_values(inspection,
+                         [(cell.position, cell.values.sg_corrected_float) for cell in cells if cell.values.sg_corrected is not None],
+                         [cell.values.volts for cell in cells if cell.values.volts is not None])
         inspections.append(inspection)
     _insert_inspections(inspections)
     cells = _insert_cells(zip(inspections, readings))
@@ -681,6 +685,9 @@ def store_readings(readings, user, folding=None):
     else:
         folding.add(inspections)
     return cells
+
+
+_position_of = attrgetter("position")
 
 
 class _PendingInspection:
@@ -729,33 +736,40 @@ def import_readings(source, *, user, batteries, good_rows_only=False, dry_run=Fa
 def _run(source, checker, report, store, progress, rows_per_chunk):
     """Read, check and (when store is (user, battery_ids, good_rows_only, folding)) write the file chunk by chunk."""
     rows = _counted(read_rows(source, report), report)
-    try:
-        for chunk in chunks(group_rows(rows), rows_per_chunk or CHUNK_ROWS):
-            checker.load_batteries(chunk)
-            readings = [r for r in (checker.check_reading(*found) for found in checker.readings_in(chunk)) if r is not None]
-            already = find_already_stored(readings)
-            new = []
-            for i, reading in enumerate(readings):
-                if i in already:
-                    report.inspections_already_stored += 1
-                    checker.note(reading.line, "taken_at", f"{reading.describe()} is already stored.", level=Note.STORED)
-                else:
-                    new.append(reading)
-            writing = store is not None and (store[2] or not report.problem_count)
-            if writing and new:
-                user, battery_ids, _, folding = store
-                report.cells_created += store_readings(new, user, folding)
-                battery_ids.update(reading.battery.pk for reading in new)
-            elif store is None:
-                report.cells_created += sum(len(reading.cells) for reading in new)
-            report.inspections_created += len(new)
-            if progress is not None:
-                progress(report)
-    except FileProblem as exc:
-        line, message = exc.args
-        checker.note(line, "file", message)
+    copying = store is not None and connection.vendor == "postgresql"
+    with _Copier.running() if copying else contextlib.nullcontext():
+        try:
+            _run_chunks(rows, checker, report, store, progress, rows_per_chunk)
+        except FileProblem as exc:
+            line, message = exc.args
+            checker.note(line, "file", message)
     report.problems.sort(key=lambda note: note.line)
     report.checks.sort(key=lambda note: note.line)
+
+
+def _run_chunks(rows, checker, report, store, progress, rows_per_chunk):
+    """Each chunk: check its readings, find those already stored, store the rest, report progress."""
+    for chunk in chunks(group_rows(rows), rows_per_chunk or CHUNK_ROWS):
+        checker.load_batteries(chunk)
+        readings = [r for r in (checker.check_reading(*found) for found in checker.readings_in(chunk)) if r is not None]
+        already = find_already_stored(readings)
+        new = []
+        for i, reading in enumerate(readings):
+            if i in already:
+                report.inspections_already_stored += 1
+                checker.note(reading.line, "taken_at", f"{reading.describe()} is already stored.", level=Note.STORED)
+            else:
+                new.append(reading)
+        writing = store is not None and (store[2] or not report.problem_count)
+        if writing and new:
+            user, battery_ids, _, folding = store
+            report.cells_created += store_readings(new, user, folding)
+            battery_ids.update(reading.battery.pk for reading in new)
+        elif store is None:
+            report.cells_created += sum(len(reading.cells) for reading in new)
+        report.inspections_created += len(new)
+        if progress is not None:
+            progress(report)
 
 
 def _counted(rows, report):
@@ -818,8 +832,8 @@ def _insert_inspections(inspections):
                 "\\N" if value is None else write(value)
                 for value, write in ((values.get(attname, default), write) for attname, write, default in writers)
             ) + "\n")
-        columns = ", ".join(["id"] + [f.column for f in fields])
-        cursor.copy_expert(f"COPY {table} ({columns}) FROM STDIN", io.StringIO("".join(lines)))
+    columns = ", ".join(["id"] + [f.column for f in fields])
+    _copy(f"COPY {table} ({columns}) FROM STDIN", "".join(lines))
 
 
 def _insert_cells(inspections_and_readings):
@@ -838,12 +852,74 @@ def _insert_cells(inspections_and_readings):
     for inspection, reading in inspections_and_readings:
         prefix = f"{inspection.pk}\t"
         lines.extend(f"{prefix}{cell.position}\t{cell.values.copy_tail}" for cell in reading.cells)
-    with connection.cursor() as cursor:
-        cursor.copy_expert(
-            f"COPY {CellReading._meta.db_table} (inspection_id, position, sg, sg_corrected, temp_c, volts, level) FROM STDIN",
-            io.StringIO("".join(lines)),
-        )
+    _copy(f"COPY {CellReading._meta.db_table} (inspection_id, position, sg, sg_corrected, temp_c, volts, level) FROM STDIN",
+          "".join(lines))
     return len(lines)
+
+
+def _copy(sql, text):
+    """Run one COPY ... FROM STDIN with this text: on the import's copying thread when one is running (_Copier),
+    else now."""
+    copier = _COPIER.get()
+    if copier is not None:
+        copier.send(sql, text)
+        return
+    with connection.cursor() as cursor:
+        _send(cursor, sql, text)
+
+
+def _send(cursor, sql, text):
+    # One read of the whole text: psycopg2 takes the GIL back for every piece it reads, and a thread waiting
+    # for the GIL while another computes waits up to sys.getswitchinterval() (5 ms) each time.
+    cursor.copy_expert(sql, io.StringIO(text), len(text) + 1)
+
+
+class _Copier:
+    """The import's COPY statements run one after another on a thread of their own, on the import's own
+    connection and so in its transaction: PostgreSQL stores chunk N while the import reads and checks chunk N+1
+    (psycopg2 lets go of the GIL while it waits for the server). Every other query of the import waits first for
+    the COPY statements sent (one connection runs one statement at a time) and raises the first one's error, as
+    does the end of `running`; the caller's atomic block then rolls the whole import back."""
+
+    def __init__(self, database):
+        database.ensure_connection()
+        self.raw = database.connection  # psycopg2: threads may share a connection (not a cursor)
+        self.thread = ThreadPoolExecutor(max_workers=1, thread_name_prefix="csv-import-copy")
+        self.sent = []
+
+    @classmethod
+    @contextlib.contextmanager
+    def running(cls):
+        copier = cls(connection)
+        token = _COPIER.set(copier)
+        try:
+            with connection.execute_wrapper(copier.before_query):
+                yield copier
+            copier.wait()
+        finally:
+            _COPIER.reset(token)
+            copier.thread.shutdown(wait=True)  # on an error too: nothing is left running on the connection
+
+    def send(self, sql, text):
+        self.sent.append(self.thread.submit(self._copy, sql, text))
+
+    def _copy(self, sql, text):
+        with self.raw.cursor() as cursor:
+            _send(cursor, sql, text)
+
+    def wait(self):
+        """Return when every COPY sent is done; raise the first one's error."""
+        sent, self.sent = self.sent, []
+        errors = [error for error in (done.exception() for done in sent) if error is not None]
+        if errors:
+            raise errors[0]
+
+    def before_query(self, execute, sql, params, many, context):
+        self.wait()
+        return execute(sql, params, many, context)
+
+
+_COPIER = contextvars.ContextVar("csv_import_copier", default=None)
 
 
 def write_battery_readings(out, battery):

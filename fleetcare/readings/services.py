@@ -56,30 +56,34 @@ def is_rested(inspection, profile):
 
 def summarise(inspection, cells):
     """Fill the inspection's summary fields from its cells (not saved here)."""
+    return summarise_values(inspection, [(c.position, float(c.sg_corrected)) for c in cells if c.sg_corrected is not None],
+                            [c.volts for c in cells if c.volts is not None])
+
+
+def summarise_values(inspection, corrected, volts):
+    """summarise() from the cells' (position, corrected SG as a float) pairs and their volts, in position order, for
+    a caller that has the floats already (the CSV import converts each distinct value once)."""
     profile = inspection.battery.profile
-    corrected = [c.sg_corrected for c in cells if c.sg_corrected is not None]
     inspection.sg_mean = inspection.sg_min = inspection.sg_max = inspection.sg_spread = None
     inspection.sg_behind_median = None
     inspection.lowest_position = inspection.volts_total = inspection.soc_percent = None
     inspection.soc_basis = ""
     if corrected:
-        stats = chemistry.sg_stats([float(v) for v in corrected])
-        positions = [c.position for c in cells if c.sg_corrected is not None]
+        positions, sgs = zip(*corrected)
+        stats = chemistry.sg_stats(sgs)
         inspection.sg_mean = _q(stats.mean, SG_PLACES)
         inspection.sg_min = _q(stats.lowest, SG_PLACES)
         inspection.sg_max = _q(stats.highest, SG_PLACES)
         inspection.sg_spread = _q(stats.spread, SG_PLACES)
         inspection.lowest_position = positions[stats.lowest_index]
         if inspection.scope == Inspection.Scope.ALL_CELLS:
-            behind = chemistry.furthest_below_median_of_others_sg(
-                {c.position: float(c.sg_corrected) for c in cells if c.sg_corrected is not None})
+            behind = chemistry.furthest_below_median_of_others_sg(dict(corrected))
             inspection.sg_behind_median = _q(behind, BEHIND_PLACES)  # a median of two cells ends in 0.0005
         if profile.full_charge_sg is not None and profile.discharged_sg is not None:
             inspection.soc_percent = _q(
                 chemistry.soc_from_sg(stats.mean, float(profile.full_charge_sg), float(profile.discharged_sg)), SOC_PLACES
             )
             inspection.soc_basis = "sg"
-    volts = [c.volts for c in cells if c.volts is not None]
     if volts and len(volts) == (profile.positions if inspection.scope == Inspection.Scope.ALL_CELLS else 1):
         inspection.volts_total = _q(sum(volts), Decimal("0.01"))
         if inspection.soc_percent is None and is_rested(inspection, profile):
