@@ -9,6 +9,8 @@ which does not block readings being stored for them), so two writers of one batt
 the second computes from what the first committed.
 """
 from dataclasses import dataclass
+from functools import cached_property
+from types import SimpleNamespace
 
 from django.db.models import Count, IntegerField, Max, Min, OuterRef, Q, Subquery
 from django.db.models.functions import Coalesce
@@ -29,6 +31,14 @@ class Latest:
     where: Q
     matches: object
     copies: tuple = ()
+
+    @cached_property
+    def at_field(self):
+        return f"{self.name}_at"
+
+    @cached_property
+    def id_field(self):
+        return f"{self.name}_inspection_id"
 
 
 SHOWS_SOC = set(Inspection.SHOWS_STATE_OF_CHARGE)
@@ -156,8 +166,8 @@ class Folding:
     def add(self, inspections):
         for inspection in inspections:
             delta = self.deltas.get(inspection.battery_id)
-            if delta is None:
-                delta = self.deltas[inspection.battery_id] = BatteryState(battery_id=inspection.battery_id, **EMPTY)
+            if delta is None:  # the fields of a BatteryState as plain attributes: a model's cost more to set
+                delta = self.deltas[inspection.battery_id] = SimpleNamespace(battery_id=inspection.battery_id, **EMPTY)
             _fold(delta, inspection)
 
     def write(self):
@@ -179,9 +189,9 @@ def _merge(state, delta):
     changed."""
     changed = set()
     for kind in KINDS:
-        at = getattr(delta, f"{kind.name}_at")
+        at = getattr(delta, kind.at_field)
         if at is not None:
-            changed |= _offer(state, kind, at, getattr(delta, f"{kind.name}_inspection_id"),
+            changed |= _offer(state, kind, at, getattr(delta, kind.id_field),
                               {target: getattr(delta, target) for _source, target in kind.copies})
     return changed | _add_charges(state, delta.charge_count, delta.first_post_charge_at)
 
@@ -201,14 +211,14 @@ def _fold(state, inspection):
 def _offer(state, kind, at, pk, copied):
     """The row's latest reading of `kind` becomes this one (taken `at`, id `pk`, `copied` {state field: value}) if
     it is later: by time, ties to the later stored. Returns the fields changed."""
-    now_at, now_pk = getattr(state, f"{kind.name}_at"), getattr(state, f"{kind.name}_inspection_id")
+    now_at, now_pk = getattr(state, kind.at_field), getattr(state, kind.id_field)
     if now_at is not None and (at, pk) <= (now_at, now_pk or 0):
         return set()
-    setattr(state, f"{kind.name}_inspection_id", pk)
-    setattr(state, f"{kind.name}_at", at)
+    setattr(state, kind.id_field, pk)
+    setattr(state, kind.at_field, at)
     for target, value in copied.items():
         setattr(state, target, value)
-    return {f"{kind.name}_inspection", f"{kind.name}_at", *copied}
+    return {f"{kind.name}_inspection", kind.at_field, *copied}
 
 
 def _add_charges(state, count, first_at):

@@ -1,3 +1,4 @@
+import gc
 import io
 from decimal import Decimal
 
@@ -6,6 +7,7 @@ from django.core.management import CommandError, call_command
 from django.urls import reverse
 
 from fleetcare.fleet.models import Battery
+from fleetcare.readings import csv_io
 from fleetcare.readings.csv_io import import_readings
 from fleetcare.readings.models import CellReading, Inspection
 
@@ -153,3 +155,17 @@ def test_a_superscript_digit_is_not_a_cell_number(battery, crew):
     # str.isdigit() accepts "²" but int() refuses it: the check must not crash on it.
     report = run(HEADER + "TW-001,2026-11-02T06:00,charged,²,1.280,25,,ok\n", crew)
     assert report.errors == [(2, "cell “²” is not a whole number.")]
+
+
+def test_the_garbage_collectors_setting_is_raised_while_importing_and_restored_after(battery, crew):
+    before = gc.get_threshold()
+    during = []
+    run(HEADER + inspection_rows(), crew, progress=lambda report: during.append(gc.get_threshold()))
+    assert during == [(csv_io.IMPORT_GC_THRESHOLD, *before[1:])] and gc.get_threshold() == before
+
+    def fail(report):
+        raise OSError("disk full")
+
+    with pytest.raises(OSError):
+        run(HEADER + inspection_rows(taken="2026-11-03T06:00"), crew, progress=fail)
+    assert gc.get_threshold() == before and Inspection.objects.count() == 1
