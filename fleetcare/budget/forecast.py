@@ -37,7 +37,9 @@ sooner) gives its renewal, so a five-year budget carries short-lived wheelchair 
 Fiscal years are labelled by the calendar year they end in: with an April start, 1 April 2026 to
 31 March 2027 is FY2027. A January start makes the fiscal year the calendar year.
 """
+import bisect
 import math
+import operator
 from dataclasses import dataclass, field
 from datetime import date, timedelta
 from decimal import ROUND_HALF_UP, Decimal
@@ -104,6 +106,11 @@ class PostCharge(NamedTuple):
     sg_min: float | None = None
 
 
+# The budget reads half a million post-charge points at 10,000 batteries: the selector hands them over as plain
+# tuples in PostCharge's field order, so the forecast reads them by position.
+POINT_DAY, POINT_MEAN, POINT_SPREAD = 0, 1, 2
+
+
 @dataclass(frozen=True)
 class ServiceHistory:
     """One battery's service so far, as the forecast reads it: age, charges, capacity tests, post-charge
@@ -127,7 +134,7 @@ class ServiceHistory:
     logged_charges: int = 0
     first_logged_charge: date | None = None
     capacity_tests: tuple = ()  # ((date, percent), ...): corrected capacity tests only
-    post_charge: tuple = ()  # (PostCharge, ...) oldest first
+    post_charge: tuple = ()  # (PostCharge or a plain tuple in its field order, ...) oldest first
     weak_cells: tuple = ()  # cells the weak-cell finding calls failing
     failing_because: str = ""  # the finding's words for why (still low after equalizing, ...)
     weak_block: bool = False  # a sealed pair with a weak block (finding)
@@ -257,15 +264,16 @@ def fit_trend(points):
     ys = [float(v) for _, v in points]
     n = len(xs)
     mx, my = sum(xs) / n, sum(ys) / n
-    sxx = sum((x - mx) ** 2 for x in xs)
+    dx = [x - mx for x in xs]
+    sxx = sum(map(operator.mul, dx, dx))
     if sxx == 0:
         return None
-    slope = sum((x - mx) * (y - my) for x, y in zip(xs, ys, strict=True)) / sxx
+    slope = sum(map(operator.mul, dx, [y - my for y in ys])) / sxx
     intercept = my - slope * mx
     se = None
     if n > 2:
-        residual = sum((y - (intercept + slope * x)) ** 2 for x, y in zip(xs, ys, strict=True))
-        se = math.sqrt(residual / (n - 2) / sxx)
+        misses = [y - (intercept + slope * x) for x, y in zip(xs, ys, strict=True)]
+        se = math.sqrt(sum(map(operator.mul, misses, misses)) / (n - 2) / sxx)
     return Trend(slope, intercept, se, origin)
 
 
@@ -373,14 +381,14 @@ def capacity_evidence(facts, today, rules):
 
 def _recent(facts, today, rules):
     since = today - timedelta(days=rules.trend_window_days)
-    return [p for p in facts.post_charge if p.taken_on >= since]
+    return facts.post_charge[bisect.bisect_left(facts.post_charge, since, key=operator.itemgetter(POINT_DAY)):]
 
 
 def sg_mean_evidence(facts, today, rules):
     """Average SG after charge: "equalize and test" when it is low, never a replacement date on its own."""
     if facts.full_charge_sg is None:
         return None
-    points = [(p.taken_on, p.sg_mean) for p in _recent(facts, today, rules) if p.sg_mean is not None]
+    points = [(p[POINT_DAY], p[POINT_MEAN]) for p in _recent(facts, today, rules) if p[POINT_MEAN] is not None]
     if not points:
         return None
     level = facts.full_charge_sg - rules.sg_drop_allowed
@@ -402,7 +410,7 @@ def sg_mean_evidence(facts, today, rules):
 
 
 def spread_evidence(facts, today, rules):
-    points = [(p.taken_on, p.sg_spread) for p in _recent(facts, today, rules) if p.sg_spread is not None]
+    points = [(p[POINT_DAY], p[POINT_SPREAD]) for p in _recent(facts, today, rules) if p[POINT_SPREAD] is not None]
     if not points:
         return None
     limit = rules.spread_limit
