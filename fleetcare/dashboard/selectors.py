@@ -14,7 +14,7 @@ from functools import reduce
 from types import SimpleNamespace
 from urllib.parse import urlencode
 
-from django.db.models import BooleanField, Count, Exists, ExpressionWrapper, F, Max, Min, OuterRef, Q, Sum
+from django.db.models import BooleanField, Count, Exists, ExpressionWrapper, F, Max, Min, OuterRef, Q
 from django.urls import reverse
 from django.utils import timezone
 
@@ -29,7 +29,7 @@ from fleetcare.fleet import life, site_time, site_units
 from fleetcare.fleet.models import Battery, Fitting
 from fleetcare.planner import overdue
 from fleetcare.readings import selectors as reading_selectors
-from fleetcare.readings.models import Inspection, WaterTopUp
+from fleetcare.readings.models import BatteryMonth, Inspection
 
 
 
@@ -307,19 +307,18 @@ def _outliers(values):
 def _water_chart(batteries, rows, now, unit_site=None):
     """Water per cell per month for each waterable battery: a box per month for each battery profile
     (like compared with like), outliers named. A flooded battery in service with no water logged in a
-    month counts as zero (missed watering). Amounts are in unit_site's units (mL when the sites shown differ)."""
+    month counts as zero (missed watering). Amounts are in unit_site's units (mL when the sites shown differ).
+    Each battery's months are those of its site's clock (the kept monthly totals, fleetcare.readings.state)."""
     edges = _month_starts(now, WATER_MONTHS)
     waterable = [r for r in rows if r["waterable"]]
     if not waterable:
         return None
-    sums = (
-        WaterTopUp.objects.current()
-        .filter(battery__in=batteries, done_at__gte=edges[0], done_at__lt=edges[-1])
-        .values("battery_id")
-        .order_by()
-        .annotate(**_buckets("done_at", edges, lambda q: Sum("volume_ml", filter=q)))
-    )
-    by_battery = {s["battery_id"]: s for s in sums}
+    # The kept monthly totals (on each battery's site clock): twelve rows per battery, not a year of top-ups.
+    by_battery = defaultdict(dict)
+    for battery_id, month, water_ml in BatteryMonth.objects.filter(
+        battery__in=batteries, month__gte=edges[0].date(), month__lt=edges[-1].date(), top_ups__gt=0,
+    ).values_list("battery_id", "month", "water_ml"):
+        by_battery[battery_id][month] = water_ml
     by_profile = defaultdict(list)
     for r in waterable:
         by_profile[r["profile__name"]].append(r)
@@ -346,7 +345,7 @@ def _water_boxes(members, by_battery, edges, unit_site=None):
     per_battery = []
     for r in members:
         sums = by_battery.get(r["pk"], {})
-        per_battery.append((r, [sums.get(f"b{i}") for i in months], r["status"] in in_use))
+        per_battery.append((r, [sums.get(month_days[i]) for i in months], r["status"] in in_use))
     groups, outliers = [], []
     for i in months:
         month = edges[i].strftime("%b %Y")

@@ -110,10 +110,12 @@ class Inspection(models.Model):
         indexes = [
             models.Index(fields=["battery", "-taken_at"], name="inspection_battery_time"),
             # Each battery's readings after charge, newest first (overview, findings, budget): the latest
-            # of them, or their count, without reading the battery's whole history.
+            # of them, or their count, without reading the battery's whole history. The budget's trend points
+            # (a year of them for every battery) are read from the index alone on PostgreSQL.
             models.Index(
                 fields=["battery", "-taken_at"],
                 condition=models.Q(is_current=True, deleted_at__isnull=True, situation__in=["charged", "equalized"]),
+                include=["scope", "sg_mean", "sg_spread", "lowest_position", "sg_min"],
                 name="inspection_post_charge_time",
             ),
             # Readings low enough to count as deep discharge, in any situation (the default limit is 20 %; a
@@ -257,6 +259,28 @@ class BatteryState(models.Model):
 
     def __str__(self):
         return f"state of battery {self.battery_id}"
+
+
+class BatteryMonth(models.Model):
+    """One battery's totals for one calendar month on its site's clock, kept with its state
+    (fleetcare.readings.state) so the water chart and the budget's depth of discharge read twelve rows per
+    battery instead of a year of readings. Only current top-ups and current readings count."""
+
+    battery = models.ForeignKey(Battery, on_delete=models.CASCADE, related_name="months")
+    month = models.DateField(help_text="The first day of the month, on the battery's site clock.")
+    water_ml = models.DecimalField(max_digits=12, decimal_places=1, default=0,
+                                   help_text="Water added in the month, whole battery (mL).")
+    top_ups = models.PositiveIntegerField(default=0, help_text="Top-ups logged in the month.")
+    before_charge_socs = models.PositiveIntegerField(
+        default=0, help_text="Readings before charge with a state of charge, in the month.")
+    before_charge_soc_total = models.DecimalField(
+        max_digits=12, decimal_places=1, default=0, help_text="The sum of their states of charge (%).")
+
+    class Meta:
+        constraints = [models.UniqueConstraint(fields=["battery", "month"], name="one_row_per_battery_month")]
+
+    def __str__(self):
+        return f"battery {self.battery_id}, {self.month:%Y-%m}"
 
 
 class ReadingChange(models.Model):

@@ -1,6 +1,9 @@
 """Each battery's current state (BatteryState), kept in step with its history by the writes in services.py and
 csv_io.py, in their own transaction, so pages read one row per battery instead of the battery's whole history.
 
+It also keeps each battery's totals per calendar month on its site's clock (BatteryMonth: water added, and the
+states of charge read before charging), added to in the same way and recomputed with the row.
+
 A new reading or top-up is folded into the row (`absorb_inspection`, `absorb_top_up`; a CSV import's readings
 through a `Folding`, written once at its end): constant work whatever the history. A correction or a removal recomputes the rows it
 touched from history (`refresh`), and
@@ -8,15 +11,19 @@ touched from history (`refresh`), and
 which does not block readings being stored for them), so two writers of one battery's state take turns and
 the second computes from what the first committed.
 """
+import zoneinfo
+from collections import defaultdict
 from dataclasses import dataclass
+from decimal import Decimal
 from functools import cached_property
 from types import SimpleNamespace
 
-from django.db.models import Count, IntegerField, Max, Min, OuterRef, Q, Subquery
-from django.db.models.functions import Coalesce
+from django.db import transaction
+from django.db.models import Count, IntegerField, Max, Min, OuterRef, Q, Subquery, Sum
+from django.db.models.functions import Coalesce, TruncMonth
 
-from fleetcare.fleet.models import Battery
-from fleetcare.readings.models import BatteryState, Inspection, WaterTopUp
+from fleetcare.fleet.models import Battery, Site
+from fleetcare.readings.models import BatteryMonth, BatteryState, Inspection, WaterTopUp
 
 CHUNK = 400  # batteries per rebuild query (SQLite allows 999 parameters in one statement)
 
@@ -124,6 +131,7 @@ def refresh(battery_ids):
         [BatteryState(battery_id=pk, **values) for pk, values in rows.items()],
         batch_size=CHUNK, update_conflicts=True, unique_fields=["battery"], update_fields=STATE_FIELDS,
     )
+    refresh_months(ids)
 
 
 def rebuild(battery_ids=None):
@@ -144,6 +152,9 @@ def absorb_inspection(inspection):
     changed = _fold(state, inspection)
     if changed:
         state.save(update_fields=sorted(changed))
+    months = Months()
+    months.add_inspections([inspection])
+    months.write()
 
 
 def absorb_inspections(inspections):
@@ -162,6 +173,7 @@ class Folding:
 
     def __init__(self):
         self.deltas = {}
+        self.months = Months()
 
     def add(self, inspections):
         for inspection in inspections:
@@ -169,6 +181,7 @@ class Folding:
             if delta is None:  # the fields of a BatteryState as plain attributes: a model's cost more to set
                 delta = self.deltas[inspection.battery_id] = SimpleNamespace(battery_id=inspection.battery_id, **EMPTY)
             _fold(delta, inspection)
+        self.months.add_inspections(inspections)
 
     def write(self):
         ids = sorted(self.deltas)
@@ -180,8 +193,9 @@ class Folding:
             changed = _merge(state, self.deltas[battery_id])
             if changed:
                 state.save(update_fields=sorted(changed))
+        self.months.write(only=states)  # a battery without a row gets its months with it, from history
         refresh([pk for pk in ids if pk not in states])
-        self.deltas = {}
+        self.deltas, self.months = {}, Months()
 
 
 def _merge(state, delta):
@@ -239,9 +253,13 @@ def absorb_top_up(top_up):
     state = BatteryState.objects.filter(battery_id=top_up.battery_id).first()
     if state is None:
         refresh([top_up.battery_id])
-    elif state.watered_at is None or top_up.done_at > state.watered_at:
+        return
+    if state.watered_at is None or top_up.done_at > state.watered_at:
         state.watered_at = top_up.done_at
         state.save(update_fields=["watered_at"])
+    months = Months()
+    months.add_top_up(top_up)
+    months.write()
 
 
 def stored(battery_ids):
@@ -260,9 +278,156 @@ def differences(battery_ids=None):
     for start in range(0, len(ids), CHUNK):
         part = ids[start:start + CHUNK]
         have, want = stored(part), computed(part)
+        have_months, want_months = stored_months(part), computed_months(part)
         for pk, values in want.items():
             row = have.get(pk, EMPTY)
             fields = {name for name, value in values.items() if row[name] != value}
+            if have_months.get(pk, {}) != want_months.get(pk, {}):
+                fields.add("months")
             if fields:
                 out[pk] = fields
     return out
+
+
+# --- Monthly totals ------------------------------------------------------------------------------
+
+MONTH_FIELDS = ("water_ml", "top_ups", "before_charge_socs", "before_charge_soc_total")
+BEFORE_CHARGE = Inspection.Situation.BEFORE_CHARGE
+# What the months count, said once for SQL and once for a reading in hand (every reading folded in is current).
+COUNTS_FOR_DEPTH = Q(situation=BEFORE_CHARGE, soc_percent__isnull=False)
+
+
+def counts_for_depth(inspection):
+    return inspection.situation == BEFORE_CHARGE and inspection.soc_percent is not None
+
+
+def month_of(moment, zone):
+    """The first day of the month `moment` falls in, on the clock of `zone`."""
+    return moment.astimezone(zone).date().replace(day=1)
+
+
+def site_zones(battery_ids):
+    """{battery id: its site's zone}: one query."""
+    return {pk: zoneinfo.ZoneInfo(name)
+            for pk, name in Battery.objects.filter(pk__in=list(battery_ids)).values_list("pk", "site__timezone")}
+
+
+class Months:
+    """Additions to batteries' monthly totals, summed in memory and written at once (`write`, inside the
+    caller's transaction, after the batteries were locked)."""
+
+    def __init__(self):
+        self.totals = defaultdict(lambda: [Decimal(0), 0, 0, Decimal(0)])  # (battery id, month) -> MONTH_FIELDS
+        self.zones = {}
+
+    def _zone(self, battery_ids):
+        unknown = set(battery_ids) - set(self.zones)
+        if unknown:
+            self.zones.update(site_zones(unknown))
+        return self.zones
+
+    def add_inspections(self, inspections):
+        counted = [i for i in inspections if counts_for_depth(i)]
+        zones = self._zone({i.battery_id for i in counted})
+        for inspection in counted:
+            total = self.totals[inspection.battery_id, month_of(inspection.taken_at, zones[inspection.battery_id])]
+            total[2] += 1
+            total[3] += inspection.soc_percent
+
+    def add_top_up(self, top_up):
+        total = self.totals[top_up.battery_id, month_of(top_up.done_at, self._zone([top_up.battery_id])[top_up.battery_id])]
+        total[0] += top_up.volume_ml
+        total[1] += 1
+
+    def write(self, only=None):
+        """Add the sums to the stored rows (only those of the batteries in `only`, if given)."""
+        wanted = {key: values for key, values in self.totals.items() if only is None or key[0] in only}
+        if not wanted:
+            return
+        rows = {(row.battery_id, row.month): row for row in BatteryMonth.objects.filter(
+            battery_id__in={pk for pk, _month in wanted}, month__in={month for _pk, month in wanted})}
+        changed, new = [], []
+        for (battery_id, month), values in wanted.items():
+            row = rows.get((battery_id, month))
+            if row is None:
+                new.append(BatteryMonth(battery_id=battery_id, month=month, **dict(zip(MONTH_FIELDS, values, strict=True))))
+                continue
+            for name, value in zip(MONTH_FIELDS, values, strict=True):
+                setattr(row, name, getattr(row, name) + value)
+            changed.append(row)
+        BatteryMonth.objects.bulk_create(new, batch_size=CHUNK)
+        BatteryMonth.objects.bulk_update(changed, MONTH_FIELDS, batch_size=CHUNK)
+
+
+def computed_months(battery_ids):
+    """{battery id: {month: (water_ml, top_ups, before_charge_socs, before_charge_soc_total)}} from history
+    (batteries with nothing to count are left out). Two queries for each site clock among the batteries."""
+    by_zone = defaultdict(list)
+    for pk, zone in site_zones(battery_ids).items():
+        by_zone[zone].append(pk)
+    out = defaultdict(lambda: defaultdict(lambda: [Decimal(0), 0, 0, Decimal(0)]))
+    for zone, ids in by_zone.items():
+        water = (WaterTopUp.objects.current().filter(battery_id__in=ids)
+                 .annotate(m=TruncMonth("done_at", tzinfo=zone)).order_by()
+                 .values("battery_id", "m").annotate(ml=Sum("volume_ml"), n=Count("pk")))
+        for row in water:
+            total = out[row["battery_id"]][row["m"].date()]
+            total[0], total[1] = row["ml"], row["n"]
+        socs = (Inspection.objects.current().filter(COUNTS_FOR_DEPTH, battery_id__in=ids)
+                .annotate(m=TruncMonth("taken_at", tzinfo=zone)).order_by()
+                .values("battery_id", "m").annotate(n=Count("pk"), soc=Sum("soc_percent")))
+        for row in socs:
+            total = out[row["battery_id"]][row["m"].date()]
+            total[2], total[3] = row["n"], row["soc"]
+    return {pk: {month: tuple(values) for month, values in months.items()} for pk, months in out.items()}
+
+
+def stored_months(battery_ids):
+    """The same as computed_months, as stored."""
+    out = defaultdict(dict)
+    for row in BatteryMonth.objects.filter(battery_id__in=list(battery_ids)).values("battery_id", "month", *MONTH_FIELDS):
+        out[row["battery_id"]][row["month"]] = tuple(row[name] for name in MONTH_FIELDS)
+    return dict(out)
+
+
+def refresh_months(battery_ids):
+    """Recompute these batteries' monthly totals from history and store them (inside the caller's transaction,
+    the batteries locked)."""
+    ids = sorted(set(battery_ids))
+    months = computed_months(ids)
+    BatteryMonth.objects.filter(battery_id__in=ids).delete()
+    BatteryMonth.objects.bulk_create(
+        [BatteryMonth(battery_id=pk, month=month, **dict(zip(MONTH_FIELDS, values, strict=True)))
+         for pk, by_month in months.items() for month, values in by_month.items()],
+        batch_size=CHUNK,
+    )
+
+
+def remember_zone(sender, instance, **kwargs):
+    """Before a battery or a site is saved: the site clock its months are kept on now."""
+    instance._months_zone = None
+    if instance.pk is not None and not instance._state.adding:
+        if isinstance(instance, Site):
+            instance._months_zone = Site.objects.filter(pk=instance.pk).values_list("timezone", flat=True).first()
+        else:
+            instance._months_zone = (Battery.objects.filter(pk=instance.pk)
+                                     .values_list("site__timezone", flat=True).first())
+
+
+def follow_zone(sender, instance, created=False, **kwargs):
+    """After a battery moved to a site on another clock, or a site's clock changed: its batteries' months are
+    counted again on the new clock."""
+    before = getattr(instance, "_months_zone", None)
+    if created or before is None:
+        return
+    if isinstance(instance, Site):
+        if before == instance.timezone:
+            return
+        ids = list(Battery.objects.filter(site=instance).values_list("pk", flat=True))
+    else:
+        if before == Site.objects.filter(pk=instance.site_id).values_list("timezone", flat=True).first():
+            return
+        ids = [instance.pk]
+    with transaction.atomic():
+        lock(ids)
+        refresh_months(ids)

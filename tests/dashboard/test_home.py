@@ -1,6 +1,7 @@
 import datetime as dt
 import json
 import re
+import zoneinfo
 
 import pytest
 from django.db import connection
@@ -368,3 +369,30 @@ def test_deep_discharge_follows_a_sites_findings_policy(battery, supervisor, now
     assert selectors.deep_discharge_by_truck_and_shift(Battery.objects.all(), since) == {}
     CarePolicy.objects.create(site=site, deep_discharge_soc_percent=30, note="site rule: stop at 30 %")
     assert selectors.deep_discharge_by_truck_and_shift(Battery.objects.all(), since) == {("FL-01", "No shift set"): 1}
+
+
+def test_the_overview_and_the_battery_record_count_water_in_the_month_of_the_sites_clock(
+    super_client, site, traction_profile, supervisor, now
+):
+    """A supervisor of sites on two clocks reads the overview in UTC; each battery's water still falls in the
+    month of its own site's clock, the month its battery record shows it in. Here the big top-up lands in the
+    first hours of last month in Tokyo, which is still the month before in UTC."""
+    site.timezone = "Asia/Tokyo"  # the supervisor's other site stays on London's clock
+    site.save()
+    tokyo = zoneinfo.ZoneInfo("Asia/Tokyo")
+    local_now = now.astimezone(tokyo)
+    last_month = (local_now.replace(day=1) - dt.timedelta(days=1)).replace(day=1, hour=3, minute=0, second=0,
+                                                                            microsecond=0)
+    assert last_month.astimezone(dt.UTC).month != last_month.month  # 03:00 in Tokyo is the day before in UTC
+    for k, ml in enumerate([2400, 2500, 2300, 2450, 2350, 7200]):
+        b = Battery.objects.create(
+            serial=f"W-{k}", profile=traction_profile, site=site, in_service_date=dt.date(2024, 1, 1)
+        )
+        water(b, supervisor, last_month + dt.timedelta(days=10 if k < 5 else 0), ml)
+    fig = figure(super_client.get(HOME).content.decode(), "chart-water-monthly")
+    outliers = fig["data"][1]
+    assert outliers["text"] == ["W-5"] and outliers["y"] == [300.0]  # 7,200 mL over 24 cells
+    assert outliers["x"] == [last_month.strftime("%b %Y")]
+    record = super_client.get(reverse("fleet:battery", args=[Battery.objects.get(serial="W-5").pk]))
+    chart = record.context["water_chart"]["data"][0]
+    assert list(chart["x"]) == [last_month.strftime("%Y-%m")] and list(chart["y"]) == [300.0]

@@ -9,12 +9,15 @@ import pytest
 from django.apps import apps
 from django.core.management import call_command
 
-from fleetcare.fleet.models import Battery
+from fleetcare.fleet.models import Battery, Site
 from fleetcare.readings import services, state
 from fleetcare.readings.csv_io import import_readings
-from fleetcare.readings.models import BatteryState, Inspection, WaterTopUp
+from fleetcare.readings.models import BatteryMonth, BatteryState, Inspection, WaterTopUp
 
-START = dt.datetime(2026, 10, 1, 6, 0, tzinfo=dt.UTC)
+# Readings fall on both sides of a month's end on every clock below (Tokyo's is at 15:00 UTC the day before,
+# Chicago's at 05:00 UTC), so the kept monthly totals meet the boundary.
+START = dt.datetime(2026, 10, 31, 6, 0, tzinfo=dt.UTC)
+CLOCKS = ["UTC", "Europe/London", "America/Chicago", "Asia/Tokyo"]
 SITUATIONS = [value for value, _ in Inspection.Situation.choices]
 
 
@@ -26,7 +29,7 @@ def cells(rng, count):
 
 def when(rng):
     # Few distinct moments, so readings often share a time and the later stored must win the tie.
-    return START + dt.timedelta(hours=6 * rng.randint(0, 30))
+    return START + dt.timedelta(hours=3 * rng.randint(0, 10))
 
 
 def record(rng, battery, user):
@@ -66,7 +69,7 @@ def remove_top_up(rng, battery, user):
 
 def csv_import(rng, battery, user):
     """A file for this battery and, half the time, every other one too (a chunk spans batteries)."""
-    day = START + dt.timedelta(days=rng.randint(0, 8), minutes=rng.randint(0, 59))
+    day = START + dt.timedelta(hours=rng.randint(0, 30), minutes=rng.randint(0, 59))
     text = "serial,taken_at,situation,cell,sg,temp,volts,level\n"
     for reading in range(rng.randint(1, 3)):
         taken = (day + dt.timedelta(hours=reading)).strftime("%Y-%m-%dT%H:%M")
@@ -78,20 +81,40 @@ def csv_import(rng, battery, user):
     assert report.imported, report.errors
 
 
-STEPS = [record] * 5 + [correct] * 2 + [remove, top_up, top_up, remove_top_up, csv_import]
+def change_clock(rng, battery, user):
+    """The site's clock is set to another zone: its batteries' months are counted again."""
+    site = battery.site
+    site.timezone = rng.choice(CLOCKS)
+    site.save()
+
+
+def move(rng, battery, user):
+    """The battery moves to another site (often on another clock)."""
+    battery.site = rng.choice(list(Site.objects.exclude(pk=battery.site_id)))
+    battery.save()
+
+
+STEPS = [record] * 5 + [correct] * 2 + [remove, top_up, top_up, remove_top_up, csv_import, change_clock, move]
 
 
 @pytest.mark.parametrize("seed", range(4))
 def test_the_kept_state_equals_the_rebuild_after_any_sequence_of_writes(battery, other_battery, supervisor, seed):
     rng = random.Random(seed)
     batteries = [battery, other_battery]
+    for each, clock in zip(batteries, ("Asia/Tokyo", "America/Chicago"), strict=True):
+        each.site.timezone = clock
+        each.site.save()
+    months_seen = set()
     for step in range(40):
         action = rng.choice(STEPS)
         action(rng, rng.choice(batteries), supervisor)
         assert state.differences([b.pk for b in batteries]) == {}, f"after step {step}: {action.__name__}"
+        months_seen |= set(BatteryMonth.objects.values_list("month", flat=True))
     # The history really was varied: both batteries kept readings, some were corrected and removed.
     assert Inspection.objects.filter(is_current=False).exists() or Inspection.objects.filter(deleted_at__isnull=False).exists()
     assert BatteryState.objects.filter(charge_count__gt=0, first_post_charge_at__isnull=False).exists()
+    assert BatteryMonth.objects.filter(top_ups__gt=0).exists() and BatteryMonth.objects.filter(before_charge_socs__gt=0).exists()
+    assert len(months_seen) > 1  # the month's end was crossed
 
 
 def test_the_state_names_the_latest_reading_of_each_kind(battery, supervisor):
@@ -187,4 +210,20 @@ def test_state_rows_from_before_the_earliest_charge_was_kept_get_it_when_migrati
 
     assert state.stored([battery.pk, other_battery.pk]) == expected
     assert expected[battery.pk]["first_post_charge_at"] is not None
+    assert state.differences() == {}
+
+
+def test_a_fleet_from_before_the_monthly_totals_gets_them_after_migrating(battery, other_battery, supervisor):
+    from fleetcare.readings.apps import fill_missing_state
+
+    rng = random.Random(9)
+    for _ in range(12):
+        rng.choice([record, top_up])(rng, rng.choice([battery, other_battery]), supervisor)
+    expected = state.stored_months([battery.pk, other_battery.pk])
+    assert expected
+    BatteryMonth.objects.all().delete()  # as the table was when it was first created
+
+    fill_missing_state(sender=None)
+
+    assert state.stored_months([battery.pk, other_battery.pk]) == expected
     assert state.differences() == {}

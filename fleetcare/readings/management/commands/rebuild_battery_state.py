@@ -6,7 +6,8 @@ from fleetcare.readings import state
 
 class Command(BaseCommand):
     help = ("Recompute every battery's current state (latest readings, state of charge, spread, last equalizing "
-            "and watering, charge count) from its history. The pages read that state; every write keeps it "
+            "and watering, charge count) and its totals per month (water added, states of charge before charging) "
+            "from its history. The pages read them; every write keeps them "
             "current, so this is needed only after loading history by other means. Safe to run at any time.")
 
     def add_arguments(self, parser):
