@@ -152,9 +152,7 @@ def absorb_inspection(inspection):
     changed = _fold(state, inspection)
     if changed:
         state.save(update_fields=sorted(changed))
-    months = Months()
-    months.add_inspections([inspection])
-    months.write()
+    Months(inspections=[inspection]).write()
 
 
 def absorb_inspections(inspections):
@@ -257,9 +255,7 @@ def absorb_top_up(top_up):
     if state.watered_at is None or top_up.done_at > state.watered_at:
         state.watered_at = top_up.done_at
         state.save(update_fields=["watered_at"])
-    months = Months()
-    months.add_top_up(top_up)
-    months.write()
+    Months(top_up=top_up).write()
 
 
 def stored(battery_ids):
@@ -316,9 +312,12 @@ class Months:
     """Additions to batteries' monthly totals, summed in memory and written at once (`write`, inside the
     caller's transaction, after the batteries were locked)."""
 
-    def __init__(self):
+    def __init__(self, inspections=(), top_up=None):
         self.totals = defaultdict(lambda: [Decimal(0), 0, 0, Decimal(0)])  # (battery id, month) -> MONTH_FIELDS
         self.zones = {}
+        self.add_inspections(inspections)
+        if top_up is not None:
+            self.add_top_up(top_up)
 
     def _zone(self, battery_ids):
         unknown = set(battery_ids) - set(self.zones)
@@ -350,13 +349,18 @@ class Months:
         for (battery_id, month), values in wanted.items():
             row = rows.get((battery_id, month))
             if row is None:
-                new.append(BatteryMonth(battery_id=battery_id, month=month, **dict(zip(MONTH_FIELDS, values, strict=True))))
+                new.append(_month_row(battery_id, month, values))
                 continue
             for name, value in zip(MONTH_FIELDS, values, strict=True):
                 setattr(row, name, getattr(row, name) + value)
             changed.append(row)
         BatteryMonth.objects.bulk_create(new, batch_size=CHUNK)
         BatteryMonth.objects.bulk_update(changed, MONTH_FIELDS, batch_size=CHUNK)
+
+
+def _month_row(battery_id, month, values):
+    """A BatteryMonth from its totals in MONTH_FIELDS order."""
+    return BatteryMonth(battery_id=battery_id, month=month, **dict(zip(MONTH_FIELDS, values, strict=True)))
 
 
 def computed_months(battery_ids):
@@ -397,7 +401,7 @@ def refresh_months(battery_ids):
     months = computed_months(ids)
     BatteryMonth.objects.filter(battery_id__in=ids).delete()
     BatteryMonth.objects.bulk_create(
-        [BatteryMonth(battery_id=pk, month=month, **dict(zip(MONTH_FIELDS, values, strict=True)))
+        [_month_row(pk, month, values)
          for pk, by_month in months.items() for month, values in by_month.items()],
         batch_size=CHUNK,
     )
