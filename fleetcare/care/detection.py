@@ -10,7 +10,7 @@ from collections import defaultdict
 from datetime import timedelta
 
 from django.db import connection, transaction
-from django.db.models import Count, Exists, F, Max, Min, OuterRef
+from django.db.models import Count, Exists, F, Max, Min, OuterRef, Q
 from django.db.models.expressions import Window
 from django.db.models.functions import RowNumber
 from django.utils import timezone
@@ -128,6 +128,82 @@ def _charges_and_last_top_up(battery_list, data, ids, now):
         data[row["battery_id"]].last_top_up_at = row["last"]
 
 
+# --- The look-back readings the rules read --------------------------------------------------------------
+#
+# A battery's look-back holds some hundred readings (a pilot cell before every charge, all cells every
+# week), but the rules read few of them (fleetcare.care.rules, each reading `recent` newest first):
+#  - left discharged: the latest reading with a state of charge;
+#  - sulfation (standing partly charged): the readings since the latest one at or above its limit, and that one;
+#  - deep discharge: the readings under its limit in its event window;
+#  - water before charge: the readings that report a low level;
+#  - watering overdue (the planner's charge count): the post-charge readings of its charge window.
+# Only those are read, each from an index, so a pass costs what the fleet's events cost rather than what its
+# routine readings cost. A further reading of the look-back would not change any rule's answer (a test runs
+# the rules on both and compares), so the limits taken are the highest any policy sets.
+
+# On PostgreSQL, per battery from the (battery, taken_at) index: its latest reading at or above the limit, and
+# every reading under the limit since (or in the whole look-back when there is none).
+_RUNS_SQL = """
+    WITH high AS (
+        SELECT b.id AS battery_id, coalesce(h.taken_at, %(since)s) AS run_from, h.id
+          FROM unnest(%(ids)s::bigint[]) AS b(id)
+          LEFT JOIN LATERAL (
+            SELECT i.id, i.taken_at FROM {table} i
+             WHERE i.battery_id = b.id AND i.is_current AND i.deleted_at IS NULL
+               AND i.taken_at >= %(since)s AND i.taken_at <= %(now)s AND i.soc_percent >= %(high)s
+             ORDER BY i.taken_at DESC, i.id DESC LIMIT 1) AS h ON true)
+    SELECT {columns} FROM high CROSS JOIN LATERAL (
+        SELECT * FROM {table} i
+         WHERE i.battery_id = high.battery_id AND i.is_current AND i.deleted_at IS NULL
+           AND i.taken_at >= high.run_from AND i.taken_at <= %(now)s AND (i.soc_percent < %(high)s OR i.id = high.id)
+        OFFSET 0  -- kept a subquery, so each battery's rows come from the index, not from a join over all readings
+    ) AS i
+"""
+
+
+def _runs(battery_ids, since, now, high):
+    """Rows (rules.Reading.FIELDS) of each battery's latest reading at or above `high` % state of charge in
+    [since, now], and of its readings under `high` % after it (all of them in [since, now] without one)."""
+    if connection.vendor == "postgresql":
+        columns = ", ".join(f"i.{'id' if name == 'pk' else name}" for name in rules.Reading.FIELDS)
+        with connection.cursor() as cursor:
+            cursor.execute(_RUNS_SQL.format(table=Inspection._meta.db_table, columns=columns),
+                           {"ids": battery_ids, "since": since, "now": now, "high": high})
+            return cursor.fetchall()
+    window = Inspection.objects.current().filter(battery_id__in=battery_ids, taken_at__gte=since, taken_at__lte=now)
+    highs = {battery: (pk, taken_at) for battery, pk, taken_at in
+             _ranked(window.filter(soc_percent__gte=high), 1, [F("battery_id")]).values_list("battery_id", "pk", "taken_at")}
+    battery_at, taken_at, pk = (rules.Reading.FIELDS.index(name) for name in ("battery_id", "taken_at", "pk"))
+    return [row for row in window.filter(Q(soc_percent__lt=high) | Q(pk__in=[pk for pk, _ in highs.values()]))
+            .values_list(*rules.Reading.FIELDS)
+            if row[battery_at] not in highs or row[taken_at] >= highs[row[battery_at]][1]]
+
+
+def _recent(data, since, now, charge_window_start):
+    """The readings of the look-back that a rule reads (above), as rules.Readings, newest first."""
+    ids = list(data)
+    high = max(d.policy.partial_charge_soc_percent for d in data.values())
+    deep = max(d.policy.deep_discharge_soc_percent for d in data.values())
+    window = Inspection.objects.current().filter(battery_id__in=ids, taken_at__gte=since, taken_at__lte=now)
+    pk = rules.Reading.FIELDS.index("pk")
+    rows = {row[pk]: row for row in _runs(ids, since, now, high)}
+    events_since = now - timedelta(days=max(int(d.policy.event_window_days) for d in data.values()))
+    rows.update((row[pk], row) for row in window.filter(
+        Q(soc_percent__lt=deep, taken_at__gte=events_since)
+        | Q(situation__in=Inspection.POST_CHARGE, taken_at__gte=charge_window_start)
+    ).values_list(*rules.Reading.FIELDS))
+    # From the (rare, partially indexed) low-level cells to their readings, not the other way round.
+    low_levels = CellReading.objects.filter(
+        level=CellReading.Level.LOW, inspection__battery_id__in=ids,
+        inspection__taken_at__gte=since, inspection__taken_at__lte=now,
+    ).values("inspection_id")
+    low = {row[pk]: row for row in window.filter(pk__in=low_levels).values_list(*rules.Reading.FIELDS)}
+    rows.update(low)
+    taken_at = rules.Reading.FIELDS.index("taken_at")
+    ordered = sorted(rows.values(), key=lambda row: (row[taken_at], row[pk]), reverse=True)  # newest first
+    return [rules.Reading(*row, has_low_level=row[pk] in low) for row in ordered]
+
+
 def load(batteries, now):
     """ReadingHistory for every battery in the queryset, in a fixed number of queries."""
     battery_list = list(batteries.select_related("profile", "site").annotate(**KEPT).order_by("pk"))
@@ -160,17 +236,8 @@ def load(batteries, now):
         for reading in _with_cells(_latest_all_cells(sealed, BLOCK_READINGS, now)):
             data[reading.battery_id].block_readings.append(reading)
 
-    low = CellReading.objects.filter(inspection=OuterRef("pk"), level=CellReading.Level.LOW)
-    # Per battery, newest first: the order of the (battery, taken_at) index, so PostgreSQL reads each
-    # battery's window from it rather than every battery's readings in the window.
-    recent = (
-        Inspection.objects.current()
-        .filter(battery_id__in=list(data), taken_at__lte=now, taken_at__gte=since)
-        .annotate(has_low_level=Exists(low))
-        .order_by("battery_id", "-taken_at", "-pk")
-    )
-    for row in recent.values_list(*rules.Reading.FIELDS, "has_low_level"):
-        reading = rules.Reading(*row)
+    window_start = now - timedelta(days=due.CHARGE_WINDOW_DAYS)
+    for reading in _recent(data, since, now, window_start):
         data[reading.battery_id].recent.append(reading)
 
     _charges_and_last_top_up(battery_list, data, ids, now)
@@ -205,7 +272,6 @@ def load(batteries, now):
 
     planning = list(PlanningPolicy.objects.select_related("site", "profile"))
     planned = {}
-    window_start = now - timedelta(days=due.CHARGE_WINDOW_DAYS)
     for d in data.values():
         key = (d.battery.site_id, d.battery.profile_id)
         if key not in planned:
@@ -264,8 +330,11 @@ def _evidence(detected):
 
 def _store(found, batteries, now):
     """Open new findings, refresh those still shown, clear those no longer shown."""
-    existing = {(f.battery_id, f.kind): f for f in Finding.objects.active().filter(battery_id__in=_battery_ids(batteries))}
-    to_create, to_update, seen, touched = [], [], [], set()
+    stored = ["severity", "positions", "persistent", "evidence", "summary", "inspection_id"]
+    existing = {(battery, kind): (pk, dict(zip(stored, values))) for pk, battery, kind, *values in
+                Finding.objects.active().filter(battery_id__in=_battery_ids(batteries))
+                .values_list("pk", "battery_id", "kind", *stored)}
+    to_create, to_update, seen = [], [], []
     for battery, detections in found:
         for d in detections:
             values = {
@@ -273,21 +342,15 @@ def _store(found, batteries, now):
                 "evidence": _evidence(d), "summary": d.summary,
                 "inspection_id": d.inspection.pk if d.inspection is not None else None,
             }
-            finding = existing.pop((battery.pk, d.kind), None)
-            if finding is None:
+            pk, before = existing.pop((battery.pk, d.kind), (None, None))
+            if pk is None:
                 to_create.append(Finding(battery=battery, kind=d.kind, state=Finding.State.OPEN,
                                          opened_at=now, last_seen_at=now, **values))
                 continue
-            seen.append(finding.pk)
-            changed = False
-            for name, value in values.items():
-                if getattr(finding, name) != value:
-                    setattr(finding, name, value)
-                    changed = True
-            if changed:
-                to_update.append(finding)
-            touched.add(finding.pk)
-    gone = [f.pk for f in existing.values()]
+            seen.append(pk)
+            if values != before:
+                to_update.append(Finding(pk=pk, **values))
+    gone = [pk for pk, _ in existing.values()]
     with transaction.atomic():
         if to_create:
             Finding.objects.bulk_create(to_create)
