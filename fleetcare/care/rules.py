@@ -5,6 +5,7 @@ used) or None. Loading the data and storing findings is fleetcare.care.detection
 """
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
+from typing import NamedTuple
 
 from fleetcare import chemistry, words
 from fleetcare.care import cycles, wording
@@ -25,8 +26,9 @@ HOT_CAUTION = "hot"
 CHARGE_CAUTION = "charge"  # the general cautions alone
 
 
-@dataclass(frozen=True, slots=True)
-class Cell:
+class Cell(NamedTuple):
+    """A cell of a reading as the rules read it (a plain tuple: a fleet's pass builds hundreds of thousands)."""
+
     position: int
     sg_corrected: object
     volts: object

@@ -84,3 +84,23 @@ def test_the_rules_answer_as_they_do_on_the_whole_look_back(site, other_site, tr
     # The fleet exercises the rules that read the look-back, and the pass reads less of it.
     assert {"sulfation", "deep_discharge", "left_discharged", "water_before_charge", "watering_overdue"} <= kinds
     assert read < whole
+
+
+@pytest.mark.django_db
+def test_cells_read_as_arrays_are_the_cells_read_row_by_row(site, traction_profile, room, crew):
+    """On PostgreSQL the pass reads each reading's cells as arrays (fleetcare.care.detection.cells_of); they
+    must be the cells, in position order, that the row-by-row read gives (SQLite reads row by row)."""
+    rng = random.Random(7)
+    battery = Battery.objects.create(serial="C-1", site=site, profile=traction_profile, in_service_date=dt.date(2025, 1, 1))
+    start = dt.datetime(2026, 5, 1, 8, tzinfo=dt.UTC)
+    readings = [
+        inspect(battery, crew, start + n * DAY, cells={p: Decimal(str(round(rng.uniform(1.150, 1.290), 3)))
+                                                        for p in rng.sample(range(1, 25), rng.randint(1, 24))},
+                levels={rng.randint(1, 24): "low"})
+        for n in range(6)
+    ] + [inspect(battery, crew, start + 7 * DAY, volts={1: "12.71", 2: "12.64"})]
+    ids = [r.pk for r in readings] + [10 ** 9]  # and one that does not exist
+    by_rows = detection.cells_of_by_rows(ids)
+    assert detection.cells_of(ids) == by_rows
+    assert [c.position for c in by_rows[readings[0].pk]] == sorted(c.position for c in by_rows[readings[0].pk])
+    assert len(by_rows) == len(readings)
