@@ -178,6 +178,12 @@ def gap_rule_applies(policy, cell_count):
     return 0 < cell_count <= limit
 
 
+def _none_can_be_weak(judged, values):
+    """The lowest cell is the furthest below both the others' mean and the highest cell: when it is not weak, no
+    cell is (most trays, most days), and the others need not be judged one by one."""
+    return not judged(min(sg for _, sg in values))[0]
+
+
 def weak_cells(inspection, policy, cell_count=None):
     """Cells judged weak on one post-charge inspection: {position: reasons}, plus the figures used.
 
@@ -192,8 +198,8 @@ def weak_cells(inspection, policy, cell_count=None):
     equalized = inspection.situation == "equalized"
     resolution = policy.sg_resolution
     gap_rule = gap_rule_applies(policy, cell_count if cell_count is not None else len(values))
-    flagged, rows = {}, []
-    for position, sg in values:
+
+    def judged(sg):
         others_mean = (total - sg) / (len(values) - 1)
         below = others_mean - sg
         below_highest = highest - sg
@@ -204,6 +210,13 @@ def weak_cells(inspection, policy, cell_count=None):
             reasons.append("failing")
         if gap_rule and chemistry.beyond_resolution(below_highest, policy.unserviceable_cell_gap_sg, resolution, 2):
             reasons.append("apart")
+        return reasons, others_mean, below, below_highest
+
+    if _none_can_be_weak(judged, values):
+        return {}, []
+    flagged, rows = {}, []
+    for position, sg in values:
+        reasons, others_mean, below, below_highest = judged(sg)
         if reasons:
             flagged[position] = reasons
             rows.append({
@@ -271,6 +284,14 @@ def lagging_cells(inspection, limit, resolution, readings_compared):
             if chemistry.beyond_resolution(lag, limit, resolution, readings_compared)}
 
 
+def _may_lag(inspection, limit, resolution, readings_compared):
+    """Whether any cell of the reading can lag by more than the limit: its furthest-behind cell does (the lowest
+    cell lags the most, fleetcare.chemistry.furthest_below_median_of_others_sg), worked out with one median
+    instead of one per cell."""
+    furthest = chemistry.furthest_below_median_of_others_sg(_cell_values(inspection))
+    return furthest is not None and chemistry.beyond_resolution(furthest, limit, resolution, readings_compared)
+
+
 def spread_is_high(post_charge, policy):
     """(lagging, persistent): the cells that make the spread high, {position: SG below the others' median on
     the latest reading}.
@@ -284,10 +305,13 @@ def spread_is_high(post_charge, policy):
         return {}, False
     limit, resolution = policy.equalize_spread_sg, policy.sg_resolution
     needed = max(1, int(policy.spread_readings_in_a_row))
+    run = post_charge[:needed]
+    if not _may_lag(post_charge[0], limit, resolution, 1) and not (
+            len(run) == needed and all(_may_lag(i, limit, resolution, 0) for i in run)):
+        return {}, False
     latest = chemistry.below_median_of_others_sg(_cell_values(post_charge[0]))
     at_once = {p for p, lag in latest.items() if chemistry.beyond_resolution(lag, limit, resolution, 1)}
     in_a_row = set()
-    run = post_charge[:needed]
     if len(run) == needed:
         in_a_row = set.intersection(*(set(lagging_cells(i, limit, resolution, 0)) for i in run))
     persistent = bool(in_a_row) and needed > 1
