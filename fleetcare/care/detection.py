@@ -5,10 +5,13 @@ pick each battery's latest readings), then every rule runs in Python, then findi
 refreshed or cleared in a few bulk statements. An active finding is never duplicated: the
 database holds at most one open-or-acknowledged finding per battery and kind.
 """
+import hashlib
+import json
 import logging
 from collections import defaultdict
 from datetime import timedelta
 
+from django.core.serializers.json import DjangoJSONEncoder
 from django.db import connection, transaction
 from django.db.models import Count, Exists, F, Max, Min, OuterRef, Q
 from django.db.models.expressions import Window
@@ -28,7 +31,7 @@ log = logging.getLogger(__name__)
 
 MIN_LOOKBACK_DAYS = 60
 BLOCK_READINGS = 4
-UPDATED_FIELDS = ["severity", "positions", "persistent", "evidence", "summary", "inspection"]
+UPDATED_FIELDS = ["severity", "positions", "persistent", "evidence", "summary", "inspection", "content_digest"]
 
 
 def _battery_ids(batteries):
@@ -352,12 +355,18 @@ def _evidence(detected):
     return detected.evidence()
 
 
+def _digest(values):
+    """A finding's stored content as one string: equal exactly when the content stored as JSON is equal."""
+    text = json.dumps(values, sort_keys=True, cls=DjangoJSONEncoder, separators=(",", ":"))
+    return hashlib.sha256(text.encode()).hexdigest()
+
+
 def _store(found, batteries, now):
-    """Open new findings, refresh those still shown, clear those no longer shown."""
-    stored = ["severity", "positions", "persistent", "evidence", "summary", "inspection_id"]
-    existing = {(battery, kind): (pk, dict(zip(stored, values))) for pk, battery, kind, *values in
+    """Open new findings, refresh those still shown, clear those no longer shown. A finding is rewritten only
+    when its content changed (by its digest: a finding from before the digest is rewritten once)."""
+    existing = {(battery, kind): (pk, digest) for pk, battery, kind, digest in
                 Finding.objects.active().filter(battery_id__in=_battery_ids(batteries))
-                .values_list("pk", "battery_id", "kind", *stored)}
+                .values_list("pk", "battery_id", "kind", "content_digest")}
     to_create, to_update, seen = [], [], []
     for battery, detections in found:
         for d in detections:
@@ -366,14 +375,15 @@ def _store(found, batteries, now):
                 "evidence": _evidence(d), "summary": d.summary,
                 "inspection_id": d.inspection.pk if d.inspection is not None else None,
             }
+            digest = _digest(values)
             pk, before = existing.pop((battery.pk, d.kind), (None, None))
             if pk is None:
                 to_create.append(Finding(battery=battery, kind=d.kind, state=Finding.State.OPEN,
-                                         opened_at=now, last_seen_at=now, **values))
+                                         opened_at=now, last_seen_at=now, content_digest=digest, **values))
                 continue
             seen.append(pk)
-            if values != before:
-                to_update.append(Finding(pk=pk, **values))
+            if digest != before:
+                to_update.append(Finding(pk=pk, content_digest=digest, **values))
     gone = [pk for pk, _ in existing.values()]
     with transaction.atomic():
         if to_create:

@@ -70,6 +70,9 @@ class Finding(models.Model):
     )
     evidence = models.JSONField(default=dict, blank=True, help_text="Readings used, threshold and its source.")
     summary = models.TextField(blank=True)
+    # What the findings pass last wrote (severity, positions, persistence, evidence, summary, inspection), as a
+    # digest: a pass compares its new answer with this instead of reading every active finding's evidence back.
+    content_digest = models.CharField(max_length=64, blank=True, editable=False)
     acknowledged_by = models.ForeignKey(
         settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
     )
