@@ -314,11 +314,18 @@ def _water_chart(batteries, rows, now, unit_site=None):
     if not waterable:
         return None
     # The kept monthly totals (on each battery's site clock): twelve rows per battery, not a year of top-ups.
-    by_battery = defaultdict(dict)
+    # {battery id: [its total in each month shown, None where nothing was logged]}
+    month_index = {edges[i].date(): i for i in range(len(edges) - 1)}
+    by_battery = {}
     for battery_id, month, water_ml in BatteryMonth.objects.filter(
         battery__in=batteries, month__gte=edges[0].date(), month__lt=edges[-1].date(), top_ups__gt=0,
     ).values_list("battery_id", "month", "water_ml"):
-        by_battery[battery_id][month] = water_ml
+        i = month_index.get(month)
+        if i is not None:
+            totals = by_battery.get(battery_id)
+            if totals is None:
+                totals = by_battery[battery_id] = [None] * len(month_index)
+            totals[i] = water_ml
     by_profile = defaultdict(list)
     for r in waterable:
         by_profile[r["profile__name"]].append(r)
@@ -337,33 +344,51 @@ def _water_chart(batteries, rows, now, unit_site=None):
 
 def _water_boxes(members, by_battery, edges, unit_site=None):
     """Box values per month for one profile, and the batteries that stand out against the others of
-    that profile at their own site (sites charge differently, so their water use differs too)."""
+    that profile at their own site (sites charge differently, so their water use differs too).
+    by_battery: {battery id: [its total in each month, None where nothing was logged]}."""
     months = range(len(edges) - 1)
     month_days = [edges[i].date() for i in months]
     in_use = (Battery.Status.IN_SERVICE, Battery.Status.CHARGING)
     shown = site_units.cell_water_shown_at(unit_site) if unit_site else None
-    per_battery = []
-    for r in members:
-        sums = by_battery.get(r["pk"], {})
-        per_battery.append((r, [sums.get(month_days[i]) for i in months], r["status"] in in_use))
-    groups, outliers = [], []
-    for i in months:
-        month = edges[i].strftime("%b %Y")
-        values, per_site = [], defaultdict(list)
-        for r, totals, working in per_battery:
+    nothing_logged = [None] * len(months)
+    per_cell = {}  # (total, cells) -> value shown: thousands of battery-months share a few thousand totals
+
+    # Per site and month, the values of the batteries that count, in the members' order, with their serials and
+    # their places among the members.
+    by_site = {}
+    for place, r in enumerate(members):
+        totals = by_battery.get(r["pk"], nothing_logged)
+        working = r["status"] in in_use
+        cells = r["cells"]
+        site_months = by_site.get(r["site_id"])
+        if site_months is None:
+            site_months = by_site[r["site_id"]] = [([], [], []) for _ in months]
+        for i in months:
             total = totals[i]
             if total is None and not (working and r["in_service_date"] <= month_days[i]):
                 continue
-            ml = float(total or 0) / r["cells"]
-            value = float(shown(ml)) if unit_site else round(ml, 1)
+            key = (total or 0, cells)
+            value = per_cell.get(key)
+            if value is None:
+                ml = float(total or 0) / cells
+                value = per_cell[key] = float(shown(ml)) if unit_site else round(ml, 1)
+            values, serials, places = site_months[i]
             values.append(value)
-            per_site[r["site_id"]].append((value, r["serial"]))
-        groups.append((month, values))
+            serials.append(r["serial"])
+            places.append(place)
+
+    groups, outliers = [], []
+    for i in months:
+        month = edges[i].strftime("%b %Y")
+        per_site = [site_months[i] for site_months in by_site.values() if site_months[i][0]]
+        groups.append((month, [value for values, _serials, _places in per_site for value in values]))
+        # Sites in the order their first counted battery comes among the members, so that batteries equally far
+        # off are named in the members' order.
+        per_site.sort(key=lambda site: site[2][0])
         flagged = []
-        for peers in per_site.values():
-            site_values = [v for v, _serial in peers]
+        for site_values, serials, _places in per_site:
             middle = sorted(site_values)[len(site_values) // 2]
-            flagged.extend((abs(peers[j][0] - middle), peers[j]) for j in _outliers(site_values))
+            flagged.extend((abs(site_values[j] - middle), (site_values[j], serials[j])) for j in _outliers(site_values))
         flagged.sort(key=lambda f: -f[0])
         for rank, (_distance, (value, serial)) in enumerate(flagged):
             outliers.append((month, value, serial if rank < OUTLIER_LABELS_PER_MONTH else ""))
