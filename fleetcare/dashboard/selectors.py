@@ -430,9 +430,10 @@ def deep_discharge_by_truck_and_shift(batteries, since, policies=None):
         )
         .order_by()
     )
+    # Count("*"), not the id, which is not in the index the events are read from.
     per_battery = {
         row["battery_id"]: row
-        for row in events.values("battery_id").annotate(n=Count("pk"), first=Min("taken_at"), last=Max("taken_at"))
+        for row in events.values("battery_id").annotate(n=Count("*"), first=Min("taken_at"), last=Max("taken_at"))
     }
     fittings = defaultdict(list)
     for battery_id, fitted_at, removed_at, truck, shift in (

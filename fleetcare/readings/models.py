@@ -141,6 +141,14 @@ class Inspection(models.Model):
                 condition=models.Q(is_current=True, deleted_at__isnull=True, temp_c__gt=HOT_INDEX_FLOOR_C),
                 name="inspection_hot_time",
             ),
+            # The current readings of a stretch of days, with how their battery was picked (the overview's
+            # count by site), read from the index alone on PostgreSQL.
+            models.Index(
+                fields=["taken_at"],
+                include=["battery", "chosen_via"],
+                condition=models.Q(is_current=True, deleted_at__isnull=True),
+                name="inspection_current_time",
+            ),
         ]
 
     def __str__(self):
