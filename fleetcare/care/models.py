@@ -89,7 +89,12 @@ class Finding(models.Model):
                 name="one_active_finding_per_battery_kind",
             ),
         ]
-        indexes = [models.Index(fields=["state", "kind"], name="finding_state_kind")]
+        indexes = [
+            models.Index(fields=["state", "kind"], name="finding_state_kind"),
+            # Findings opened or cleared lately (the overview's weekly chart) without reading every finding ever.
+            models.Index(fields=["opened_at"], name="finding_opened_at"),
+            models.Index(fields=["cleared_at"], name="finding_cleared_at"),
+        ]
 
     def __str__(self):
         where = f" {self.position_label}" if self.positions else ""
