@@ -7,7 +7,7 @@ from django.db import migrations, models
 class Migration(migrations.Migration):
 
     dependencies = [
-        ('care', '0009_finding_how_urgent'),
+        ('care', '0010_finding_content_digest'),
         ('fleet', '0003_capacity_test_records'),
         ('readings', '0017_current_readings_by_time_index'),
         migrations.swappable_dependency(settings.AUTH_USER_MODEL),
