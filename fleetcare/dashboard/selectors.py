@@ -139,37 +139,45 @@ def _open_findings_by_site_and_kind(batteries):
     return {(g["battery__site_id"], g["kind"]): g["n"] for g in grouped}
 
 
-def _list_url(params, site_code):
+def _list_url(list_path, params, site_code):
     query = dict(params)
     if site_code:
         query["site"] = site_code
-    return reverse("fleet:batteries") + "?" + urlencode(query)
+    return list_path + "?" + urlencode(query)
+
+
+# What each row of the count table counts: batteries whose `field` has this value (the care rows: is true).
+COUNTED_AS_IS = ("status", "soc_band")
+COUNTED_WHEN_TRUE = ("overdue_equalizing", "overdue_watering", "past_life")
 
 
 def _sections(rows, sites, finding_counts):
     """The count table: sections of measures, each measure a row of counts per site and in all."""
     measures = {"status": [], "soc": [], "findings": [], "care": []}
     for status in SHOWN_STATUSES:
-        measures["status"].append(
-            (Battery.Status(status).label, {"status": status}, lambda r, s=status: r["status"] == s, False)
-        )
+        measures["status"].append((Battery.Status(status).label, {"status": status}, ("status", status), False))
     for key, label in fleet.SOC_BAND_LABELS.items():
-        measures["soc"].append((label, {"soc": key}, lambda r, k=key: r["soc_band"] == k, key in ("below20", "20to50")))
+        measures["soc"].append((label, {"soc": key}, ("soc_band", key), key in ("below20", "20to50")))
     measures["care"] = [
-        ("Equalizing overdue", {"overdue": "equalizing"}, lambda r: r["overdue_equalizing"], True),
-        ("Watering overdue", {"overdue": "watering"}, lambda r: r["overdue_watering"], True),
-        ("Older than design life (years)", {"past_life": "1"}, lambda r: r["past_life"], True),
+        ("Equalizing overdue", {"overdue": "equalizing"}, ("overdue_equalizing", True), True),
+        ("Watering overdue", {"overdue": "watering"}, ("overdue_watering", True), True),
+        ("Older than design life (years)", {"past_life": "1"}, ("past_life", True), True),
     ]
+    # One pass over the batteries, each counted once per field, rather than tested against every measure.
     counts = Counter()
     for r in rows:
-        for group in ("status", "soc", "care"):
-            for label, _params, test, _attention in measures[group]:
-                if test(r):
-                    counts[(r["site_id"], label)] += 1
+        site = r["site_id"]
+        for field in COUNTED_AS_IS:
+            counts[(site, field, r[field])] += 1
+        for field in COUNTED_WHEN_TRUE:
+            if r[field]:
+                counts[(site, field, True)] += 1
+    list_path = reverse("fleet:batteries")
 
-    def cells(label, params, count_for):
-        out = [{"count": count_for(s.pk), "url": _list_url(params, s.code), "where": s.name} for s in sites]
-        out.append({"count": sum(c["count"] for c in out), "url": _list_url(params, ""), "where": "all my sites"})
+    def cells(params, count_for):
+        out = [{"count": count_for(s.pk), "url": _list_url(list_path, params, s.code), "where": s.name} for s in sites]
+        out.append({"count": sum(c["count"] for c in out), "url": _list_url(list_path, params, ""),
+                    "where": "all my sites"})
         return out
 
     sections = []
@@ -190,16 +198,16 @@ def _sections(rows, sites, finding_counts):
                     {
                         "label": label,
                         "attention": attention,
-                        "cells": cells(label, params, lambda pk, lb=label: counts[(pk, lb)]),
+                        "cells": cells(params, lambda pk, key=key: counts[(pk, *key)]),
                     }
-                    for label, params, _test, attention in measures[group]
+                    for label, params, key, attention in measures[group]
                 ],
             }
         )
     findings_rows = []
     for kind, label in Finding.Kind.choices:
         label = FINDING_LABELS.get(kind, label)
-        row_cells = cells(label, {"finding": kind}, lambda pk, k=kind: finding_counts.get((pk, k), 0))
+        row_cells = cells({"finding": kind}, lambda pk, k=kind: finding_counts.get((pk, k), 0))
         if row_cells[-1]["count"]:
             findings_rows.append({"label": label, "attention": True, "cells": row_cells})
     sections.append(
@@ -218,9 +226,9 @@ def _sections(rows, sites, finding_counts):
                 {
                     "label": label,
                     "attention": attention,
-                    "cells": cells(label, params, lambda pk, lb=label: counts[(pk, lb)]),
+                    "cells": cells(params, lambda pk, key=key: counts[(pk, *key)]),
                 }
-                for label, params, _test, attention in measures["care"]
+                for label, params, key, attention in measures["care"]
             ],
         }
     )
