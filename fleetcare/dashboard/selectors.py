@@ -275,7 +275,8 @@ def _month_starts(now, months):
 
 def _findings_chart(battery_ids, now):
     """Findings opened and cleared per week for the batteries in scope (battery_ids: a set)."""
-    edges = _week_starts(now, FINDINGS_WEEKS)
+    # The weeks' edges on the clock the database's times come on (UTC), so comparing them takes no time zone lookups.
+    edges = [edge.astimezone(dt.timezone.utc) for edge in _week_starts(now, FINDINGS_WEEKS)]
     n = len(edges) - 1
     opened, cleared = [0] * n, [0] * n
     # Only the findings opened or cleared since the first week began, read from their time indexes; the batteries in
@@ -293,7 +294,7 @@ def _findings_chart(battery_ids, now):
                 counts[bisect_right(edges, moment) - 1] += 1
     if not any(opened) and not any(cleared):
         return None
-    weeks = [e.date().isoformat() for e in edges[:-1]]
+    weeks = [e.date().isoformat() for e in _week_starts(now, FINDINGS_WEEKS)[:-1]]
     return charts.stacked_bars(
         weeks,
         [("Opened", opened, "/"), ("Cleared", cleared, ".")],
@@ -441,16 +442,21 @@ def deep_discharge_by_truck_and_shift(batteries, since, policies=None):
     )
     # Count("*"), not the id, which is not in the index the events are read from.
     per_battery = {
-        row["battery_id"]: row
-        for row in events.values("battery_id").annotate(n=Count("*"), first=Min("taken_at"), last=Max("taken_at"))
+        battery_id: {"n": n, "first": first, "last": last}
+        for battery_id, n, first, last in events.values("battery_id")
+        .annotate(n=Count("*"), first=Min("taken_at"), last=Max("taken_at"))
+        .values_list("battery_id", "n", "first", "last")
     }
     fittings = defaultdict(list)
-    for battery_id, fitted_at, removed_at, truck, shift in (
-        Fitting.objects.filter(battery_id__in=per_battery)
+    # The fittings of the batteries in scope (those without events are not looked at): the batteries as a subquery,
+    # not thousands of ids as parameters.
+    fitted = (
+        Fitting.objects.filter(battery__in=batteries)
         .filter(Q(removed_at__isnull=True) | Q(removed_at__gt=since))
         .order_by("-fitted_at")
         .values_list("battery_id", "fitted_at", "removed_at", "vehicle__asset_number", "shift")
-    ):
+    )
+    for battery_id, fitted_at, removed_at, truck, shift in fitted if per_battery else ():
         fittings[battery_id].append((fitted_at, removed_at, truck, shift))
 
     def covers(fitting, start, end):
