@@ -323,19 +323,16 @@ def _water_chart(batteries, rows, now, unit_site=None):
     waterable = [r for r in rows if r["waterable"]]
     if not waterable:
         return None
-    # The kept monthly totals (on each battery's site clock): twelve rows per battery, not a year of top-ups.
-    # {battery id: [its total in each month shown, None where nothing was logged]}
-    month_index = {edges[i].date(): i for i in range(len(edges) - 1)}
-    by_battery = {}
-    for battery_id, month, water_ml in BatteryMonth.objects.filter(
-        battery__in=batteries, month__gte=edges[0].date(), month__lt=edges[-1].date(), top_ups__gt=0,
-    ).values_list("battery_id", "month", "water_ml"):
-        i = month_index.get(month)
-        if i is not None:
-            totals = by_battery.get(battery_id)
-            if totals is None:
-                totals = by_battery[battery_id] = [None] * len(month_index)
-            totals[i] = water_ml
+    # The kept monthly totals (on each battery's site clock): twelve rows per battery, not a year of top-ups, turned
+    # into one row per battery with a column per month (None where nothing was logged).
+    months = [edges[i].date() for i in range(len(edges) - 1)]
+    columns = {f"m{i}": Max("water_ml", filter=Q(month=month)) for i, month in enumerate(months)}
+    by_battery = {
+        row[0]: row[1:]
+        for row in BatteryMonth.objects.filter(
+            battery__in=batteries, month__gte=months[0], month__lt=edges[-1].date(), top_ups__gt=0,
+        ).order_by().values("battery_id").annotate(**columns).values_list("battery_id", *columns)
+    }
     by_profile = defaultdict(list)
     for r in waterable:
         by_profile[r["profile__name"]].append(r)
@@ -355,7 +352,7 @@ def _water_chart(batteries, rows, now, unit_site=None):
 def _water_boxes(members, by_battery, edges, unit_site=None):
     """Box values per month for one profile, and the batteries that stand out against the others of
     that profile at their own site (sites charge differently, so their water use differs too).
-    by_battery: {battery id: [its total in each month, None where nothing was logged]}."""
+    by_battery: {battery id: its total in each month, None where nothing was logged}."""
     months = range(len(edges) - 1)
     month_days = [edges[i].date() for i in months]
     in_use = (Battery.Status.IN_SERVICE, Battery.Status.CHARGING)
