@@ -74,7 +74,7 @@ def overview(batteries, sites, scope=None, now=None):
         "battery_count": len(in_scope),
         "scope": scope,
         "soc_chart": _soc_chart(in_scope, sites if scope is None else [scope]),
-        "findings_chart": _findings_chart({r["pk"] for r in in_scope}, now),
+        "findings_chart": _findings_chart({r["pk"] for r in in_scope}, [scope] if scope else sites, now),
         "water_chart": _water_chart(scoped, in_scope, now, scope or site_units.shared_site(sites, "volume_unit")),
         "deep_discharge_chart": _deep_discharge_chart(scoped, now, care_policies),
         "spread_chart": _spread_chart(in_scope, now, {s.pk: s for s in sites}, care_policies),
@@ -273,16 +273,17 @@ def _month_starts(now, months):
     return starts
 
 
-def _findings_chart(battery_ids, now):
-    """Findings opened and cleared per week for the batteries in scope (battery_ids: a set)."""
+def _findings_chart(battery_ids, sites, now):
+    """Findings opened and cleared per week for the batteries in scope (battery_ids: a set; sites: theirs)."""
     # The weeks' edges on the clock the database's times come on (UTC), so comparing them takes no time zone lookups.
     edges = [edge.astimezone(dt.timezone.utc) for edge in _week_starts(now, FINDINGS_WEEKS)]
     n = len(edges) - 1
     opened, cleared = [0] * n, [0] * n
-    # Only the findings opened or cleared since the first week began, read from their time indexes; the batteries in
-    # scope are picked out here, so the query starts from those indexes whatever the planner makes of a join.
+    # Only the findings opened or cleared since the first week began at the sites in scope, read from their time
+    # indexes; the batteries in scope are picked out here, as a subquery of them sends PostgreSQL through every
+    # finding of every battery instead.
     recent = (
-        Finding.objects.filter(Q(opened_at__gte=edges[0]) | Q(cleared_at__gte=edges[0]))
+        Finding.objects.filter(Q(opened_at__gte=edges[0]) | Q(cleared_at__gte=edges[0]), battery__site__in=sites)
         .order_by()
         .values_list("battery_id", "opened_at", "cleared_at")
     )
