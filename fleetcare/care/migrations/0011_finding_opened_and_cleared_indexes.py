@@ -9,7 +9,7 @@ class Migration(migrations.Migration):
     dependencies = [
         ('care', '0010_finding_content_digest'),
         ('fleet', '0003_capacity_test_records'),
-        ('readings', '0017_current_readings_by_time_index'),
+        ('readings', '0018_current_readings_by_time_index'),
         migrations.swappable_dependency(settings.AUTH_USER_MODEL),
     ]
 
