@@ -57,15 +57,18 @@ _LATEST_SQL = """
 """
 
 
+# rules.Reading.FIELDS as columns of the inspection aliased `i` in this module's raw statements.
+_READING_COLUMNS = ", ".join(f"i.{'id' if name == 'pk' else name}" for name in rules.Reading.FIELDS)
+
+
 def _latest_all_cells(battery_ids, depth, now, situations=None):
     """Rows (Reading.FIELDS) of each battery's `depth` latest current all-cell inspections, newest first,
     optionally only those in `situations`."""
     if not battery_ids:
         return []
     if connection.vendor == "postgresql":
-        columns = ", ".join(f"i.{'id' if name == 'pk' else name}" for name in rules.Reading.FIELDS)
         with connection.cursor() as cursor:
-            cursor.execute(_LATEST_SQL.format(columns=columns, table=Inspection._meta.db_table), {
+            cursor.execute(_LATEST_SQL.format(columns=_READING_COLUMNS, table=Inspection._meta.db_table), {
                 "ids": list(battery_ids), "now": now, "scope": str(Inspection.Scope.ALL_CELLS), "depth": depth,
                 "any_situation": situations is None, "situations": [str(s) for s in situations or ()],
             })
@@ -191,18 +194,17 @@ def _runs(battery_ids, since, now, high):
     """Rows (rules.Reading.FIELDS) of each battery's latest reading at or above `high` % state of charge in
     [since, now], and of its readings under `high` % after it (all of them in [since, now] without one)."""
     if connection.vendor == "postgresql":
-        columns = ", ".join(f"i.{'id' if name == 'pk' else name}" for name in rules.Reading.FIELDS)
         with connection.cursor() as cursor:
-            cursor.execute(_RUNS_SQL.format(table=Inspection._meta.db_table, columns=columns),
+            cursor.execute(_RUNS_SQL.format(table=Inspection._meta.db_table, columns=_READING_COLUMNS),
                            {"ids": battery_ids, "since": since, "now": now, "high": high})
             return cursor.fetchall()
     window = Inspection.objects.current().filter(battery_id__in=battery_ids, taken_at__gte=since, taken_at__lte=now)
     highs = {battery: (pk, taken_at) for battery, pk, taken_at in
              _ranked(window.filter(soc_percent__gte=high), 1, [F("battery_id")]).values_list("battery_id", "pk", "taken_at")}
-    battery_at, taken_at, pk = (rules.Reading.FIELDS.index(name) for name in ("battery_id", "taken_at", "pk"))
-    return [row for row in window.filter(Q(soc_percent__lt=high) | Q(pk__in=[pk for pk, _ in highs.values()]))
-            .values_list(*rules.Reading.FIELDS)
-            if row[battery_at] not in highs or row[taken_at] >= highs[row[battery_at]][1]]
+    battery_at, taken_at_at = rules.Reading.FIELDS.index("battery_id"), rules.Reading.FIELDS.index("taken_at")
+    high_ids = [high_id for high_id, _ in highs.values()]
+    return [row for row in window.filter(Q(soc_percent__lt=high) | Q(pk__in=high_ids)).values_list(*rules.Reading.FIELDS)
+            if row[battery_at] not in highs or row[taken_at_at] >= highs[row[battery_at]][1]]
 
 
 def _recent(data, since, now, charge_window_start):

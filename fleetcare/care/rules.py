@@ -284,11 +284,10 @@ def lagging_cells(inspection, limit, resolution, readings_compared):
             if chemistry.beyond_resolution(lag, limit, resolution, readings_compared)}
 
 
-def _may_lag(inspection, limit, resolution, readings_compared):
-    """Whether any cell of the reading can lag by more than the limit: its furthest-behind cell does (the lowest
-    cell lags the most, fleetcare.chemistry.furthest_below_median_of_others_sg), worked out with one median
-    instead of one per cell."""
-    furthest = chemistry.furthest_below_median_of_others_sg(_cell_values(inspection))
+def _may_lag(furthest, limit, resolution, readings_compared):
+    """Whether any cell of a reading can lag by more than the limit: its furthest-behind cell does (`furthest`, from
+    fleetcare.chemistry.furthest_below_median_of_others_sg: the lowest cell lags the most, so one median answers
+    instead of one per cell)."""
     return furthest is not None and chemistry.beyond_resolution(furthest, limit, resolution, readings_compared)
 
 
@@ -306,8 +305,9 @@ def spread_is_high(post_charge, policy):
     limit, resolution = policy.equalize_spread_sg, policy.sg_resolution
     needed = max(1, int(policy.spread_readings_in_a_row))
     run = post_charge[:needed]
-    if not _may_lag(post_charge[0], limit, resolution, 1) and not (
-            len(run) == needed and all(_may_lag(i, limit, resolution, 0) for i in run)):
+    furthest = [chemistry.furthest_below_median_of_others_sg(_cell_values(i)) for i in run]  # latest first
+    if not _may_lag(furthest[0], limit, resolution, 1) and not (
+            len(run) == needed and all(_may_lag(f, limit, resolution, 0) for f in furthest)):
         return {}, False
     latest = chemistry.below_median_of_others_sg(_cell_values(post_charge[0]))
     at_once = {p for p, lag in latest.items() if chemistry.beyond_resolution(lag, limit, resolution, 1)}

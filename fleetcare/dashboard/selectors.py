@@ -276,7 +276,8 @@ def _month_starts(now, months):
 def _findings_chart(battery_ids, sites, now):
     """Findings opened and cleared per week for the batteries in scope (battery_ids: a set; sites: theirs)."""
     # The weeks' edges on the clock the database's times come on (UTC), so comparing them takes no time zone lookups.
-    edges = [edge.astimezone(dt.timezone.utc) for edge in _week_starts(now, FINDINGS_WEEKS)]
+    week_starts = _week_starts(now, FINDINGS_WEEKS)
+    edges = [edge.astimezone(dt.timezone.utc) for edge in week_starts]
     n = len(edges) - 1
     opened, cleared = [0] * n, [0] * n
     # Only the findings opened or cleared since the first week began at the sites in scope, read from their time
@@ -295,7 +296,7 @@ def _findings_chart(battery_ids, sites, now):
                 counts[bisect_right(edges, moment) - 1] += 1
     if not any(opened) and not any(cleared):
         return None
-    weeks = [e.date().isoformat() for e in _week_starts(now, FINDINGS_WEEKS)[:-1]]
+    weeks = [e.date().isoformat() for e in week_starts[:-1]]
     return charts.stacked_bars(
         weeks,
         [("Opened", opened, "/"), ("Cleared", cleared, ".")],
