@@ -5,7 +5,8 @@
 It drops and creates its own database (the name in DATABASE_URL, fc_load by default; never "fleetcare"),
 loads 50 batteries and 50 crew logins, starts gunicorn (2 workers by default) on 127.0.0.1, and runs:
 
-1. steady: every tablet signs in, then for --seconds (60) loops: GET the entry page for the CSRF
+1. steady: every tablet signs in, then for --seconds (60) loops (the tablets start one by one over the
+   first --ramp-seconds, 5 by default, as a crew's tablets do, not all in one instant): GET the entry page for the CSRF
    token, POST a 24-cell inspection with a client UUID of its own; about 10 % are sent twice at
    once (a double tap), about 5 % lose their answer and are sent again on the next round (a retry).
    With --via api the reading goes as JSON to /api/batteries/<id>/inspections instead (session
@@ -16,9 +17,11 @@ loads 50 batteries and 50 crew logins, starts gunicorn (2 workers by default) on
    A tablet whose submission fails keeps it and resends it later with the same UUID.
 
 With --import-rows N, a CSV file of N cell rows (for 100 batteries of another site) is uploaded through
-the import page first, the background worker (`manage.py db_worker`, started here) imports it, and the
-steady phase starts once the worker has begun: the tablets work while the import runs. The import must
-end stored in full (all its inspections, none twice), and the report says how much of the phase it overlapped.
+the import page --import-after seconds (15) into the steady phase, once every tablet is working, and the
+background worker (`manage.py db_worker`, started here) imports it while the tablets go on. The import must
+end stored in full (all its inspections, none twice) within the phase. The report gives the latency of the
+posts that overlapped the import (from the upload to the import seen finished) beside that of the posts of
+the same phase after the tablets' start that did not (the reference, same run).
 
 Afterwards it checks that the stored inspections are exactly the distinct UUIDs the tablets had
 confirmed, each with all 24 cells, no UUID twice and none the tablets never sent; that the steady
@@ -315,7 +318,8 @@ class BulkImport:
         self.jar = http.cookiejar.CookieJar()
         self.opener = urllib.request.build_opener(urllib.request.HTTPCookieProcessor(self.jar), NoRedirect)
         self.progress_url = None
-        self.finished_after_s = None
+        self.uploaded_after_s = self.running_after_s = self.finished_after_s = None
+        self.at_running = self.error = None
 
     def _open(self, req):
         try:
@@ -352,14 +356,25 @@ class BulkImport:
         status, text, _ = self._open(urllib.request.Request(self.progress_url))
         return json.loads(text) if status == 200 else {"state": f"HTTP {status}"}
 
-    def watch(self, started, stop):
-        """Poll every second from the phase's start (`started`, monotonic) until the import ends or `stop` is set;
-        keeps when it was seen finished, in seconds after the start."""
-        while not stop.is_set():
-            if self.progress().get("finished"):
-                self.finished_after_s = round(time.monotonic() - started, 1)
+    def run_beside(self, started, after_s, until_s):
+        """Upload `after_s` seconds after the phase's start (`started`, monotonic), then poll four times a second
+        until the import is seen finished or `until_s` seconds have passed since the start. Keeps the upload's
+        start, when the worker was seen working and when the import was seen finished (seconds after `started`)."""
+        time.sleep(max(0.0, started + after_s - time.monotonic()))
+        self.uploaded_after_s = time.monotonic() - started
+        try:
+            self.upload()
+        except (Exception, SystemExit) as exc:  # reported by the verdict, not lost with this thread
+            self.error = f"the upload failed: {exc}"
+            return
+        while time.monotonic() - started < until_s:
+            now = self.progress()
+            if self.running_after_s is None and now.get("rows_checked", 0) > 0:
+                self.running_after_s, self.at_running = time.monotonic() - started, now
+            if now.get("finished"):
+                self.finished_after_s = time.monotonic() - started
                 return
-            stop.wait(1)
+            time.sleep(0.25)
 
     def wait(self, until_running=False, seconds=900):
         """Poll every second until the worker has begun (until_running) or the import has finished."""
@@ -511,19 +526,29 @@ def sign_in_all(tablets, seconds=120):
     return {"signed_in": sum(t.signed_in for t in tablets), "latency_ms": latency_ms(stats.latency["sign_in"])}
 
 
-def run_phase(name, tablets, seconds, think_s, outage=None, drain_s=60):
+def run_phase(name, tablets, seconds, think_s, outage=None, drain_s=60, ramp_s=0.0, beside=None):
+    """Every tablet works for `seconds`, starting one by one over the first `ramp_s`; `beside`, a thread started
+    with the tablets (the import), is waited for before the pending submissions are drained."""
     stats = Stats()
     for tablet in tablets:
         tablet.stats = stats
     stop = threading.Event()
     until = time.monotonic() + seconds
-    threads = [threading.Thread(target=t.run, args=(until, think_s, stop), daemon=True) for t in tablets]
+
+    def starting(tablet, delay):
+        time.sleep(delay)
+        tablet.run(until, think_s, stop)
+
+    threads = [threading.Thread(target=starting, args=(t, ramp_s * n / len(tablets)), daemon=True)
+               for n, t in enumerate(tablets)]
     outage_thread = threading.Thread(target=outage.run, daemon=True) if outage else None
     started = time.monotonic()
     for thread in threads:
         thread.start()
     if outage_thread:
         outage_thread.start()
+    if beside is not None:
+        beside.start()
     for thread in threads:
         thread.join(timeout=seconds + REQUEST_TIMEOUT_S * 4 + 30)
     if outage_thread:
@@ -545,6 +570,41 @@ def run_phase(name, tablets, seconds, think_s, outage=None, drain_s=60):
         "client_errors": stats.errors[:10], "outage": outage.log if outage else None,
         "outage_s": getattr(outage, "down_s", None) if outage else None,
     }
+
+
+def import_overlap(phase, bulk, ramp_s, seconds):
+    """The posts of the phase that overlapped the import (from its upload to its being seen finished) against the
+    posts after the tablets' start that did not: latency of each, and when the import ran (seconds into the phase)."""
+    start, end = bulk.uploaded_after_s, bulk.finished_after_s
+    stats, started = phase["stats"], phase["started"]
+    during, outside = [], []
+    for latency, ended_at in zip(stats.latency["post"], stats.ended_at["post"]):
+        post_end = ended_at - started
+        post_start = post_end - latency
+        if start is not None and post_end >= start and (end is None or post_start <= end):
+            during.append(latency)
+        elif post_start >= ramp_s:
+            outside.append(latency)
+    return {
+        "upload_s": bulk.upload_s, "uploaded_after_phase_start_s": _rounded(start),
+        "seen_working_after_s": _rounded(bulk.running_after_s), "at_seen_working": bulk.at_running,
+        "seen_finished_after_phase_start_s": _rounded(end),
+        "finished_within_the_phase": end is not None and end <= seconds,
+        "inspection_post_while_importing_ms": latency_ms(during),
+        "inspection_post_rest_of_phase_ms": latency_ms(outside),
+    }
+
+
+def _rounded(seconds):
+    return None if seconds is None else round(seconds, 1)
+
+
+def write_timeline(path, phase):
+    """Each post of the phase as a line: seconds from the phase's start to the post's end, and its latency in ms."""
+    stats = phase["stats"]
+    with open(path, "w") as out:
+        for seconds, ended_at in zip(stats.latency["post"], stats.ended_at["post"]):
+            out.write(f"{ended_at - phase['started']:.3f} {seconds * 1000:.0f}\n")
 
 
 def check_bulk(site_code="bulk"):
@@ -604,7 +664,12 @@ def main():
     parser.add_argument("--outage-phase-seconds", type=float, default=40)
     parser.add_argument("--import-rows", type=int, default=0,
                         help="Cell rows of a CSV import the background worker runs during the steady phase (0: none).")
+    parser.add_argument("--ramp-seconds", type=float, default=5.0,
+                        help="The tablets start one by one over this many seconds of the steady phase (0: all at once).")
+    parser.add_argument("--import-after", type=float, default=15.0,
+                        help="Seconds into the steady phase at which the import is uploaded (with --import-rows).")
     parser.add_argument("--json", dest="json_path")
+    parser.add_argument("--timeline", help="Write each post of the steady phase to this file: seconds into the phase, latency in ms.")
     args = parser.parse_args()
     if not 1 <= args.tablets <= 200 or not 1 <= args.seconds <= 600 or not 1 <= args.outage_seconds <= 19:
         raise SystemExit("bounds: 1-200 tablets, 1-600 s, an outage of 1-19 s")
@@ -637,35 +702,27 @@ def main():
                "tablets": args.tablets, "via": args.via, "gunicorn": f"{args.workers} workers x {args.threads} threads", "phases": []}
     try:
         results["sign_in"] = sign_in_all(tablets)
-        bulk = None
+        bulk = beside = None
+        phase_started = time.monotonic()
         if args.import_rows:
             path = ROOT / "test-artifacts" / "load-import.csv"
             readings = write_import_file(path, args.import_rows)
             bulk = BulkImport(base, path)
-            bulk.upload()
-            began = bulk.wait(until_running=True)
-            results["import"] = {"rows": args.import_rows, "inspections": readings, "upload_s": bulk.upload_s,
-                                 "at_phase_start": began}
-        phase_started = time.monotonic()
-        watching = threading.Event()
-        watcher = None
+            results["import"] = {"rows": args.import_rows, "inspections": readings}
+            phase_started = time.monotonic()
+            beside = threading.Thread(target=bulk.run_beside, args=(phase_started, args.import_after, args.seconds),
+                                      daemon=True)
+        steady = run_phase("steady", tablets, args.seconds, args.think, drain_s=30, ramp_s=args.ramp_seconds,
+                           beside=beside)
         if bulk is not None:
-            watcher = threading.Thread(target=bulk.watch, args=(phase_started, watching), daemon=True)
-            watcher.start()
-        steady = run_phase("steady", tablets, args.seconds, args.think, drain_s=30)
-        if bulk is not None:
-            results["import"]["after_phase_and_drain"] = bulk.progress()
+            beside.join(timeout=5)
+            if bulk.error:
+                raise SystemExit(bulk.error)
             results["import"]["finished"] = bulk.wait()
-            watching.set()
-            watcher.join(timeout=5)
-            ended = bulk.finished_after_s
-            results["import"]["seen_finished_after_phase_start_s"] = ended
-            results["import"]["ran_through_the_whole_phase"] = ended is None or ended >= args.seconds
-            # The tablets' posts that ended while the import was still running (before it was seen finished).
-            stats, until = steady["stats"], phase_started + (ended if ended is not None else float("inf"))
-            during = [s for s, at in zip(stats.latency["post"], stats.ended_at["post"]) if at <= until]
-            results["import"]["inspection_post_while_importing_ms"] = latency_ms(during)
+            results["import"] |= import_overlap(steady, bulk, args.ramp_seconds, args.seconds)
             results["import"]["stored"] = check_bulk()
+        if args.timeline:
+            write_timeline(args.timeline, steady)
         steady["store"] = check_store(tablets)
         results["phases"].append(steady)
         if args.outage != "none":
