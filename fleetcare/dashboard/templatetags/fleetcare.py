@@ -1,5 +1,5 @@
 from django import template
-from django.utils.html import format_html
+from django.utils.html import format_html, format_html_join
 from django.utils.safestring import mark_safe
 
 from fleetcare.accounts.roles import SUPERVISOR, has_role
@@ -22,6 +22,25 @@ def chart(fig, element_id, label=""):
         '<script type="application/json" id="{}-data">{}</script>',
         element_id, element_id, label, element_id, mark_safe(payload),
     )
+
+
+@register.simple_tag
+def count_cells(row):
+    """A row of the overview's count table: a cell per site and one for all of them, each count a link to the list
+    of those batteries (marked when it needs someone to act), a zero plain. One tag for the row rather than a
+    template loop per cell: with a hundred sites the table has thousands of cells."""
+    flag = mark_safe('<span class="fc-flag" aria-hidden="true">!</span>') if row["attention"] else ""
+    link_class = "fc-count fc-attention" if row["attention"] else "fc-count"
+    last = len(row["cells"]) - 1
+
+    def cell(n, c):
+        where = "text-end fc-all" if n == last else "text-end"
+        if not c["count"]:
+            return (where, mark_safe('<span class="fc-zero">0</span>'))
+        return (where, format_html('<a class="{}" href="{}" aria-label="{}: {} at {}">{}{}</a>', link_class, c["url"],
+                                   row["label"], c["count"], c["where"], flag, c["count"]))
+
+    return format_html_join("\n", '<td class="{}">{}</td>', (cell(n, c) for n, c in enumerate(row["cells"])))
 
 
 @register.filter
