@@ -12,7 +12,6 @@ from datetime import UTC, datetime, time, timedelta
 from decimal import Decimal
 from zoneinfo import ZoneInfo
 
-from django.db import connections
 from django.db.models import Count, FloatField, Q, Sum
 from django.db.models.functions import Cast, TruncDate
 from django.utils import timezone
@@ -25,6 +24,7 @@ from fleetcare.care import policy as care_policy
 from fleetcare.care.models import Finding
 from fleetcare.care.models import Policy as CarePolicy
 from fleetcare.fleet.models import BatteryProfile, Site
+from fleetcare.plain_rows import plain_rows
 from fleetcare.readings import state
 from fleetcare.readings.models import BatteryMonth, Inspection
 
@@ -87,7 +87,7 @@ def battery_facts(batteries, today, rules=DEFAULT_RULES):
                                 taken_at__gte=_start_of(today - timedelta(days=rules.trend_window_days)))
     # Half a million points at 10,000 batteries: the database gives each its UTC day and its figures as floats
     # (the values float() would give), so Python only sorts them into batteries.
-    point_rows = _plain_rows(window.order_by("battery_id", "taken_at").values_list(
+    point_rows = plain_rows(window.order_by("battery_id", "taken_at").values_list(
         "battery_id", TruncDate("taken_at", tzinfo=UTC), Cast("sg_mean", FloatField()),
         Cast("sg_spread", FloatField()), "lowest_position", Cast("sg_min", FloatField()),
     ))
@@ -152,20 +152,6 @@ def _measured_depths(batteries, today, rules):
             sums[battery_id][0] += n
             sums[battery_id][1] += total
     return {pk: 100 - float(total / n) for pk, (n, total) in sums.items() if n and n >= rules.min_trend_points}
-
-
-def _plain_rows(queryset):
-    """The rows of a values_list() queryset. On PostgreSQL they come straight from the driver, whose dates and
-    floats are already what Django's converters would return, sparing a Python call per value; other databases
-    (SQLite gives dates as text) go through the converters."""
-    database = connections[queryset.db]
-    if database.vendor != "postgresql":
-        yield from queryset
-        return
-    sql, params = queryset.query.sql_with_params()
-    with database.cursor() as cursor:
-        cursor.execute(sql, params)
-        yield from cursor.fetchall()
 
 
 def _float(value):
