@@ -42,3 +42,12 @@ def test_its_batteries_have_their_kept_state(small_fleet):
     assert BatteryState.objects.count() == 2
     assert state.differences() == {}
     assert BatteryState.objects.get(battery__serial="B00001").charge_count == 157
+
+
+def test_its_fleet_has_its_findings_before_anything_is_measured(small_fleet):
+    # Every part is measured on a fleet in use: the weak battery's finding is open from the start, not only from
+    # the round after the findings pass first ran.
+    from fleetcare.care.models import Finding
+
+    kinds = set(Finding.objects.active().filter(battery__serial="B00001").values_list("kind", flat=True))
+    assert "weak_cell" in kinds or "high_spread" in kinds
