@@ -62,6 +62,8 @@ class Finding(models.Model):
         default=False, help_text="Seen on two or more consecutive post-charge inspections."
     )
     opened_at = models.DateTimeField()
+    # Rewritten on every active finding by every findings pass: kept out of every index, so that the rewrite
+    # stays beside the old row version in the room the table leaves on each page (migration 0012).
     last_seen_at = models.DateTimeField()
     cleared_at = models.DateTimeField(null=True, blank=True)
     inspection = models.ForeignKey(
