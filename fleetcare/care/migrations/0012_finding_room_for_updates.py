@@ -3,8 +3,9 @@ from django.db import migrations
 # Every findings pass rewrites the last-seen time of every active finding (25,000 rows at 10,000 batteries).
 # With its pages full, each new row version went to another page and into all eight indexes of the table;
 # with 30 % of each page left free, PostgreSQL writes it beside the old one and touches no index (a "HOT"
-# update, possible because no index holds last_seen_at). Measured on the benchmark's 10,000-battery fleet:
-# the update took 0.6-1.1 s before, 0.16-0.28 s after. Existing pages take the setting as they are rewritten.
+# update, possible because no index holds last_seen_at). Measured with psql on a 10,000-battery benchmark fleet:
+# the update took 0.6-1.1 s before, 0.16-0.28 s after (docs/benchmarks.md). Existing pages take the setting as
+# they are rewritten.
 FILLFACTOR = 70
 
 
